@@ -1,0 +1,104 @@
+"""Typed views of the service's answers. Each keeps the full JSON in `raw`."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+
+@dataclass(frozen=True)
+class Health:
+    status: str
+    version: str
+
+    @classmethod
+    def from_json(cls, body: dict) -> "Health":
+        return cls(status=body["status"], version=body["version"])
+
+
+@dataclass(frozen=True)
+class Rule:
+    id: str
+    title: str
+    citation: str
+    certainty: str
+    summary: str
+
+
+@dataclass(frozen=True)
+class Profile:
+    id: str
+    name: str
+    region: str
+    band_hz: tuple[float, float] | None
+    coordination_caution: bool
+    rules: tuple[Rule, ...]
+
+    @classmethod
+    def from_json(cls, body: dict) -> "Profile":
+        band = body.get("band")
+        return cls(id=body["id"], name=body["name"], region=body["region"],
+                   band_hz=None if band is None else (band["low_hz"], band["high_hz"]),
+                   coordination_caution=body["coordination_caution"],
+                   rules=tuple(Rule(**r) for r in body["rules"]))
+
+
+@dataclass(frozen=True)
+class Finding:
+    rule: str
+    citation: str
+    certainty: str
+    status: str
+    message: str
+
+
+@dataclass(frozen=True)
+class SystemResult:
+    id: str
+    label: str
+    hop_set: tuple[int, ...]
+    collision_probability: float
+    attempt_loss_probability: float
+    residual_loss_probability: float
+    expected_attempts: float
+    compliance_status: str
+    findings: tuple[Finding, ...]
+    worst_source: str | None
+    raw: dict = field(repr=False)
+
+    @classmethod
+    def from_json(cls, body: dict) -> "SystemResult":
+        sources = sorted(body["sources"], key=lambda s: s["collision_probability"], reverse=True)
+        worst = sources[0]["id"] if sources and sources[0]["collision_probability"] > 0 else None
+        findings = tuple(Finding(f["rule"], f["citation"], f["certainty"], f["status"], f["message"])
+                         for f in body["compliance"]["findings"])
+        return cls(id=body["id"], label=body["label"], hop_set=tuple(body["hop_set"]),
+                   collision_probability=body["per_hop"]["collision_probability"],
+                   attempt_loss_probability=body["per_attempt"]["loss_probability"],
+                   residual_loss_probability=body["retries"]["residual_loss_probability"],
+                   expected_attempts=body["retries"]["expected_attempts"],
+                   compliance_status=body["compliance"]["status"], findings=findings, worst_source=worst, raw=body)
+
+
+@dataclass(frozen=True)
+class Assessment:
+    profile_id: str
+    cautions: tuple[str, ...]
+    systems: tuple[SystemResult, ...]
+    weighted_collision_probability: float
+    worst_system: str
+    simulation: dict[str, Any] | None
+    raw: dict = field(repr=False)
+
+    @classmethod
+    def from_json(cls, body: dict) -> "Assessment":
+        return cls(profile_id=body["profile"]["id"], cautions=tuple(body["cautions"]),
+                   systems=tuple(SystemResult.from_json(s) for s in body["systems"]),
+                   weighted_collision_probability=body["summary"]["weighted_collision_probability"],
+                   worst_system=body["summary"]["worst_system"], simulation=body.get("simulation"), raw=body)
+
+    def system(self, system_id: str) -> SystemResult:
+        for s in self.systems:
+            if s.id == system_id:
+                return s
+        raise KeyError(system_id)

@@ -1,0 +1,66 @@
+"""The application factory."""
+
+from __future__ import annotations
+
+import http
+
+import flask
+from flask_smorest import Api
+
+from cohop import __version__
+from cohop.api import problems
+from cohop.api.schemas.problem import ProblemSchema
+
+DEFAULTS = {
+    "MAX_CONTENT_LENGTH": 16 * 1024 * 1024,
+    "COHOP_MAX_SIMULATED_ATTEMPTS": 50_000_000,
+    "API_TITLE": "cohop",
+    "API_VERSION": __version__,
+    "OPENAPI_VERSION": "3.0.3",
+    "OPENAPI_URL_PREFIX": "/",
+    "OPENAPI_JSON_PATH": "openapi.json",
+    "API_SPEC_OPTIONS": {
+        "info": {"description": "Interference-aware channel planning for co-located frequency-hopping networks. "
+                                "Every answer is a planning estimate: confirm it with a site survey; local "
+                                "regulations, the regulator and licensed practice prevail."},
+    },
+}
+
+
+class CohopApi(Api):
+    """flask-smorest's Api with RFC 9457 problem details as the documented error body."""
+
+    ERROR_SCHEMA = ProblemSchema
+
+    def _register_responses(self):
+        for status in http.HTTPStatus:
+            response = {"description": status.phrase}
+            if status >= 400:
+                response["content"] = {problems.PROBLEM_JSON: {"schema": self.ERROR_SCHEMA}}
+            self.spec.components.response(status.name, response, lazy=True)
+        self.spec.components.response(
+            "DEFAULT_ERROR", {"description": "Problem details (RFC 9457)",
+                              "content": {problems.PROBLEM_JSON: {"schema": self.ERROR_SCHEMA}}}, lazy=True)
+
+    def _register_error_handlers(self):
+        problems.register(self._app)
+
+
+def _require_json():
+    req = flask.request
+    if req.method in ("POST", "PUT", "PATCH") and not req.is_json:
+        flask.abort(415, description="send the body as application/json")
+
+
+def create_app(config: dict | None = None) -> flask.Flask:
+    app = flask.Flask("cohop")
+    app.config.update(DEFAULTS)
+    app.config.update(config or {})
+    app.json.sort_keys = False
+    app.before_request(_require_json)
+    api = CohopApi(app)
+    from cohop.api.views import assessments, meta, profiles
+
+    for blp in (assessments.blp, profiles.blp, meta.blp):
+        api.register_blueprint(blp)
+    return app

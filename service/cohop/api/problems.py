@@ -1,0 +1,87 @@
+"""Every error leaves through here as RFC 9457 problem details."""
+
+from __future__ import annotations
+
+import json
+import logging
+
+from flask import Flask, Response, request
+from werkzeug.exceptions import HTTPException, InternalServerError
+
+from cohop.errors import SiteError
+
+PROBLEM_JSON = "application/problem+json"
+VALIDATION = "urn:cohop:problem:invalid-request"
+SITE = "urn:cohop:problem:site-not-evaluable"
+
+log = logging.getLogger("cohop.api")
+
+
+def problem(status: int, title: str, detail: str | None = None, type_: str = "about:blank",
+            errors: list[dict] | None = None, headers: dict | None = None, **extensions) -> Response:
+    body = {"type": type_, "title": title, "status": status}
+    if detail:
+        body["detail"] = detail
+    body["instance"] = request.path if request else ""
+    if errors:
+        body["errors"] = errors
+    body.update(extensions)
+    resp = Response(json.dumps(body), status=status, mimetype=PROBLEM_JSON)
+    for k, v in (headers or {}).items():
+        resp.headers[k] = v
+    return resp
+
+
+def _escape(token) -> str:
+    return str(token).replace("~", "~0").replace("/", "~1")
+
+
+def flatten_messages(messages, prefix: str = "") -> list[dict]:
+    """marshmallow's nested messages -> [{pointer, detail}], sorted by pointer."""
+    out = []
+    if isinstance(messages, dict):
+        for key, value in messages.items():
+            path = prefix if key == "_schema" else f"{prefix}/{_escape(key)}"
+            out.extend(flatten_messages(value, path))
+    elif isinstance(messages, list) and all(isinstance(m, str) for m in messages):
+        out.extend({"pointer": prefix or "", "detail": m} for m in messages)
+    elif isinstance(messages, list):
+        for m in messages:
+            out.extend(flatten_messages(m, prefix))
+    else:
+        out.append({"pointer": prefix or "", "detail": str(messages)})
+    return sorted(out, key=lambda e: e["pointer"])
+
+
+def _http_exception(err: HTTPException):
+    data = getattr(err, "data", None) or {}
+    messages = data.get("messages")
+    if err.code == 422 and messages is not None:
+        body_messages = messages.get("json", messages) if isinstance(messages, dict) else messages
+        errors = flatten_messages(body_messages)
+        return problem(422, "Invalid request", f"{len(errors)} field(s) failed validation", VALIDATION, errors)
+    if err.code == 413:
+        return problem(413, "Request body too large",
+                       f"the body exceeds this server's cap of {request.max_content_length} bytes")
+    headers = {k: v for k, v in (data.get("headers") or {}).items()}
+    if err.code == 405 and err.valid_methods:
+        headers["Allow"] = ", ".join(err.valid_methods)
+    return problem(err.code or 500, err.name, data.get("message") or err.description, headers=headers)
+
+
+def _site_error(err: SiteError):
+    errors = [{"pointer": p, "detail": m} for p, m in err.problems]
+    return problem(422, "Site cannot be evaluated", "; ".join(m for _, m in err.problems), SITE, errors)
+
+
+def _unexpected(err: Exception):
+    if isinstance(err, HTTPException):
+        return _http_exception(err)
+    log.exception("unhandled error")
+    return _http_exception(InternalServerError())
+
+
+def register(app: Flask) -> None:
+    app.register_error_handler(HTTPException, _http_exception)
+    app.register_error_handler(SiteError, _site_error)
+    app.register_error_handler(Exception, _unexpected)

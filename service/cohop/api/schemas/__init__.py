@@ -1,0 +1,1 @@
+"""marshmallow schemas: requests load into cohop.site dataclasses; responses dump."""

@@ -1,0 +1,22 @@
+"""RFC 9457 problem details: the one error body the service sends."""
+
+from __future__ import annotations
+
+from marshmallow import fields
+
+from cohop.api.schemas.site import StrictSchema
+
+
+class FieldErrorSchema(StrictSchema):
+    pointer = fields.String(metadata={"description": "JSON pointer (RFC 6901) into the request body"})
+    detail = fields.String()
+
+
+class ProblemSchema(StrictSchema):
+    type = fields.String(metadata={"description": "URI reference naming the problem type"})
+    title = fields.String()
+    status = fields.Integer()
+    detail = fields.String()
+    instance = fields.String()
+    errors = fields.List(fields.Nested(FieldErrorSchema), metadata={
+        "description": "Every offending field, when the request was invalid"})

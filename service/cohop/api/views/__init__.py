@@ -1,0 +1,1 @@
+"""HTTP views: parse, call one domain function, serialise."""

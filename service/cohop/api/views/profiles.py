@@ -1,0 +1,53 @@
+"""GET /v1/profiles: the regulatory profiles and their rules."""
+
+from __future__ import annotations
+
+from flask.views import MethodView
+from flask_smorest import Blueprint, abort
+from marshmallow import fields
+
+from cohop.api.schemas.site import StrictSchema
+from cohop.regulatory import PROFILES
+
+blp = Blueprint("profiles", __name__, url_prefix="/v1", description="Regulatory profiles")
+
+
+class RuleSchema(StrictSchema):
+    id = fields.String()
+    title = fields.String()
+    citation = fields.String()
+    certainty = fields.String()
+    summary = fields.String()
+
+
+class ProfileSchema(StrictSchema):
+    id = fields.String()
+    name = fields.String()
+    region = fields.String()
+    band = fields.Dict(allow_none=True, metadata={"description": "low_hz and high_hz; null: the request gives it"})
+    coordination_caution = fields.Boolean()
+    rules = fields.List(fields.Nested(RuleSchema))
+
+
+def _profile_dict(p) -> dict:
+    band = None if p.band is None else {"low_hz": p.band.low_hz, "high_hz": p.band.high_hz}
+    return {"id": p.id, "name": p.name, "region": p.region, "band": band,
+            "coordination_caution": p.coordination_caution, "rules": list(p.rules)}
+
+
+@blp.route("/profiles")
+class Profiles(MethodView):
+    @blp.response(200, ProfileSchema(many=True))
+    def get(self):
+        """List the regulatory profiles with every rule's citation and certainty."""
+        return [_profile_dict(p) for p in PROFILES.values()]
+
+
+@blp.route("/profiles/<profile_id>")
+class OneProfile(MethodView):
+    @blp.response(200, ProfileSchema)
+    def get(self, profile_id):
+        """One regulatory profile."""
+        if profile_id not in PROFILES:
+            abort(404, message=f"no profile {profile_id!r}")
+        return _profile_dict(PROFILES[profile_id])

@@ -1,0 +1,153 @@
+"""The `cohop` command line.
+
+Without --server it runs the service in-process (no server needed); with
+--server URL it talks HTTP through the same client.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+from pathlib import Path
+
+from cohop_client import Client, CohopError, InvalidRequest
+
+
+def _service_missing(err: ImportError) -> int:
+    print(f"cohop: the embedded service needs the service extra ({err.name} is missing): "
+          "pip install 'cohop[service]', or give --server URL", file=sys.stderr)
+    return 2
+
+
+def _client(args) -> Client:
+    token = args.token or os.environ.get("COHOP_TOKEN")
+    if args.server:
+        return Client(args.server, timeout_s=args.timeout, token=token)
+    from cohop.api import create_app
+    from cohop.embedded import EMBEDDED_URL, embedded_session
+
+    return Client(EMBEDDED_URL, timeout_s=args.timeout, token=token, session=embedded_session(create_app()))
+
+
+def _load_request(args) -> dict:
+    if args.site is not None:
+        try:
+            body = json.loads(Path(args.site).read_text(encoding="utf-8"))
+        except OSError as err:
+            raise SystemExit(f"cohop: cannot read {args.site}: {err.strerror}")
+        except json.JSONDecodeError as err:
+            raise SystemExit(f"cohop: {args.site} is not valid JSON: {err}")
+    else:
+        from cohop import samples
+
+        try:
+            body = samples.load(args.sample)
+        except KeyError as err:
+            raise SystemExit(f"cohop: {err.args[0]}")
+        print(f"(embedded sample site '{args.sample}'; give a file to assess your own)", file=sys.stderr)
+    if not isinstance(body, dict):
+        raise SystemExit("cohop: the site file must hold a JSON object")
+    return body if "site" in body else {"site": body}
+
+
+def _cmd_assess(args) -> int:
+    from cohop.render import assessment_table
+
+    body = _load_request(args)
+    simulation = body.get("simulation")
+    if args.trials is not None:
+        simulation = {"trials_per_system": args.trials, "seed": args.seed}
+    detail = args.detail or body.get("detail")
+    with _client(args) as api:
+        if simulation:
+            print("simulating...", file=sys.stderr, flush=True)
+        result = api.assess(body["site"], simulation=simulation, detail=detail)
+    if args.save:
+        Path(args.save).write_text(json.dumps(result.raw, indent=2) + "\n", encoding="utf-8")
+    if args.json:
+        print(json.dumps(result.raw, indent=2))
+    else:
+        print(assessment_table(result))
+        if args.save:
+            print(f"\nfull answer written to {args.save}")
+    return 0
+
+
+def _cmd_profiles(args) -> int:
+    from cohop.render import profiles_table
+
+    with _client(args) as api:
+        profiles = api.profiles()
+    print(json.dumps([p.__dict__ for p in profiles], default=lambda o: o.__dict__, indent=2) if args.json
+          else profiles_table(profiles))
+    return 0
+
+
+def _cmd_samples(args) -> int:
+    from cohop import samples
+
+    for name in samples.names():
+        print(f"{name}: {samples.load(name)['site'].get('name', '')}")
+    return 0
+
+
+def _cmd_serve(args) -> int:
+    from cohop.api import create_app
+
+    print(f"cohop development server on http://{args.host}:{args.port} (not for production)", file=sys.stderr)
+    create_app().run(host=args.host, port=args.port)
+    return 0
+
+
+def _common(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--server", metavar="URL", help="use this service over HTTP instead of running it in-process")
+    p.add_argument("--token", help="bearer token (default: $COHOP_TOKEN)")
+    p.add_argument("--timeout", type=float, default=120.0, metavar="S", help="seconds to wait for an answer")
+    p.add_argument("--json", action="store_true", help="print the JSON answer instead of the table")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="cohop", description="Channel planning for co-located FHSS networks. "
+                                     "Every figure is a planning estimate: confirm with a site survey.")
+    sub = parser.add_subparsers(dest="command", required=True)
+    p = sub.add_parser("assess", help="predict collisions, losses and compliance of each system's hop set")
+    p.add_argument("site", nargs="?", help="site JSON (a request body or a bare site); default: a sample")
+    p.add_argument("--sample", default="water_works_us915", help="embedded sample to use when no file is given")
+    p.add_argument("--trials", type=int, metavar="N", help="also run a Monte Carlo check with N attempts per system")
+    p.add_argument("--seed", type=int, default=0, help="Monte Carlo seed")
+    p.add_argument("--detail", choices=("system", "channel", "source"), help="how much per-channel detail")
+    p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
+    _common(p)
+    p.set_defaults(func=_cmd_assess)
+    p = sub.add_parser("profiles", help="list the regulatory profiles and their rules")
+    _common(p)
+    p.set_defaults(func=_cmd_profiles)
+    p = sub.add_parser("samples", help="list the embedded sample sites")
+    p.set_defaults(func=_cmd_samples)
+    p = sub.add_parser("serve", help="run a development server")
+    p.add_argument("--host", default="127.0.0.1")
+    p.add_argument("--port", type=int, default=8080)
+    p.set_defaults(func=_cmd_serve)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    try:
+        return args.func(args)
+    except ImportError as err:
+        return _service_missing(err)
+    except InvalidRequest as err:
+        print(f"cohop: the service rejected the request: {err}", file=sys.stderr)
+        for fe in err.field_errors:
+            print(f"  {fe.pointer or '/'}: {fe.detail}", file=sys.stderr)
+        return 1
+    except CohopError as err:
+        print(f"cohop: {err}", file=sys.stderr)
+        return 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,1 @@
+"""Pure physics: propagation, thermal noise, fading, receiver rejection."""

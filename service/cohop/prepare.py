@@ -1,0 +1,273 @@
+"""Resolve a validated Site into arrays the evaluator and planner work on.
+
+Index conventions: systems by position in `site.systems` (v: victim /
+receiver, a: source / transmitter), channels by grid index, interferers by
+position in `site.interferers` (k). Matrices that describe harm are indexed
+[victim, source].
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from cohop.errors import SiteError
+from cohop.physics import fading, propagation
+from cohop.physics.rejection import OFFSET_TOLERANCE, harmful_bound_hz, window_channels
+from cohop.regulatory import get_profile
+from cohop.regulatory.profiles import Profile
+from cohop.site import Band, Interferer, Position, Propagation, Site, System
+from cohop.stats.overlap import ALIGNED, OverlapCount, random_phase_overlap
+
+#: Float noise allowance when fitting channels into band edges [Hz].
+_EDGE_EPS_HZ = 1e-3
+
+
+@dataclass(frozen=True)
+class SourceLink:
+    """How one source (system or fixed interferer) can hurt one victim."""
+
+    level_dbm: float  # interfering level at the victim's receiver input (in its channel)
+    excess_db: float  # level - (wanted - SIR): > 0 means harmful co-channel
+    bound_hz: float  # offsets below this are harmful (0 none, inf all)
+    overlap: OverlapCount | None  # None: a continuous interferer (time factor = activity)
+    activity_fraction: float
+    aligned: bool = False  # slot-aligned systems of one time-base group
+
+
+@dataclass(frozen=True)
+class PreparedSite:
+    site: Site
+    profile: Profile
+    band: Band
+    centres_hz: np.ndarray  # (C,)
+    usable: np.ndarray  # (S, C) bool: channel fits the band for this system's bandwidth
+    wanted_dbm: np.ndarray  # (S,)
+    fade_margin_db: np.ndarray  # (S,)
+    fade_probability: np.ndarray  # (S,) per hop
+    coupling_loss_db: np.ndarray  # (S, S) [tx a, rx v]; nan on the diagonal
+    coupling_explicit: np.ndarray  # (S, S) bool: given in the request, not computed
+    links: tuple[tuple[SourceLink | None, ...], ...]  # [v][a]; None on the diagonal
+    window: np.ndarray  # (S, S) int [v, a]: harmful iff |c - c'| <= window (-1: never)
+    interferer_links: tuple[tuple[SourceLink, ...], ...]  # [v][k]
+    interferer_range: np.ndarray  # (S, K, 2) int [v, k]: harmful grid channels lo <= c < hi
+
+    @property
+    def n_systems(self) -> int:
+        return len(self.site.systems)
+
+    @property
+    def n_channels(self) -> int:
+        return int(self.centres_hz.size)
+
+    @property
+    def spacing_hz(self) -> float:
+        return self.site.grid.spacing_hz
+
+    def usable_channels(self, v: int) -> np.ndarray:
+        return np.flatnonzero(self.usable[v])
+
+
+def effective_band(site: Site, profile: Profile) -> Band:
+    """The request's band if given (it must lie inside the profile's), else the profile's."""
+    if site.band is not None:
+        return site.band
+    if profile.band is None:
+        raise SiteError([("/band", f"profile {profile.id!r} has no band: give low_hz and high_hz")])
+    return profile.band
+
+
+def _usable(site: Site, band: Band, centres: np.ndarray) -> np.ndarray:
+    half = np.array([s.bandwidth_hz / 2 for s in site.systems])[:, None]
+    return (centres[None, :] - half >= band.low_hz - _EDGE_EPS_HZ) & (
+        centres[None, :] + half <= band.high_hz + _EDGE_EPS_HZ)
+
+
+def _distance_m(a: Position, b: Position, floor_height_m: float) -> float:
+    dz = (a.floor - b.floor) * floor_height_m
+    return math.sqrt((a.x_m - b.x_m) ** 2 + (a.y_m - b.y_m) ** 2 + dz**2)
+
+
+def path_loss_db(prop: Propagation, frequency_hz: float, distance_m: float, floors: int) -> float:
+    """Median path loss for one link with the site's propagation model.
+
+    Raises ValueError (with a user-facing message) when the model lacks a
+    coefficient it needs.
+    """
+    per_floor = prop.floor_loss_db
+    if prop.model == "free_space":
+        loss = float(propagation.free_space_loss_db(frequency_hz, distance_m))
+        return loss + (per_floor or 0.0) * floors
+    if prop.model == "log_distance":
+        ref = prop.reference_loss_db
+        if ref is None:  # common practice: free-space loss at the reference distance
+            ref = float(propagation.free_space_loss_db(frequency_hz, prop.reference_distance_m))
+        loss = float(propagation.log_distance_loss_db(distance_m, prop.exponent, ref, prop.reference_distance_m))
+        return loss + (per_floor or 0.0) * floors
+    if prop.model == "p1238":
+        n = prop.power_loss_coefficient
+        if n is None:
+            n = propagation.p1238_power_loss_coefficient(frequency_hz, prop.environment)
+        if n is None:
+            raise ValueError(f"ITU-R P.1238 gives no distance power-loss coefficient for "
+                             f"{prop.environment!r} at {frequency_hz / 1e6:.1f} MHz here: "
+                             "set power_loss_coefficient")
+        lf = per_floor * floors if per_floor is not None else propagation.p1238_floor_loss_db(
+            frequency_hz, prop.environment, floors)
+        if lf is None:
+            raise ValueError(f"ITU-R P.1238 gives no floor penetration loss for {floors} floor(s), "
+                             f"{prop.environment!r} at {frequency_hz / 1e6:.1f} MHz here: set floor_loss_db")
+        return float(propagation.p1238_loss_db(frequency_hz, distance_m, n, lf))
+    raise ValueError(f"unknown propagation model {prop.model!r}")
+
+
+def _link_loss(prop: Propagation, f_hz: float, a: Position, b: Position, pointer: str) -> float:
+    try:
+        return path_loss_db(prop, f_hz, _distance_m(a, b, prop.floor_height_m), abs(a.floor - b.floor))
+    except ValueError as exc:
+        raise SiteError([(pointer, str(exc))]) from None
+
+
+def _wanted_and_margin(site: Site, f_hz: float) -> tuple[np.ndarray, np.ndarray]:
+    prop = site.coupling.propagation
+    wanted, margin = [], []
+    for i, s in enumerate(site.systems):
+        if s.wanted_signal_dbm is not None:
+            w = s.wanted_signal_dbm
+        else:  # S = P_tx + G_tx + G_rx - L(link); same antennas at both ends
+            if prop is None:
+                raise SiteError([(f"/systems/{i}/link_distance_m",
+                                  "a link distance needs coupling.propagation to compute the wanted signal")])
+            here = Position(0.0, 0.0)
+            loss = _link_loss(prop, f_hz, here, Position(s.link_distance_m, 0.0), f"/systems/{i}")
+            w = s.tx_power_dbm + 2 * s.antenna_gain_dbi - loss - prop.margin_db
+        wanted.append(w)
+        margin.append(s.fade_margin_db if s.fade_margin_db is not None else w - s.sensitivity_dbm)
+    return np.array(wanted), np.array(margin)
+
+
+def _coupling(site: Site, f_hz: float) -> tuple[np.ndarray, np.ndarray]:
+    n = len(site.systems)
+    idx = site.system_index()
+    loss = np.full((n, n), np.nan)
+    explicit = np.zeros((n, n), dtype=bool)
+    for e in site.coupling.entries:  # a given direction first ...
+        loss[idx[e.from_system], idx[e.to_system]] = e.loss_db
+        explicit[idx[e.from_system], idx[e.to_system]] = True
+    for e in site.coupling.entries:  # ... then reciprocity where the reverse is not given
+        a, v = idx[e.to_system], idx[e.from_system]
+        if not explicit[a, v] and np.isnan(loss[a, v]):
+            loss[a, v] = e.loss_db
+    prop = site.coupling.propagation
+    missing = []
+    for a in range(n):
+        for v in range(n):
+            if a == v or not np.isnan(loss[a, v]):
+                continue
+            pa, pv = site.systems[a].position, site.systems[v].position
+            if prop is None or pa is None or pv is None:
+                missing.append((a, v))
+                continue
+            path = _link_loss(prop, f_hz, pa, pv, "/coupling/propagation")
+            loss[a, v] = (path - site.systems[a].antenna_gain_dbi - site.systems[v].antenna_gain_dbi
+                          - prop.margin_db)
+    if missing:
+        pairs = ", ".join(f"{site.systems[a].id}->{site.systems[v].id}" for a, v in missing[:10])
+        more = f" and {len(missing) - 10} more" if len(missing) > 10 else ""
+        raise SiteError([("/coupling", f"no coupling loss for {pairs}{more}: give an entry, or positions for "
+                                       "both systems and a propagation model")])
+    explicit_any = explicit | explicit.T
+    np.fill_diagonal(explicit_any, False)
+    return loss, explicit_any
+
+
+def _link(victim: System, wanted_dbm: float, level_dbm: float, overlap, activity: float,
+          aligned: bool = False) -> SourceLink:
+    excess = level_dbm - (wanted_dbm - victim.required_sir_db)
+    offsets = [p.offset_hz for p in victim.rejection]
+    rejections = [p.rejection_db for p in victim.rejection]
+    return SourceLink(level_dbm=level_dbm, excess_db=excess, bound_hz=harmful_bound_hz(excess, offsets, rejections),
+                      overlap=overlap, activity_fraction=activity, aligned=aligned)
+
+
+def _system_links(site: Site, wanted: np.ndarray, loss: np.ndarray):
+    systems = site.systems
+    links, window = [], np.full((len(systems), len(systems)), -1, dtype=int)
+    for v, victim in enumerate(systems):
+        row = []
+        for a, source in enumerate(systems):
+            if a == v:
+                row.append(None)
+                continue
+            level = source.tx_power_dbm - loss[a, v]  # I = P_a - C_av
+            aligned = victim.time_base_group is not None and victim.time_base_group == source.time_base_group
+            overlap = ALIGNED if aligned else random_phase_overlap(
+                victim.packet_airtime_s, source.packet_airtime_s, source.dwell_s)
+            link = _link(victim, wanted[v], level, overlap, source.activity_fraction, aligned)
+            window[v, a] = window_channels(link.bound_hz, site.grid.spacing_hz, site.grid.count)
+            row.append(link)
+        links.append(tuple(row))
+    return tuple(links), window
+
+
+def _interferer_level(site: Site, k: int, itf: Interferer, v: int, f_hz: float) -> float:
+    given = {lv.system: lv.level_dbm for lv in itf.levels}
+    victim = site.systems[v]
+    if victim.id in given:
+        return given[victim.id]
+    prop = site.coupling.propagation
+    if itf.eirp_dbm is None or itf.position is None or victim.position is None or prop is None:
+        raise SiteError([(f"/interferers/{k}", f"no level for system {victim.id!r}: give levels, or eirp_dbm and "
+                                               "positions with a propagation model")])
+    path = _link_loss(prop, f_hz, itf.position, victim.position, "/coupling/propagation")
+    # the planning margin lowers the computed loss, as for coupling between systems
+    return itf.eirp_dbm - (path - prop.margin_db) + victim.antenna_gain_dbi
+
+
+def _interferer_links(site: Site, wanted: np.ndarray, centres: np.ndarray, f_hz: float):
+    links, ranges = [], np.zeros((len(site.systems), len(site.interferers), 2), dtype=int)
+    for v, victim in enumerate(site.systems):
+        row = []
+        for k, itf in enumerate(site.interferers):
+            total = _interferer_level(site, k, itf, v, f_hz)
+            # share of a wideband emitter's power inside the victim's channel (flat spectrum)
+            width = itf.width_hz
+            share_db = 10 * math.log10(min(1.0, victim.bandwidth_hz / width)) if width > 0 else 0.0
+            overlap = None
+            if itf.burst_s is not None:
+                overlap = random_phase_overlap(victim.packet_airtime_s, itf.burst_s, itf.period_s)
+            link = _link(victim, wanted[v], total + share_db, overlap, itf.activity_fraction)
+            ranges[v, k] = _span_range(centres, itf.low_hz, itf.high_hz, link.bound_hz)
+            row.append(link)
+        links.append(tuple(row))
+    return tuple(links), ranges
+
+
+def _span_range(centres: np.ndarray, low_hz: float, high_hz: float, bound_hz: float) -> tuple[int, int]:
+    """Grid channels whose distance to [low, high] is below bound: a contiguous range."""
+    if bound_hz <= 0:
+        return 0, 0
+    slack = bound_hz * (1 - OFFSET_TOLERANCE) if math.isfinite(bound_hz) else math.inf
+    lo = int(np.searchsorted(centres, low_hz - slack, side="right"))
+    hi = int(np.searchsorted(centres, high_hz + slack, side="left"))
+    return lo, max(lo, hi)
+
+
+def prepare_site(site: Site) -> PreparedSite:
+    profile = get_profile(site.profile)
+    band = effective_band(site, profile)
+    grid = site.grid
+    centres = grid.first_centre_hz + grid.spacing_hz * np.arange(grid.count)
+    f_mid = float((centres[0] + centres[-1]) / 2)  # propagation evaluated at the grid's mid frequency
+    wanted, margin = _wanted_and_margin(site, f_mid)
+    fade = np.array([fading.fade_probability(s.fading.model, m, s.fading.k_factor_db)
+                     for s, m in zip(site.systems, margin)])
+    loss, explicit = _coupling(site, f_mid)
+    links, window = _system_links(site, wanted, loss)
+    ilinks, iranges = _interferer_links(site, wanted, centres, f_mid)
+    return PreparedSite(site=site, profile=profile, band=band, centres_hz=centres,
+                        usable=_usable(site, band, centres), wanted_dbm=wanted, fade_margin_db=margin,
+                        fade_probability=fade, coupling_loss_db=loss, coupling_explicit=explicit,
+                        links=links, window=window, interferer_links=ilinks, interferer_range=iranges)

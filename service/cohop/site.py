@@ -1,0 +1,167 @@
+"""A validated site description as frozen dataclasses.
+
+The request schemas (`cohop.api.schemas`) build these; the domain reads them.
+Units are SI and are part of every field name. Nothing here computes physics.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+
+@dataclass(frozen=True)
+class Band:
+    low_hz: float
+    high_hz: float
+
+
+@dataclass(frozen=True)
+class Grid:
+    """Channel k has centre ``first_centre_hz + k * spacing_hz``."""
+
+    first_centre_hz: float
+    spacing_hz: float
+    count: int
+
+    def centre_hz(self, k: int) -> float:
+        return self.first_centre_hz + k * self.spacing_hz
+
+    @property
+    def last_centre_hz(self) -> float:
+        return self.centre_hz(self.count - 1)
+
+
+@dataclass(frozen=True)
+class RejectionPoint:
+    """Adjacent-channel rejection: `rejection_db` applies from `offset_hz` up
+    to the next tabulated offset (co-channel, below the first entry, is 0 dB)."""
+
+    offset_hz: float
+    rejection_db: float
+
+
+@dataclass(frozen=True)
+class Fading:
+    model: str = "rayleigh"  # "rayleigh" | "rician" | "none"
+    k_factor_db: float | None = None
+
+
+@dataclass(frozen=True)
+class Position:
+    x_m: float
+    y_m: float
+    floor: int = 0
+
+
+@dataclass(frozen=True)
+class System:
+    id: str
+    tx_power_dbm: float
+    antenna_gain_dbi: float
+    bandwidth_hz: float
+    dwell_s: float
+    packet_airtime_s: float
+    activity_fraction: float
+    required_sir_db: float
+    rejection: tuple[RejectionPoint, ...]
+    retry_limit: int
+    label: str = ""
+    wanted_signal_dbm: float | None = None
+    link_distance_m: float | None = None
+    fade_margin_db: float | None = None
+    sensitivity_dbm: float | None = None
+    noise_figure_db: float | None = None
+    fading: Fading = field(default_factory=Fading)
+    hops_per_attempt: int = 1
+    priority_weight: float = 1.0
+    position: Position | None = None
+    time_base_group: str | None = None
+    hop_set: tuple[int, ...] | None = None
+
+    @property
+    def eirp_dbm(self) -> float:
+        return self.tx_power_dbm + self.antenna_gain_dbi
+
+
+@dataclass(frozen=True)
+class Propagation:
+    """How coupling losses are computed from positions.
+
+    model: "free_space" (ITU-R P.525), "log_distance", or "p1238"
+    (ITU-R P.1238 site-general). `margin_db` is subtracted from every computed
+    loss (a planning allowance for shadowing; explicit losses are not changed).
+    """
+
+    model: str
+    exponent: float | None = None
+    reference_loss_db: float | None = None
+    reference_distance_m: float | None = None
+    environment: str | None = None
+    power_loss_coefficient: float | None = None
+    floor_loss_db: float | None = None
+    floor_height_m: float = 4.0
+    margin_db: float = 0.0
+
+
+@dataclass(frozen=True)
+class CouplingEntry:
+    """Loss from `from_system`'s transmitter output to `to_system`'s receiver
+    input, antennas and cables included. It holds in both directions unless an
+    entry for the reverse direction is also given."""
+
+    from_system: str
+    to_system: str
+    loss_db: float
+
+
+@dataclass(frozen=True)
+class Coupling:
+    propagation: Propagation | None = None
+    entries: tuple[CouplingEntry, ...] = ()
+
+
+@dataclass(frozen=True)
+class InterfererLevel:
+    system: str
+    level_dbm: float
+
+
+@dataclass(frozen=True)
+class Interferer:
+    """A fixed (non-hopping) emitter occupying [low_hz, high_hz].
+
+    Its level at a system's receiver input is given (`levels`, total power
+    over its width) or computed from `eirp_dbm` and `position`. Without
+    `burst_s`/`period_s` it is on for `activity_fraction` of the time in
+    stretches long against a packet; with them it sends bursts of `burst_s`
+    every `period_s` (random phase), in `activity_fraction` of its periods.
+    """
+
+    id: str
+    low_hz: float
+    high_hz: float
+    label: str = ""
+    levels: tuple[InterfererLevel, ...] = ()
+    eirp_dbm: float | None = None
+    position: Position | None = None
+    activity_fraction: float = 1.0
+    burst_s: float | None = None
+    period_s: float | None = None
+
+    @property
+    def width_hz(self) -> float:
+        return self.high_hz - self.low_hz
+
+
+@dataclass(frozen=True)
+class Site:
+    profile: str
+    grid: Grid
+    systems: tuple[System, ...]
+    band: Band | None = None
+    coupling: Coupling = field(default_factory=Coupling)
+    interferers: tuple[Interferer, ...] = ()
+    name: str = ""
+
+    def system_index(self) -> dict[str, int]:
+        return {s.id: i for i, s in enumerate(self.systems)}

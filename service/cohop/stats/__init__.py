@@ -1,0 +1,1 @@
+"""Pure statistics: time overlap, collision combination, retries."""
