@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import json
-from typing import Any
+from typing import Any, Callable, TypeVar
+from urllib.parse import quote
 
 import requests
 
@@ -11,6 +12,7 @@ from cohop_client.errors import CohopError, InvalidRequest, RequestTimeout, Serv
 from cohop_client.results import Assessment, Health, Profile
 
 DEFAULT_TIMEOUT_S = 60.0
+T = TypeVar("T")
 
 
 class Client:
@@ -48,13 +50,14 @@ class Client:
     # --- endpoints ---------------------------------------------------------
 
     def health(self) -> Health:
-        return Health.from_json(self._call("GET", "/v1/health"))
+        return self._typed(Health.from_json, self._call("GET", "/v1/health"))
 
     def profiles(self) -> list[Profile]:
-        return [Profile.from_json(p) for p in self._call("GET", "/v1/profiles")]
+        return self._typed(lambda body: [Profile.from_json(p) for p in body], self._call("GET", "/v1/profiles"))
 
     def profile(self, profile_id: str) -> Profile:
-        return Profile.from_json(self._call("GET", f"/v1/profiles/{profile_id}"))
+        path = "/v1/profiles/" + quote(profile_id, safe="")
+        return self._typed(Profile.from_json, self._call("GET", path))
 
     def assess(self, site: dict, *, simulation: dict | None = None, detail: str | None = None) -> Assessment:
         """Evaluate the site's hop sets. `simulation`: {"trials_per_system": n, "seed": s}."""
@@ -63,9 +66,17 @@ class Client:
             body["simulation"] = simulation
         if detail is not None:
             body["detail"] = detail
-        return Assessment.from_json(self._call("POST", "/v1/assessments", body))
+        return self._typed(Assessment.from_json, self._call("POST", "/v1/assessments", body))
 
     # --- transport ---------------------------------------------------------
+
+    def _typed(self, build: Callable[[Any], T], body: Any) -> T:
+        try:
+            return build(body)
+        except (KeyError, TypeError, ValueError, AttributeError) as err:
+            raise TransportError(f"the answer from {self.base_url} does not have the expected shape "
+                                 f"({type(err).__name__}: {err}); is this a cohop service of a matching "
+                                 "version?", url=self.base_url) from err
 
     def _call(self, method: str, path: str, body: dict | None = None) -> Any:
         url = self.base_url + path
@@ -74,8 +85,26 @@ class Client:
         except requests.Timeout as err:
             raise RequestTimeout(f"no answer from {url} within {self.timeout_s:g} s", url=url) from err
         except requests.RequestException as err:
+            if _caused_by_timeout(err):  # requests reports a stall while reading the body this way
+                raise RequestTimeout(f"the answer from {url} stalled beyond {self.timeout_s:g} s", url=url) from err
             raise TransportError(f"could not reach {url}: {err}", url=url) from err
         return _decode(resp, url)
+
+
+def _caused_by_timeout(err: BaseException) -> bool:
+    """True if a timeout (of requests or of the library beneath it) is among the error's causes."""
+    seen = set()
+    stack = [err]
+    while stack:
+        e = stack.pop()
+        if id(e) in seen:
+            continue
+        seen.add(id(e))
+        if isinstance(e, (requests.Timeout, TimeoutError)) or "Timeout" in type(e).__name__:
+            return True
+        stack.extend(a for a in getattr(e, "args", ()) if isinstance(a, BaseException))
+        stack.extend(c for c in (e.__cause__, e.__context__) if c is not None)
+    return False
 
 
 def _decode(resp: requests.Response, url: str) -> Any:

@@ -37,6 +37,8 @@ def _load_request(args) -> dict:
             body = json.loads(Path(args.site).read_text(encoding="utf-8"))
         except OSError as err:
             raise SystemExit(f"cohop: cannot read {args.site}: {err.strerror}")
+        except UnicodeDecodeError as err:
+            raise SystemExit(f"cohop: {args.site} is not UTF-8 text: {err.reason} at byte {err.start}")
         except json.JSONDecodeError as err:
             raise SystemExit(f"cohop: {args.site} is not valid JSON: {err}")
     else:
@@ -64,13 +66,17 @@ def _cmd_assess(args) -> int:
         if simulation:
             print("simulating...", file=sys.stderr, flush=True)
         result = api.assess(body["site"], simulation=simulation, detail=detail)
-    if args.save:
-        Path(args.save).write_text(json.dumps(result.raw, indent=2) + "\n", encoding="utf-8")
     if args.json:
         print(json.dumps(result.raw, indent=2))
     else:
         print(assessment_table(result))
-        if args.save:
+    if args.save:
+        try:
+            Path(args.save).write_text(json.dumps(result.raw, indent=2) + "\n", encoding="utf-8")
+        except OSError as err:
+            print(f"cohop: could not write {args.save}: {err.strerror}", file=sys.stderr)
+            return 1
+        if not args.json:
             print(f"\nfull answer written to {args.save}")
     return 0
 

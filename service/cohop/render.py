@@ -11,7 +11,7 @@ def _pct(p: float) -> str:
     if p == 0:
         return "0"
     if p < 1e-4:
-        return f"{p:.1e}"
+        return f"{100 * p:.1e}%"
     return f"{100 * p:.2f}%"
 
 
@@ -45,9 +45,10 @@ def _simulation_lines(result: Assessment) -> str:
              f"95% intervals):"]
     for s in sim["systems"]:
         lo, hi = s["interval"]
-        mark = "ok" if s["within_interval"] else "OUTSIDE"
+        mark = "" if s["within_interval"] else "  <- outside the interval"
         lines.append(f"  {s['id']}: simulated {_pct(s['probability'])} [{_pct(lo)}, {_pct(hi)}], "
-                     f"analytic {_pct(s['analytic_probability'])} {mark}")
+                     f"analytic {_pct(s['analytic_probability'])}{mark}")
+    lines.append("  (at 95 %, about one figure in twenty falls outside its interval by chance)")
     return "\n".join(lines)
 
 

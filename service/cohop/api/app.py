@@ -48,6 +48,8 @@ class CohopApi(Api):
 
 def _require_json():
     req = flask.request
+    if req.routing_exception is not None:  # let the 404 or 405 through
+        return
     if req.method in ("POST", "PUT", "PATCH") and not req.is_json:
         flask.abort(415, description="send the body as application/json")
 

@@ -77,8 +77,9 @@ def min_separation(rule: Rule, required_hz: Callable[[HopContext], float]) -> Ru
 def occupancy(rule: Rule, limit_s: float, window_s: Callable[[HopContext], float]) -> RuleCheck:
     """Time on any one channel within a window, assuming each channel is visited
     once per period of N dwells and a packet is sent on every visit (worst
-    case of our traffic model). Fails on the average occupancy; warns when a
-    window placed to catch one more visit than average would exceed the limit.
+    case of our traffic model). Fails when the average occupancy exceeds the
+    limit or when a single visit alone does; warns when a window placed to
+    catch one more visit than average would exceed the limit.
     """
 
     def check(ctx: HopContext) -> Finding:
@@ -93,6 +94,9 @@ def occupancy(rule: Rule, limit_s: float, window_s: Callable[[HopContext], float
                 f"(limit {limit_s * 1e3:.1f} ms; period {period:.3f} s)")
         if avg > limit_s * (1 + _EPS):
             return _finding(rule, False, base, measured=avg, limit=limit_s, unit="s")
+        if s.packet_airtime_s > limit_s * (1 + _EPS):
+            return _finding(rule, False, base + f"; one visit alone lasts {s.packet_airtime_s * 1e3:.1f} ms",
+                            measured=avg, limit=limit_s, unit="s")
         if worst > limit_s * (1 + _EPS):
             return _finding(rule, False, base + f"; a window catching {visits_max} visits sees "
                             f"{worst * 1e3:.1f} ms", measured=avg, limit=limit_s, unit="s", warn=True)

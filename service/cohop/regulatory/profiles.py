@@ -41,13 +41,24 @@ def _band_fit(pid: str) -> RuleCheck:
 
 # --- United States, 47 CFR 15.247 -------------------------------------------
 
-def _us_sequence(pid: str) -> RuleCheck:
+def _as_us(region: str, citation: str, certainty: str) -> tuple[str, str]:
+    """Canadian rules are taken as the US ones, from memory (RSS-247 not checked)."""
+    if region == "CA":
+        return f"RSS-247 (as {citation})", FROM_MEMORY
+    return citation, certainty
+
+
+def _us_sequence(pid: str, region: str) -> RuleCheck:
+    cite, cert = _as_us(region, "47 CFR 15.247(a)(1); 47 CFR 2.1", PUBLISHED)
     return checks.sequence_order(Rule(
-        f"{pid}.sequence", "Pseudo-random order, equal average use", "47 CFR 15.247(a)(1); 47 CFR 2.1",
-        PUBLISHED, "channels used in a pseudo-randomly ordered list, each equally on average"))
+        f"{pid}.sequence", "Pseudo-random order, equal average use", cite, cert,
+        "channels used in a pseudo-randomly ordered list, each equally on average"))
 
 
-def _us_separation(pid: str, two_thirds_below_dbm: float | None = None) -> RuleCheck:
+LOW_POWER_DBM = 10 * math.log10(125)  # 0.125 W
+
+
+def _us_separation(pid: str, region: str, two_thirds_below_dbm: float | None = None) -> RuleCheck:
     """max(25 kHz, 20 dB bandwidth); at 2.4 GHz and <= 125 mW, max(25 kHz, 2/3 BW)."""
 
     def required(ctx: HopContext) -> float:
@@ -59,8 +70,8 @@ def _us_separation(pid: str, two_thirds_below_dbm: float | None = None) -> RuleC
     summary = "hop channels separated by at least max(25 kHz, 20 dB bandwidth)"
     if two_thirds_below_dbm is not None:
         summary += "; max(25 kHz, 2/3 of the 20 dB bandwidth) at 125 mW or less"
-    return checks.min_separation(Rule(f"{pid}.separation", "Channel separation", "47 CFR 15.247(a)(1)",
-                                      PUBLISHED, summary), required)
+    cite, cert = _as_us(region, "47 CFR 15.247(a)(1)", PUBLISHED)
+    return checks.min_separation(Rule(f"{pid}.separation", "Channel separation", cite, cert, summary), required)
 
 
 def _us915_min_channels(ctx: HopContext) -> int | None:
@@ -102,7 +113,7 @@ def _us_915(pid: str, region: str, certainty_note: str = "") -> list[RuleCheck]:
         checks.max_bandwidth(Rule(f"{pid}.bandwidth", "Maximum 20 dB bandwidth",
                                   cite("47 CFR 15.247(a)(1)(i)", "RSS-247 (as 47 CFR 15.247(a)(1)(i))"),
                                   c(PUBLISHED), "20 dB bandwidth at most 500 kHz" + certainty_note), 500 * KHZ),
-        _us_separation(pid),
+        _us_separation(pid, region),
         checks.occupancy(Rule(f"{pid}.occupancy", "Average time of occupancy",
                               cite("47 CFR 15.247(a)(1)(i)", "RSS-247 (as 47 CFR 15.247(a)(1)(i))"),
                               c(PUBLISHED),
@@ -113,14 +124,14 @@ def _us_915(pid: str, region: str, certainty_note: str = "") -> list[RuleCheck]:
                                     c(SEEN_QUOTED),
                                     "1 W with at least 50 channels, 0.25 W with 25-49; above 6 dBi antenna gain "
                                     "the limit falls dB for dB" + certainty_note), _us915_power_dbm),
-        _us_sequence(pid),
+        _us_sequence(pid, region),
     ]
 
 
 def _us2400_power_dbm(ctx: HopContext) -> float:
     sep = ctx.separation_hz
     non_overlapping = sep is None or sep >= ctx.system.bandwidth_hz * (1 - 1e-9)
-    return 30.0 if (ctx.count >= 75 and non_overlapping) else 21.0  # 1 W / 0.125 W
+    return 30.0 if (ctx.count >= 75 and non_overlapping) else LOW_POWER_DBM  # 1 W / 0.125 W
 
 
 def _us_2400(pid: str, region: str) -> list[RuleCheck]:
@@ -131,7 +142,7 @@ def _us_2400(pid: str, region: str) -> list[RuleCheck]:
         _band_fit(pid),
         checks.channel_count(Rule(f"{pid}.channels", "Minimum number of hopping channels",
                                   f"{cite}(a)(1)(iii)", cert, "at least 15 channels" + suffix), lambda ctx: 15),
-        _us_separation(pid, two_thirds_below_dbm=10 * math.log10(125)),
+        _us_separation(pid, region, two_thirds_below_dbm=LOW_POWER_DBM),
         checks.occupancy(Rule(f"{pid}.occupancy", "Average time of occupancy", f"{cite}(a)(1)(iii)", cert,
                               "at most 0.4 s on any channel within 0.4 s x number of channels used" + suffix),
                          0.4, lambda ctx: 0.4 * ctx.count),
@@ -139,7 +150,7 @@ def _us_2400(pid: str, region: str) -> list[RuleCheck]:
                                     FROM_MEMORY,
                                     "1 W with at least 75 non-overlapping channels, else 0.125 W; above 6 dBi "
                                     "antenna gain the limit falls dB for dB" + suffix), _us2400_power_dbm),
-        _us_sequence(pid),
+        _us_sequence(pid, region),
     ]
 
 
@@ -152,13 +163,13 @@ def _us_5800(pid: str, region: str) -> list[RuleCheck]:
                                   FROM_MEMORY, "at least 75 channels" + suffix), lambda ctx: 75),
         checks.max_bandwidth(Rule(f"{pid}.bandwidth", "Maximum 20 dB bandwidth", f"{cite}(a)(1)(ii)",
                                   FROM_MEMORY, "20 dB bandwidth at most 1 MHz" + suffix), 1 * MHZ),
-        _us_separation(pid),
+        _us_separation(pid, region),
         checks.occupancy(Rule(f"{pid}.occupancy", "Average time of occupancy", f"{cite}(a)(1)(ii)", FROM_MEMORY,
                               "at most 0.4 s on any channel within 30 s" + suffix), 0.4, lambda ctx: 30.0),
         checks.conducted_power(Rule(f"{pid}.power", "Peak conducted output power", f"{cite}(b)(1), (b)(4)",
                                     FROM_MEMORY, "1 W; above 6 dBi antenna gain the limit falls dB for dB" + suffix),
                                lambda ctx: 30.0),
-        _us_sequence(pid),
+        _us_sequence(pid, region),
     ]
 
 
@@ -232,20 +243,33 @@ EU868_SUBBANDS = (
 )
 
 
+def _erp_dbm(ctx: HopContext) -> float:
+    return ctx.system.eirp_dbm - 2.15  # e.r.p. = e.i.r.p. - 2.15 dB (half-wave dipole gain)
+
+
+def _meets(band: SubBand, ctx: HopContext) -> bool:
+    duty_ok = band.max_duty_fraction is None or ctx.duty_fraction <= band.max_duty_fraction + 1e-12
+    return duty_ok and _erp_dbm(ctx) <= band.max_erp_dbm + 1e-9
+
+
 def eu868_subband(ctx: HopContext) -> SubBand | None:
-    """The most permissive sub-band holding the whole hop set's occupied spectrum."""
+    """The sub-band the hop set is judged in: one holding its whole occupied
+    spectrum whose limits the system meets, if any; else the most permissive
+    one holding it (whose limit it then fails); None if none holds it."""
     half = ctx.system.bandwidth_hz / 2
     low, high = ctx.centres_hz[0] - half, ctx.centres_hz[-1] + half
     fits = [b for b in EU868_SUBBANDS if b.low_hz - 1e-6 <= low and high <= b.high_hz + 1e-6]
     if not fits:
         return None
-    return max(fits, key=lambda b: (b.max_duty_fraction if b.max_duty_fraction is not None else 1.0, b.max_erp_dbm))
+    met = [b for b in fits if _meets(b, ctx)]
+    return max(met or fits, key=lambda b: (b.max_duty_fraction if b.max_duty_fraction is not None else 1.0,
+                                           b.max_erp_dbm))
 
 
 def _eu868_power(rule: Rule) -> RuleCheck:
     def check(ctx: HopContext) -> Finding:
         band = eu868_subband(ctx)
-        erp = ctx.system.eirp_dbm - 2.15
+        erp = _erp_dbm(ctx)
         if band is None:
             return Finding(rule, FAIL, "hop set does not fit one sub-band encoded here", measured=erp, unit="dBm")
         ok = erp <= band.max_erp_dbm + 1e-9

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 from flask import current_app
 from flask.views import MethodView
-from flask_smorest import Blueprint
 
 from cohop.api.present import assessment_dict
+from cohop.api.blueprint import Blueprint
 from cohop.api.schemas.assessment import AssessmentRequestSchema, AssessmentResponseSchema
 from cohop.evaluation import run_assessment
 
@@ -17,8 +17,9 @@ blp = Blueprint("assessments", __name__, url_prefix="/v1", description="Predict 
 class Assessments(MethodView):
     @blp.arguments(AssessmentRequestSchema)
     @blp.response(200, AssessmentResponseSchema)
-    @blp.alt_response(413, description="Body over the size cap")
-    @blp.alt_response(415, description="Body is not JSON")
+    @blp.alt_response(400, response="BAD_REQUEST")
+    @blp.alt_response(413, response="REQUEST_ENTITY_TOO_LARGE")
+    @blp.alt_response(415, response="UNSUPPORTED_MEDIA_TYPE")
     def post(self, req):
         """Evaluate each system's hop set: collisions by source and channel, losses, compliance."""
         assessment, simulation = run_assessment(req, current_app.config["COHOP_MAX_SIMULATED_ATTEMPTS"])

@@ -3,10 +3,10 @@
 from __future__ import annotations
 
 from flask.views import MethodView
-from flask_smorest import Blueprint
 from marshmallow import fields
 
 from cohop import __version__
+from cohop.api.blueprint import Blueprint
 from cohop.api.schemas.site import StrictSchema
 
 blp = Blueprint("meta", __name__, url_prefix="/v1", description="Service health")

@@ -3,9 +3,10 @@
 from __future__ import annotations
 
 from flask.views import MethodView
-from flask_smorest import Blueprint, abort
+from flask_smorest import abort
 from marshmallow import fields
 
+from cohop.api.blueprint import Blueprint
 from cohop.api.schemas.site import StrictSchema
 from cohop.regulatory import PROFILES
 

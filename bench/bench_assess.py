@@ -1,0 +1,37 @@
+"""Benchmark: analytic evaluation of the large generated site (50 systems, 1040 channels).
+
+Target: under 50 ms. Baseline in the same run: the plain-Python reference
+evaluator of the test suite (tests/recompute.py) on the same hop sets.
+Prints figures; asserts nothing.
+"""
+
+from __future__ import annotations
+
+import _common  # noqa: F401  (sets sys.path)
+from _common import machine, median_time
+
+from bench import sitegen
+from cohop.api.present import assessment_dict
+from cohop.api.schemas.site import SiteSchema
+from cohop.assess import assess_site
+from cohop.prepare import prepare_site
+from tests import recompute
+
+
+def main() -> None:
+    print(f"machine: {machine()}")
+    for size in ("medium", "large"):
+        site = SiteSchema().load(sitegen.generate(size, seed=1))
+        prep = prepare_site(site)
+        t_prepare = median_time(lambda: prepare_site(site), 5)
+        t_assess = median_time(lambda: assess_site(prep, detail="channel"), 7)
+        response = assessment_dict(assess_site(prep, detail="channel"))
+        t_reference = median_time(lambda: recompute.check_assessment(response), 1)
+        n_sys, n_ch = len(site.systems), site.grid.count
+        print(f"{size:6s} {n_sys} systems x {n_ch} channels: prepare {t_prepare * 1e3:.1f} ms, "
+              f"evaluate {t_assess * 1e3:.1f} ms (target < 50 ms for large), plain-Python reference "
+              f"{t_reference * 1e3:.0f} ms, speed-up x{t_reference / t_assess:.0f}")
+
+
+if __name__ == "__main__":
+    main()

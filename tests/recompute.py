@@ -1,0 +1,172 @@
+"""An independent re-implementation that recomputes every figure of an assessment.
+
+It reads the request (site dict) and the response (JSON dict) only, uses
+plain Python loops and `math`, and shares no code with the service. Tests
+call `check_assessment`, which raises AssertionError on the first figure that
+does not follow from the response's own inputs.
+"""
+
+from __future__ import annotations
+
+import math
+
+REL = 1e-9
+ABS = 1e-12
+
+
+def _close(a: float, b: float, what: str) -> None:
+    assert math.isclose(a, b, rel_tol=REL, abs_tol=ABS), f"{what}: reported {a!r}, recomputed {b!r}"
+
+
+def overlap_distribution(overlap: dict | None) -> dict[int, float]:
+    if overlap is None:
+        return {}
+    k0, r = overlap["base_count"], overlap["extra_probability"]
+    return {k0: 1.0 - r, k0 + 1: r}
+
+
+def standalone(p: float, overlap: dict | None) -> float:
+    """Collision probability of one source: 1 - E[(1 - p)^K]; continuous sources: p itself."""
+    if overlap is None:
+        return p
+    return 1.0 - sum(prob * (1.0 - p) ** k for k, prob in overlap_distribution(overlap).items())
+
+
+def channel_figures(victim: dict, systems_by_id: dict[str, dict]) -> list[dict[str, float]]:
+    """Per channel of the victim's hop set: {source id: standalone probability}."""
+    out = []
+    for c in victim["hop_set"]:
+        row = {}
+        for src in victim["sources"]:
+            if src["kind"] == "system":
+                other = systems_by_id[src["id"]]["hop_set"]
+                w = src["window_channels"]
+                h = sum(1 for c2 in other if abs(c - c2) <= w) if w >= 0 else 0
+                p = src["activity_fraction"] * h / len(other)
+            else:
+                lo, hi = src["channel_range"]
+                p = src["activity_fraction"] if lo <= c < hi else 0.0
+            row[src["id"]] = standalone(p, src["overlap"])
+        out.append(row)
+    return out
+
+
+def combine(probabilities) -> float:
+    survive = 1.0
+    for p in probabilities:
+        survive *= 1.0 - p
+    return 1.0 - survive
+
+
+def check_system(victim: dict, systems_by_id: dict[str, dict]) -> None:
+    rows = channel_figures(victim, systems_by_id)
+    totals = [combine(r.values()) for r in rows]
+    fade = victim["per_hop"]["fade_probability"]
+    if victim["channels"]:
+        for reported, total, c in zip(victim["channels"], totals, victim["hop_set"]):
+            assert reported["channel"] == c
+            _close(reported["collision_probability"], total, f"{victim['id']} channel {c} collision")
+            _close(reported["hop_loss_probability"], combine([total, fade]), f"{victim['id']} channel {c} loss")
+            if "by_source" in reported:
+                expected = {k: v for k, v in rows[victim["hop_set"].index(c)].items() if v > 0}
+                assert set(reported["by_source"]) == set(expected)
+                for k, v in expected.items():
+                    _close(reported["by_source"][k], v, f"{victim['id']} channel {c} from {k}")
+    mean = sum(totals) / len(totals)
+    _close(victim["per_hop"]["collision_probability"], mean, f"{victim['id']} per-hop collision")
+    for src in victim["sources"]:
+        m = sum(r[src["id"]] for r in rows) / len(rows)
+        _close(src["collision_probability"], m, f"{victim['id']} from {src['id']}")
+    hops = victim["per_attempt"]["hops"]
+    coll_attempt = 1 - (1 - mean) ** hops
+    fade_attempt = 1 - (1 - fade) ** hops
+    loss = combine([coll_attempt, fade_attempt])
+    _close(victim["per_attempt"]["collision_probability"], coll_attempt, f"{victim['id']} attempt collision")
+    _close(victim["per_attempt"]["fade_probability"], fade_attempt, f"{victim['id']} attempt fade")
+    _close(victim["per_attempt"]["loss_probability"], loss, f"{victim['id']} attempt loss")
+    k = victim["retries"]["retry_limit"]
+    _close(victim["retries"]["residual_loss_probability"], loss ** (k + 1), f"{victim['id']} residual")
+    _close(victim["retries"]["expected_attempts"], sum(loss**j for j in range(k + 1)), f"{victim['id']} attempts")
+
+
+def check_assessment(response: dict) -> None:
+    systems = response["systems"]
+    by_id = {s["id"]: s for s in systems}
+    for s in systems:
+        check_system(s, by_id)
+    weighted = sum(s["priority_weight"] * s["per_hop"]["collision_probability"] for s in systems)
+    _close(response["summary"]["weighted_collision_probability"], weighted, "weighted collision")
+    worst = max(systems, key=lambda s: s["per_hop"]["collision_probability"])
+    _close(response["summary"]["worst_collision_probability"], worst["per_hop"]["collision_probability"], "worst")
+
+
+# --- the inputs of the figures, from the request --------------------------------
+
+def stepped_rejection(table: list[dict], offset_hz: float) -> float:
+    value = 0.0
+    for row in table:
+        if offset_hz >= row["offset_hz"] * (1 - 1e-9):
+            value = row["rejection_db"]
+    return value
+
+
+def expected_window(excess_db: float, table: list[dict], spacing_hz: float, count: int) -> int:
+    """Largest grid offset d with R(d spacing) < excess, by direct search; -1 if none."""
+    w = -1
+    for d in range(count + 1):
+        if stepped_rejection(table, d * spacing_hz) < excess_db:
+            w = d
+        else:
+            break
+    return w
+
+
+def expected_overlap(victim_airtime_s: float, burst_s: float, period_s: float) -> tuple[dict[int, float], float]:
+    """Distribution of the number of overlapped bursts, and the tolerance it is known to.
+
+    Domain reference section 4 gives P0, P1, P2 for (Tv + Ta) <= 2 D; longer
+    packets are counted by brute force over 20000 phases (tolerance 1e-4).
+    """
+    w = (victim_airtime_s + burst_s) / period_s
+    if w <= 1:
+        return {0: 1 - w, 1: w}, REL
+    if w <= 2:
+        return {1: 2 - w, 2: w - 1}, REL
+    steps = 20000
+    counts: dict[int, float] = {}
+    for i in range(steps):
+        phi = (i + 0.5) / steps * period_s
+        k = sum(1 for m in range(-int(w) - 2, int(w) + 3)
+                if phi + m * period_s < victim_airtime_s and phi + m * period_s + burst_s > 0)
+        counts[k] = counts.get(k, 0.0) + 1.0 / steps
+    return counts, 1e-4
+
+
+def check_inputs_from_request(site: dict, response: dict) -> None:
+    """For a site whose coupling is all explicit and wanted signals given: levels, windows, overlaps."""
+    req = {s["id"]: s for s in site["systems"]}
+    loss = {}
+    for e in site["coupling"]["entries"]:
+        loss[(e["from_system"], e["to_system"])] = e["loss_db"]
+    for e in site["coupling"]["entries"]:
+        loss.setdefault((e["to_system"], e["from_system"]), e["loss_db"])
+    grid = site["grid"]
+    for v in response["systems"]:
+        victim = req[v["id"]]
+        for src in v["sources"]:
+            if src["kind"] != "system":
+                continue
+            a = req[src["id"]]
+            level = a["tx_power_dbm"] - loss[(a["id"], victim["id"])]
+            excess = level - (victim["wanted_signal_dbm"] - victim["required_sir_db"])
+            _close(src["level_dbm"], level, f"level {a['id']}->{victim['id']}")
+            _close(src["excess_db"], excess, f"excess {a['id']}->{victim['id']}")
+            assert src["window_channels"] == min(expected_window(excess, victim["rejection"], grid["spacing_hz"],
+                                                                 grid["count"]), grid["count"])
+            same_group = victim.get("time_base_group") and victim.get("time_base_group") == a.get("time_base_group")
+            got = overlap_distribution(src["overlap"])
+            want, tol = ({1: 1.0}, REL) if same_group else expected_overlap(
+                victim["packet_airtime_s"], a["packet_airtime_s"], a["dwell_s"])
+            for k in set(got) | set(want):
+                assert math.isclose(got.get(k, 0.0), want.get(k, 0.0), abs_tol=tol), \
+                    f"P(K={k}) {a['id']}->{victim['id']}: {got} vs {want}"

@@ -1,0 +1,169 @@
+"""The profile catalogue: band edges, rule metadata (citation, certainty) and cautions.
+
+Reference: the project's rule table (47 CFR 15.247, RSS-247, ETSI EN 300 328 V2.2.2, ERC Rec 70-03).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from cohop.regulatory import PROFILES, check_compliance, get_profile
+from cohop.site import Band, System
+
+MHZ = 1e6
+CERTAINTIES = {"published", "seen quoted", "partly seen", "from memory", "common practice"}
+US = ["us-915", "us-2400", "us-5800"]
+CA = ["ca-915", "ca-2400", "ca-5800"]
+EU = ["eu-2400-adaptive", "eu-2400-nonadaptive", "eu-868"]
+REGULATED = US + CA + EU
+
+# Band edges from the rule table: 902-928 MHz (15.247(a)(1)(i)), 2400-2483.5 MHz (15.247(a)(1)(iii),
+# EN 300 328), 5725-5850 MHz (15.247, from memory), 863-870 MHz (ERC Rec 70-03 Annex 1).
+EDGES_MHZ = {
+    "us-915": (902, 928), "ca-915": (902, 928),
+    "us-2400": (2400, 2483.5), "ca-2400": (2400, 2483.5),
+    "us-5800": (5725, 5850), "ca-5800": (5725, 5850),
+    "eu-2400-adaptive": (2400, 2483.5), "eu-2400-nonadaptive": (2400, 2483.5),
+    "eu-868": (863, 870),
+}
+
+
+def suffixes(pid: str) -> set[str]:
+    return {r.id.split(".", 1)[1] for r in PROFILES[pid].rules}
+
+
+def rule(pid: str, suffix: str):
+    (r,) = [r for r in PROFILES[pid].rules if r.id == f"{pid}.{suffix}"]
+    return r
+
+
+# The rule table lists exactly these profiles, plus a custom one without limits.
+def test_catalogue_ids():
+    assert set(PROFILES) == set(REGULATED) | {"custom"}
+    for pid, p in PROFILES.items():
+        assert p.id == pid and get_profile(pid) is p and p.name
+
+
+# Band edges per the rule table (sources above).
+@pytest.mark.parametrize("pid", sorted(EDGES_MHZ))
+def test_band_edges_match_table(pid):
+    band = PROFILES[pid].band
+    assert (band.low_hz, band.high_hz) == (EDGES_MHZ[pid][0] * MHZ, EDGES_MHZ[pid][1] * MHZ)
+
+
+# Grid fit (common practice): every profile, custom included, checks the band fit.
+@pytest.mark.parametrize("pid", sorted(PROFILES))
+def test_every_profile_has_band_fit(pid):
+    assert "band-fit" in suffixes(pid)
+    assert rule(pid, "band-fit").certainty == "common practice"
+
+
+# Every rule states where it comes from and how sure we are (rule table certainty column).
+@pytest.mark.parametrize("pid", sorted(PROFILES))
+def test_every_rule_has_citation_and_certainty(pid):
+    rules = PROFILES[pid].rules
+    assert len({r.id for r in rules}) == len(rules)
+    for r in rules:
+        assert r.id.startswith(pid + ".")
+        assert r.citation.strip() and r.title.strip() and r.summary.strip(), r.id
+        assert r.certainty in CERTAINTIES, (r.id, r.certainty)
+
+
+# 47 CFR 15.247(h) caution applies to US and Canadian profiles only (DEVELOPERS.md, Cautions).
+@pytest.mark.parametrize("pid", REGULATED)
+def test_coordination_caution(pid):
+    p = PROFILES[pid]
+    assert p.coordination_caution is (p.region in ("US", "CA"))
+    assert p.region == {"us": "US", "ca": "CA", "eu": "EU"}[pid[:2]]
+
+
+# Which rules each profile encodes, per the rule table.
+@pytest.mark.parametrize("pid, expected", [
+    ("us-915", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence"}),
+    ("ca-915", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", "eirp"}),
+    ("us-2400", {"band-fit", "channels", "separation", "occupancy", "power", "sequence"}),
+    ("ca-2400", {"band-fit", "channels", "separation", "occupancy", "power", "sequence"}),
+    ("us-5800", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence"}),
+    ("ca-5800", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence"}),
+    ("eu-2400-nonadaptive", {"band-fit", "channels", "separation", "occupancy", "eirp", "medium-utilisation"}),
+    ("eu-2400-adaptive", {"band-fit", "channels", "separation", "occupancy", "eirp"}),
+    ("eu-868", {"band-fit", "erp", "duty-cycle", "fhss"}),
+    ("custom", {"band-fit"}),
+])
+def test_rule_sets(pid, expected):
+    assert suffixes(pid) == expected
+
+
+# 47 CFR 15.247 paragraphs named in the rule table.
+@pytest.mark.parametrize("pid, suffix, paragraph", [
+    ("us-915", "channels", "15.247(a)(1)(i)"), ("us-915", "bandwidth", "15.247(a)(1)(i)"),
+    ("us-915", "occupancy", "15.247(a)(1)(i)"), ("us-915", "separation", "15.247(a)(1)"),
+    ("us-915", "power", "15.247(b)(2)"), ("us-915", "power", "(b)(4)"), ("us-915", "sequence", "15.247(a)(1)"),
+    ("us-2400", "channels", "15.247(a)(1)(iii)"), ("us-2400", "occupancy", "15.247(a)(1)(iii)"),
+    ("us-2400", "power", "15.247(b)(1)"), ("us-2400", "power", "(b)(4)"), ("us-5800", "power", "(b)(4)"),
+])
+def test_us_citations(pid, suffix, paragraph):
+    assert paragraph in rule(pid, suffix).citation
+
+
+# Certainty column of the rule table for the US profiles.
+@pytest.mark.parametrize("pid, suffix, certainty", [
+    ("us-915", "channels", "published"), ("us-915", "bandwidth", "published"),
+    ("us-915", "occupancy", "published"), ("us-915", "separation", "published"),
+    ("us-915", "power", "seen quoted"),
+    ("us-2400", "channels", "published"), ("us-2400", "occupancy", "published"),
+    ("us-2400", "separation", "published"), ("us-2400", "power", "from memory"),
+    ("us-5800", "channels", "from memory"), ("us-5800", "bandwidth", "from memory"),
+    ("us-5800", "occupancy", "from memory"), ("us-5800", "power", "from memory"),
+])
+def test_us_certainties(pid, suffix, certainty):
+    assert rule(pid, suffix).certainty == certainty
+
+
+# RSS-247 (Canada, "as US, marked from memory"): the rules that cohop implements itself
+# (channels, bandwidth, occupancy, power, e.i.r.p.) are from memory and cite RSS-247.
+@pytest.mark.parametrize("pid", CA)
+def test_canadian_numeric_rules_from_memory(pid):
+    for r in PROFILES[pid].rules:
+        if r.id.split(".", 1)[1] in {"channels", "bandwidth", "occupancy", "power", "eirp"}:
+            assert r.certainty == "from memory" and "RSS-247" in r.citation, r.id
+
+
+# RSS-247 (from memory): "as US, marked from memory" covers every Canadian regulatory rule, including
+# channel separation and the pseudo-random sequence rule; band fit is common practice, not a rule.
+@pytest.mark.parametrize("pid", CA)
+def test_every_canadian_rule_from_memory_and_cites_rss247(pid):
+    for r in PROFILES[pid].rules:
+        if not r.id.endswith(".band-fit"):
+            assert r.certainty == "from memory" and "RSS-247" in r.citation, (r.id, r.certainty, r.citation)
+
+
+# ETSI EN 300 328 V2.2.2 [partly seen] and ERC Rec 70-03 Annex 1 [partly seen]; medium utilisation and
+# the EN 300 220-2 note are marked from memory.
+@pytest.mark.parametrize("pid", EU)
+def test_eu_citations_and_certainties(pid):
+    for r in PROFILES[pid].rules:
+        suffix = r.id.split(".", 1)[1]
+        if suffix == "band-fit":
+            continue
+        if pid.startswith("eu-2400"):
+            assert "EN 300 328" in r.citation and "V2.2.2" in r.citation
+        elif suffix == "fhss":
+            assert "EN 300 220-2" in r.citation
+        else:
+            assert "ERC Rec 70-03" in r.citation and "Annex 1" in r.citation
+        expected = "from memory" if suffix in {"medium-utilisation", "fhss"} else "partly seen"
+        assert r.certainty == expected, r.id
+
+
+# Custom profile: no band of its own, only the band fit against the band the request gives.
+def test_custom_profile_checks_only_request_band():
+    p = PROFILES["custom"]
+    assert p.band is None and p.region == "custom" and p.coordination_caution is False
+    s = System(id="s", tx_power_dbm=40.0, antenna_gain_dbi=10.0, bandwidth_hz=1e6, dwell_s=1.0,
+               packet_airtime_s=1.0, activity_fraction=1.0, required_sir_db=10.0, rejection=(), retry_limit=0)
+    c = np.array([100.5e6, 101.5e6])
+    (inside,) = check_compliance(p, s, np.arange(2), c, Band(100e6, 102e6))
+    (outside,) = check_compliance(p, s, np.arange(2), c, Band(100e6, 101.9e6))
+    assert (inside.status, outside.status) == ("pass", "fail")
