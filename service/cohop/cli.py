@@ -15,7 +15,13 @@ from pathlib import Path
 from cohop_client import Client, CohopError, InvalidRequest
 
 
+SERVICE_PACKAGES = {"flask", "flask_smorest", "marshmallow", "numpy", "scipy", "ortools", "werkzeug", "webargs",
+                    "apispec"}
+
+
 def _service_missing(err: ImportError) -> int:
+    if (err.name or "").split(".")[0] not in SERVICE_PACKAGES:
+        raise err
     print(f"cohop: the embedded service needs the service extra ({err.name} is missing): "
           "pip install 'cohop[service]', or give --server URL", file=sys.stderr)
     return 2
