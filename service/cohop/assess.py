@@ -30,7 +30,7 @@ from cohop.prepare import PreparedSite, SourceLink
 from cohop.regulatory import check_compliance
 from cohop.regulatory.rules import Finding
 from cohop.stats import retries
-from cohop.stats.overlap import survival
+from cohop.stats.overlap import survival, survival_from
 
 DETAIL_LEVELS = ("system", "channel", "source")
 
@@ -131,12 +131,10 @@ def system_collisions(prep: PreparedSite, v: int, channels: np.ndarray, prefix: 
                       sizes: np.ndarray) -> np.ndarray:
     """Standalone per-hop collision probability of each source system, (S, N_v)."""
     h = system_hits(prep, v, channels, prefix)
-    x = np.zeros(h.shape)
-    for a, link in enumerate(prep.links[v]):
-        if link is None or prep.window[v, a] < 0 or sizes[a] == 0:
-            continue
-        p = link.activity_fraction * h[a] / sizes[a]
-        x[a] = 1.0 - survival(link.overlap, p)
+    p = prep.activity[:, None] * h / np.maximum(sizes, 1)[:, None]
+    x = 1.0 - survival_from(prep.overlap_k0[v][:, None], prep.overlap_r[v][:, None], p)
+    x[prep.window[v] < 0] = 0.0
+    x[v] = 0.0
     return x
 
 
@@ -157,34 +155,35 @@ def interferer_collisions(prep: PreparedSite, v: int, channels: np.ndarray) -> n
 def _channel_figures(prep, channels, total, hop_loss, x, source_ids, detail) -> tuple[ChannelFigures, ...]:
     if detail == "system":
         return ()
+    dominant = np.argmax(x, axis=0) if x.shape[0] else np.zeros(channels.size, dtype=int)
     out = []
     for i, ch in enumerate(channels):
-        col = x[:, i]
-        j = int(np.argmax(col)) if col.size else 0
-        dominant = source_ids[j] if col.size and col[j] > 0 else None
+        j = int(dominant[i])
+        name = source_ids[j] if x.shape[0] and x[j, i] > 0 else None
         by_source = None
         if detail == "source":
-            by_source = {source_ids[n]: float(col[n]) for n in np.flatnonzero(col > 0)}
+            by_source = {source_ids[n]: float(x[n, i]) for n in np.flatnonzero(x[:, i] > 0)}
         out.append(ChannelFigures(channel=int(ch), centre_hz=float(prep.centres_hz[ch]),
                                   collision_probability=float(total[i]), hop_loss_probability=float(hop_loss[i]),
-                                  dominant_source=dominant, by_source=by_source))
+                                  dominant_source=name, by_source=by_source))
     return tuple(out)
 
 
 def _source_figures(prep: PreparedSite, v: int, x_sys: np.ndarray, x_itf: np.ndarray) -> tuple[SourceFigures, ...]:
     site = prep.site
+    sys_mean, itf_mean = x_sys.mean(axis=1), x_itf.mean(axis=1)
     out = []
     for a, link in enumerate(prep.links[v]):
         if link is None:
             continue
         out.append(SourceFigures(source_id=site.systems[a].id, kind="system", link=link,
                                  window_channels=int(prep.window[v, a]), channel_range=None,
-                                 collision_probability=float(x_sys[a].mean())))
+                                 collision_probability=float(sys_mean[a])))
     for k, link in enumerate(prep.interferer_links[v]):
         lo, hi = prep.interferer_range[v, k]
         out.append(SourceFigures(source_id=site.interferers[k].id, kind="interferer", link=link,
                                  window_channels=None, channel_range=(int(lo), int(hi)),
-                                 collision_probability=float(x_itf[k].mean())))
+                                 collision_probability=float(itf_mean[k])))
     return tuple(out)
 
 
@@ -195,7 +194,7 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
     x_sys = system_collisions(prep, v, channels, prefix, sizes)
     x_itf = interferer_collisions(prep, v, channels)
     x = np.vstack([np.delete(x_sys, v, axis=0), x_itf])
-    total = retries.combine_independent(*x) if x.shape[0] else np.zeros(channels.size)
+    total = 1.0 - np.prod(1.0 - x, axis=0)  # combine independent sources (cohop.stats.retries)
     fade = float(prep.fade_probability[v])
     hop_loss = retries.combine_independent(total, fade)
     collision = float(total.mean())

@@ -98,16 +98,14 @@ class _Source:
     base_overlaps: int  # floor(a) + floor(b); 1 for aligned or continuous sources
     phase_lo: int | None  # threshold for [x < frac(a)]; None: no phase (K = base_overlaps)
     phase_hi: int | None  # threshold for [x > 1 - frac(b)]
-
-    @property
-    def max_overlaps(self) -> int:
-        return self.base_overlaps + (0 if self.phase_lo is None else 2)
+    max_overlaps: int  # largest possible K: ceil(a + b), or base_overlaps without a phase
 
 
 def _phase_source(sid, thr_lo, thr_hi, victim_t: float, burst_s: float, period_s: float) -> _Source:
     a, b = victim_t / period_s, burst_s / period_s
     base = math.floor(a) + math.floor(b)
-    return _Source(sid, thr_lo, thr_hi, base, int(_u32(a - math.floor(a))), int(_u32(1.0 - (b - math.floor(b)))))
+    return _Source(sid, thr_lo, thr_hi, base, int(_u32(a - math.floor(a))), int(_u32(1.0 - (b - math.floor(b)))),
+                   max(base, math.ceil(a + b)))
 
 
 def _system_source(prep: PreparedSite, v: int, a: int, channels: np.ndarray, hop_sets) -> _Source | None:
@@ -124,7 +122,7 @@ def _system_source(prep: PreparedSite, v: int, a: int, channels: np.ndarray, hop
     thr_hi = _u32(hi * scale)[:, None]
     src = prep.site.systems[a]
     if link.aligned:
-        return _Source(src.id, thr_lo, thr_hi, 1, None, None)
+        return _Source(src.id, thr_lo, thr_hi, 1, None, None, 1)
     return _phase_source(src.id, thr_lo, thr_hi, prep.site.systems[v].packet_airtime_s,
                          src.packet_airtime_s, src.dwell_s)
 
@@ -138,7 +136,7 @@ def _interferer_source(prep: PreparedSite, v: int, k: int, channels: np.ndarray)
     itf = prep.site.interferers[k]
     thr_hi = _u32(np.where(harm, link.activity_fraction, 0.0))[:, None]
     if itf.burst_s is None:
-        return _Source(itf.id, None, thr_hi, 1, None, None)
+        return _Source(itf.id, None, thr_hi, 1, None, None, 1)
     return _phase_source(itf.id, None, thr_hi, prep.site.systems[v].packet_airtime_s, itf.burst_s, itf.period_s)
 
 

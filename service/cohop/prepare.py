@@ -51,6 +51,9 @@ class PreparedSite:
     coupling_explicit: np.ndarray  # (S, S) bool: given in the request, not computed
     links: tuple[tuple[SourceLink | None, ...], ...]  # [v][a]; None on the diagonal
     window: np.ndarray  # (S, S) int [v, a]: harmful iff |c - c'| <= window (-1: never)
+    overlap_k0: np.ndarray  # (S, S) int [v, a]: K = k0 or k0 + 1 overlapped bursts ...
+    overlap_r: np.ndarray  # (S, S) float [v, a]: ... with P(K = k0 + 1) = r
+    activity: np.ndarray  # (S,) activity_fraction of each system as a source
     interferer_links: tuple[tuple[SourceLink, ...], ...]  # [v][k]
     interferer_range: np.ndarray  # (S, K, 2) int [v, k]: harmful grid channels lo <= c < hi
 
@@ -266,8 +269,12 @@ def prepare_site(site: Site) -> PreparedSite:
                      for s, m in zip(site.systems, margin)])
     loss, explicit = _coupling(site, f_mid)
     links, window = _system_links(site, wanted, loss)
+    k0 = np.array([[0 if link is None else link.overlap.k0 for link in row] for row in links], dtype=int)
+    r = np.array([[0.0 if link is None else link.overlap.r for link in row] for row in links])
     ilinks, iranges = _interferer_links(site, wanted, centres, f_mid)
     return PreparedSite(site=site, profile=profile, band=band, centres_hz=centres,
                         usable=_usable(site, band, centres), wanted_dbm=wanted, fade_margin_db=margin,
                         fade_probability=fade, coupling_loss_db=loss, coupling_explicit=explicit,
-                        links=links, window=window, interferer_links=ilinks, interferer_range=iranges)
+                        links=links, window=window, overlap_k0=k0, overlap_r=r,
+                        activity=np.array([s.activity_fraction for s in site.systems]),
+                        interferer_links=ilinks, interferer_range=iranges)

@@ -50,7 +50,12 @@ def random_phase_overlap(victim_airtime_s: float, burst_s: float, period_s: floa
 ALIGNED = OverlapCount(k0=1, r=0.0)
 
 
+def survival_from(k0, r, hit_probability):
+    """E[(1 - p)^K] for K = k0 w.p. 1 - r, k0 + 1 w.p. r; broadcasts over arrays [der]."""
+    q = 1.0 - hit_probability
+    return (1.0 - r) * q**k0 + r * q ** (k0 + 1)
+
+
 def survival(overlap: OverlapCount, hit_probability):
     """E[(1 - p)^K]: chance that none of the overlapped bursts hits [der]."""
-    q = 1.0 - hit_probability
-    return (1.0 - overlap.r) * q**overlap.k0 + overlap.r * q ** (overlap.k0 + 1)
+    return survival_from(overlap.k0, overlap.r, hit_probability)
