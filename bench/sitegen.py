@@ -30,9 +30,22 @@ KINDS = (
 
 
 def _rejection(spacing_hz: float, bandwidth_hz: float) -> list[dict]:
-    """A receiver that rejects 30 dB one bandwidth away, 50 dB at two, 60 dB at three."""
-    return [{"offset_hz": k * max(bandwidth_hz, spacing_hz), "rejection_db": r} for k, r in ((1, 30.0), (2, 50.0),
-                                                                                          (3, 60.0))]
+    """A receiver that rejects 30 dB one bandwidth away, 50 dB at two, 60 dB at three, 70 dB at ten."""
+    step = max(bandwidth_hz, spacing_hz)
+    return [{"offset_hz": k * step, "rejection_db": r} for k, r in ((1, 30.0), (2, 50.0), (3, 60.0), (10, 70.0))]
+
+
+#: Radios of different systems are at least this far apart (separate buildings, masts or bays).
+MIN_SEPARATION_M = 40.0
+
+
+def _positions(rng: random.Random, n: int, extent: float) -> list[tuple[float, float]]:
+    out: list[tuple[float, float]] = []
+    while len(out) < n:
+        p = (rng.uniform(0, extent), rng.uniform(0, extent))
+        if all((p[0] - q[0]) ** 2 + (p[1] - q[1]) ** 2 >= MIN_SEPARATION_M**2 for q in out):
+            out.append(p)
+    return out
 
 
 def generate(size: str = "medium", seed: int = 0, with_hop_sets: bool = True) -> dict:
@@ -42,6 +55,7 @@ def generate(size: str = "medium", seed: int = 0, with_hop_sets: bool = True) ->
     extent = 300.0 + 40.0 * n_sys
     bandwidth = min(0.8 * spacing, 200e3)
     systems = []
+    spots = _positions(rng, n_sys, extent)
     for i in range(n_sys):
         kind, tx, gain, dwell, share, act, sir, retries, weight, hops = KINDS[i % len(KINDS)]
         s = {"id": f"{kind}-{i:02d}", "label": f"{kind} network {i}", "tx_power_dbm": tx + rng.uniform(-3, 0),
@@ -50,7 +64,7 @@ def generate(size: str = "medium", seed: int = 0, with_hop_sets: bool = True) ->
              "required_sir_db": sir, "rejection": _rejection(spacing, bandwidth),
              "wanted_signal_dbm": rng.uniform(-90.0, -65.0), "fade_margin_db": rng.uniform(12.0, 25.0),
              "retry_limit": retries, "priority_weight": weight, "hops_per_attempt": hops,
-             "position": {"x_m": rng.uniform(0, extent), "y_m": rng.uniform(0, extent)}}
+             "position": {"x_m": spots[i][0], "y_m": spots[i][1]}}
         if with_hop_sets:
             s["hop_set"] = sorted(rng.sample(range(n_ch), per_system))
         systems.append(s)
@@ -86,13 +100,14 @@ def scaled(systems: int, channels: int, seed: int = 0, per_system: int | None = 
     rng = random.Random(f"scaled:{systems}:{channels}:{seed}")
     per = per_system or max(1, min(channels, channels // 5))
     template = body["systems"]
+    spots = _positions(rng, systems, 300.0 + 40.0 * systems)
     out = []
     for i in range(systems):
         s = dict(template[i % len(template)])
         s["id"] = f"sys-{i:03d}"
         s["bandwidth_hz"] = 0.8 * spacing
         s["rejection"] = _rejection(spacing, 0.8 * spacing)
-        s["position"] = {"x_m": rng.uniform(0, 1000), "y_m": rng.uniform(0, 1000)}
+        s["position"] = {"x_m": spots[i][0], "y_m": spots[i][1]}
         s["hop_set"] = sorted(rng.sample(range(channels), per))
         out.append(s)
     body.update(systems=out, grid={"first_centre_hz": first, "spacing_hz": spacing, "count": channels},

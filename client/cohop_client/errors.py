@@ -47,3 +47,31 @@ class InvalidRequest(CohopError):
 
 class ServerError(CohopError):
     """The service failed (5xx)."""
+
+
+@dataclass(frozen=True)
+class Conflict:
+    """One requirement taking part in an infeasibility, as the server explains it."""
+
+    requirement: str
+    systems: tuple[str, ...]
+    detail: str
+    citation: str | None
+    channels: tuple[tuple[int, int], ...]
+    relax: str
+
+
+class NoFeasiblePlan(CohopError):
+    """No plan meets the requirements (`proven`), or none was found in time (not `proven`)."""
+
+    PROBLEM_TYPES = ("urn:cohop:problem:no-feasible-plan", "urn:cohop:problem:no-plan-found-in-time")
+
+    @property
+    def proven(self) -> bool:
+        return bool(self.problem.get("proven"))
+
+    @property
+    def conflicts(self) -> list[Conflict]:
+        return [Conflict(c.get("requirement", ""), tuple(c.get("systems", ())), c.get("detail", ""),
+                         c.get("citation"), tuple(tuple(r) for r in c.get("channels", ())), c.get("relax", ""))
+                for c in self.problem.get("conflicts", [])]

@@ -102,3 +102,62 @@ class Assessment:
             if s.id == system_id:
                 return s
         raise KeyError(system_id)
+
+
+@dataclass(frozen=True)
+class PlannedSystem:
+    id: str
+    hop_set: tuple[int, ...]
+    centres_hz: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class SolverReport:
+    status: str
+    objective: float
+    bound: float
+    gap: float | None
+    time_s: float
+    method: str
+    evaluated_objective: float
+    binding: tuple[str, ...]
+    notes: tuple[str, ...]
+
+    @classmethod
+    def from_json(cls, body: dict) -> "SolverReport":
+        return cls(status=body["status"], objective=body["objective"], bound=body["bound"], gap=body["gap"],
+                   time_s=body["time_s"], method=body["method"], evaluated_objective=body["evaluated_objective"],
+                   binding=tuple(body["binding"]), notes=tuple(body["notes"]))
+
+
+@dataclass(frozen=True)
+class BaselineResult:
+    name: str
+    objective: float | None
+    meets_requirements: bool
+
+
+@dataclass(frozen=True)
+class Plan:
+    systems: tuple[PlannedSystem, ...]
+    solver: SolverReport
+    assessment: Assessment
+    baselines: tuple[BaselineResult, ...]
+    ratio_to_best_baseline: float | None
+    cautions: tuple[str, ...]
+    raw: dict = field(repr=False)
+
+    @classmethod
+    def from_json(cls, body: dict) -> "Plan":
+        return cls(systems=tuple(PlannedSystem(p["id"], tuple(p["hop_set"]), tuple(p["centres_hz"]))
+                                 for p in body["plan"]),
+                   solver=SolverReport.from_json(body["solver"]), assessment=Assessment.from_json(body["assessment"]),
+                   baselines=tuple(BaselineResult(b["name"], b["objective"], b["meets_requirements"])
+                                   for b in body["baselines"]),
+                   ratio_to_best_baseline=body["comparison"]["ratio"], cautions=tuple(body["cautions"]), raw=body)
+
+    def hop_set(self, system_id: str) -> tuple[int, ...]:
+        for p in self.systems:
+            if p.id == system_id:
+                return p.hop_set
+        raise KeyError(system_id)

@@ -8,8 +8,9 @@ from urllib.parse import quote
 
 import requests
 
-from cohop_client.errors import CohopError, InvalidRequest, RequestTimeout, ServerError, TransportError
-from cohop_client.results import Assessment, Health, Profile
+from cohop_client.errors import (CohopError, InvalidRequest, NoFeasiblePlan, RequestTimeout, ServerError,
+                                 TransportError)
+from cohop_client.results import Assessment, Health, Plan, Profile
 
 DEFAULT_TIMEOUT_S = 60.0
 T = TypeVar("T")
@@ -68,6 +69,18 @@ class Client:
             body["detail"] = detail
         return self._typed(Assessment.from_json, self._call("POST", "/v1/assessments", body))
 
+    def plan(self, site: dict, *, requirements: dict | None = None, search: dict | None = None,
+             baselines: list[str] | None = None, detail: str | None = None) -> Plan:
+        """Plan every system's hop set. `search`: {"time_limit_s": s, "seed": n}; `baselines`: names or ["all"].
+
+        Raises NoFeasiblePlan (with the conflicting requirements) when no plan meets them."""
+        body: dict[str, Any] = {"site": site}
+        for key, value in (("requirements", requirements), ("search", search), ("baselines", baselines),
+                           ("detail", detail)):
+            if value is not None:
+                body[key] = value
+        return self._typed(Plan.from_json, self._call("POST", "/v1/plans", body))
+
     # --- transport ---------------------------------------------------------
 
     def _typed(self, build: Callable[[Any], T], body: Any) -> T:
@@ -120,6 +133,8 @@ def _decode(resp: requests.Response, url: str) -> Any:
     problem = payload if isinstance(payload, dict) else {}
     message = _describe(resp.status_code, problem)
     cls = ServerError if resp.status_code >= 500 else InvalidRequest
+    if problem.get("type") in NoFeasiblePlan.PROBLEM_TYPES:
+        cls = NoFeasiblePlan
     raise cls(message, status=resp.status_code, problem=problem, url=url)
 
 
@@ -127,9 +142,9 @@ def _describe(status: int, problem: dict) -> str:
     title = problem.get("title") or f"HTTP {status}"
     detail = problem.get("detail")
     text = f"{status} {title}" + (f": {detail}" if detail else "")
-    errors = problem.get("errors") or []
+    errors = problem.get("errors") or problem.get("conflicts") or []
     if errors:
-        shown = "; ".join(f"{e.get('pointer', '')}: {e.get('detail', '')}" for e in errors[:5])
+        shown = "; ".join(f"{e.get('pointer', e.get('requirement', ''))}: {e.get('detail', '')}" for e in errors[:5])
         more = f" (and {len(errors) - 5} more)" if len(errors) > 5 else ""
         text += f" [{shown}{more}]"
     return text

@@ -12,7 +12,7 @@ import os
 import sys
 from pathlib import Path
 
-from cohop_client import Client, CohopError, InvalidRequest
+from cohop_client import Client, CohopError, InvalidRequest, NoFeasiblePlan
 
 
 SERVICE_PACKAGES = {"flask", "flask_smorest", "marshmallow", "numpy", "scipy", "ortools", "werkzeug", "webargs",
@@ -27,14 +27,15 @@ def _service_missing(err: ImportError) -> int:
     return 2
 
 
-def _client(args) -> Client:
+def _client(args, config: dict | None = None) -> Client:
     token = args.token or os.environ.get("COHOP_TOKEN")
     if args.server:
         return Client(args.server, timeout_s=args.timeout, token=token)
     from cohop.api import create_app
     from cohop.embedded import EMBEDDED_URL, embedded_session
 
-    return Client(EMBEDDED_URL, timeout_s=args.timeout, token=token, session=embedded_session(create_app()))
+    return Client(EMBEDDED_URL, timeout_s=args.timeout, token=token,
+                  session=embedded_session(create_app(config)))
 
 
 def _load_request(args) -> dict:
@@ -72,19 +73,51 @@ def _cmd_assess(args) -> int:
         if simulation:
             print("simulating...", file=sys.stderr, flush=True)
         result = api.assess(body["site"], simulation=simulation, detail=detail)
+    return _emit(args, result.raw, assessment_table(result))
+
+
+def _emit(args, raw: dict, table: str) -> int:
     if args.json:
-        print(json.dumps(result.raw, indent=2))
+        print(json.dumps(raw, indent=2))
     else:
-        print(assessment_table(result))
+        print(table)
     if args.save:
         try:
-            Path(args.save).write_text(json.dumps(result.raw, indent=2) + "\n", encoding="utf-8")
+            Path(args.save).write_text(json.dumps(raw, indent=2) + "\n", encoding="utf-8")
         except OSError as err:
             print(f"cohop: could not write {args.save}: {err.strerror}", file=sys.stderr)
             return 1
         if not args.json:
             print(f"\nfull answer written to {args.save}")
     return 0
+
+
+def _cmd_plan(args) -> int:
+    from cohop.render import ProgressLine, plan_table
+
+    body = _load_request(args)
+    search = dict(body.get("search") or {})
+    if args.time_limit is not None:
+        search["time_limit_s"] = args.time_limit
+    if args.seed is not None:
+        search["seed"] = args.seed
+    requirements = dict(body.get("requirements") or {})
+    if args.objective:
+        requirements["objective"] = args.objective
+    if args.coordination:
+        requirements["coordination"] = args.coordination
+    baselines = ["all"] if args.compare else body.get("baselines")
+    line = ProgressLine(sys.stderr)
+    config = {"COHOP_PROGRESS_HOOK": line.update, "COHOP_SOLVER_WORKERS": args.workers}
+    if args.server:
+        print(f"planning on {args.server} ...", file=sys.stderr, flush=True)
+    with _client(args, config) as api:
+        try:
+            result = api.plan(body["site"], requirements=requirements or None, search=search or None,
+                              baselines=baselines, detail=args.detail or body.get("detail"))
+        finally:
+            line.finish()
+    return _emit(args, result.raw, plan_table(result))
 
 
 def _cmd_profiles(args) -> int:
@@ -133,6 +166,19 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
     _common(p)
     p.set_defaults(func=_cmd_assess)
+    p = sub.add_parser("plan", help="assign hop sets to every system, with a proven bound and baselines")
+    p.add_argument("site", nargs="?", help="site or plan request JSON; default: a sample")
+    p.add_argument("--sample", default="water_works_us915", help="embedded sample to use when no file is given")
+    p.add_argument("--time-limit", type=float, metavar="S", help="search budget in seconds (server-capped)")
+    p.add_argument("--seed", type=int, help="search seed (same request and seed, same plan)")
+    p.add_argument("--objective", choices=("weighted_sum", "worst_system"))
+    p.add_argument("--coordination", choices=("joint", "independent"))
+    p.add_argument("--compare", action="store_true", help="also evaluate every practitioner's baseline")
+    p.add_argument("--workers", type=int, default=2, help="solver threads when running in-process")
+    p.add_argument("--detail", choices=("system", "channel", "source"))
+    p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
+    _common(p)
+    p.set_defaults(func=_cmd_plan)
     p = sub.add_parser("profiles", help="list the regulatory profiles and their rules")
     _common(p)
     p.set_defaults(func=_cmd_profiles)
@@ -151,6 +197,13 @@ def main(argv: list[str] | None = None) -> int:
         return args.func(args)
     except ImportError as err:
         return _service_missing(err)
+    except NoFeasiblePlan as err:
+        head = "no plan meets the requirements" if err.proven else "no plan was found in time"
+        print(f"cohop: {head}; conflicting requirements:", file=sys.stderr)
+        for c in err.conflicts:
+            cite = f" [{c.citation}]" if c.citation else ""
+            print(f"  - {c.detail}{cite}\n    relax: {c.relax}", file=sys.stderr)
+        return 3
     except InvalidRequest as err:
         print(f"cohop: the service rejected the request: {err}", file=sys.stderr)
         for fe in err.field_errors:

@@ -4,7 +4,9 @@ from __future__ import annotations
 
 import textwrap
 
-from cohop_client import Assessment
+import time
+
+from cohop_client import Assessment, Plan
 
 
 def _pct(p: float) -> str:
@@ -15,7 +17,7 @@ def _pct(p: float) -> str:
     return f"{100 * p:.2f}%"
 
 
-def assessment_table(result: Assessment) -> str:
+def _systems_table(result: Assessment) -> list[str]:
     head = ("system", "chans", "hit/hop", "loss/try", "after retries", "tries", "compliance", "main source")
     rows = [head]
     for s in result.systems:
@@ -26,17 +28,93 @@ def assessment_table(result: Assessment) -> str:
     lines = ["  ".join(c.ljust(w) if i in (0, 6, 7) else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths))).rstrip()
              for r in rows]
     lines.insert(1, "  ".join("-" * w for w in widths))
+    return lines
+
+
+def _cautions(cautions) -> list[str]:
+    return ["", "cautions:"] + [textwrap.fill(c, 100, initial_indent="  - ", subsequent_indent="    ")
+                                for c in cautions]
+
+
+def assessment_table(result: Assessment) -> str:
     out = [f"profile {result.profile_id}; priority-weighted hit/hop sum {result.weighted_collision_probability:.4f}; "
-           f"worst system {result.worst_system}", ""] + lines
+           f"worst system {result.worst_system}", ""] + _systems_table(result)
     failing = [(s.id, f) for s in result.systems for f in s.findings if f.status == "fail"]
     if failing:
         out += ["", "compliance failures:"]
         out += [f"  {sid}: {f.message} [{f.citation}; {f.certainty}]" for sid, f in failing]
     if result.simulation:
         out += ["", _simulation_lines(result)]
-    out += ["", "cautions:"] + [textwrap.fill(c, 100, initial_indent="  - ", subsequent_indent="    ")
-                                for c in result.cautions]
-    return "\n".join(out)
+    return "\n".join(out + _cautions(result.cautions))
+
+
+def plan_table(result: Plan) -> str:
+    r = result.solver
+    gap = "n/a" if r.gap is None else f"{100 * r.gap:.1f}%"
+    out = [f"plan: {r.status}; objective {r.objective:.5f} (evaluated {r.evaluated_objective:.5f}), proven bound "
+           f"{r.bound:.5f}, gap {gap}, {r.time_s:.1f} s", f"method: {r.method}", ""]
+    out += _systems_table(result.assessment)
+    out += ["", "hop sets:"]
+    out += [textwrap.fill(f"{p.id}: {_ranges(p.hop_set)}", 100, initial_indent="  ", subsequent_indent="      ")
+            for p in result.systems]
+    if result.baselines:
+        out += ["", "against what a practitioner might do (evaluated objective; lower is better):"]
+        for b in sorted(result.baselines, key=lambda b: (b.objective is None, b.objective or 0.0)):
+            value = "-" if b.objective is None else f"{b.objective:.5f}"
+            ok = "" if b.meets_requirements else "  (misses requirements)"
+            out.append(f"  {b.name:12s} {value}{ok}")
+        if result.ratio_to_best_baseline is not None:
+            out.append(f"  plan / best baseline: {result.ratio_to_best_baseline:.3f}")
+    if r.binding:
+        out += ["", "binding requirements: " + "; ".join(r.binding)]
+    out += ["", "notes:"] + [f"  - {n}" for n in r.notes]
+    return "\n".join(out + _cautions(result.cautions))
+
+
+def _ranges(chans) -> str:
+    parts, start, prev = [], None, None
+    for c in sorted(chans):
+        if start is None:
+            start = prev = c
+        elif c == prev + 1:
+            prev = c
+        else:
+            parts.append(str(start) if start == prev else f"{start}-{prev}")
+            start = prev = c
+    if start is not None:
+        parts.append(str(start) if start == prev else f"{start}-{prev}")
+    return ", ".join(parts)
+
+
+class ProgressLine:
+    """A live line on a terminal (or a line a second elsewhere) with the solver's progress."""
+
+    def __init__(self, stream):
+        self.stream = stream
+        self.live = hasattr(stream, "isatty") and stream.isatty()
+        self.last = 0.0
+        self.shown = False
+
+    def update(self, p) -> None:
+        now = time.monotonic()
+        if not self.live and now - self.last < 1.0:
+            return
+        self.last = now
+        obj = "-" if p.objective is None else f"{p.objective:.5f}"
+        bound = "-" if p.bound is None else f"{p.bound:.5f}"
+        gap = "-" if p.gap is None else f"{100 * p.gap:.1f}%"
+        text = f"{p.elapsed_s:6.1f} s  best {obj}  bound {bound}  gap {gap}  ({p.phase})"
+        if self.live:
+            self.stream.write("\r" + text.ljust(78))
+        else:
+            self.stream.write(text + "\n")
+        self.stream.flush()
+        self.shown = True
+
+    def finish(self) -> None:
+        if self.live and self.shown:
+            self.stream.write("\n")
+            self.stream.flush()
 
 
 def _simulation_lines(result: Assessment) -> str:

@@ -14,6 +14,11 @@ from cohop.api.schemas.problem import ProblemSchema
 DEFAULTS = {
     "MAX_CONTENT_LENGTH": 16 * 1024 * 1024,
     "COHOP_MAX_SIMULATED_ATTEMPTS": 50_000_000,
+    "COHOP_SOLVER_WORKERS": 2,  # CP-SAT threads per solve; never left to default to every core
+    "COHOP_MAX_SOLVE_S": 60.0,  # cap on a request's time limit
+    "COHOP_MAX_PRODUCTS": 30_000,  # largest full CP-SAT model (pair booleans); larger sites use local search
+    "COHOP_DETERMINISTIC": True,  # same request and seed, same plan
+    "COHOP_PROGRESS_HOOK": None,  # in-process only: called with solver progress
     "API_TITLE": "cohop",
     "API_VERSION": __version__,
     "OPENAPI_VERSION": "3.0.3",
@@ -61,8 +66,8 @@ def create_app(config: dict | None = None) -> flask.Flask:
     app.json.sort_keys = False
     app.before_request(_require_json)
     api = CohopApi(app)
-    from cohop.api.views import assessments, meta, profiles
+    from cohop.api.views import assessments, meta, plans, profiles
 
-    for blp in (assessments.blp, profiles.blp, meta.blp):
+    for blp in (assessments.blp, plans.blp, profiles.blp, meta.blp):
         api.register_blueprint(blp)
     return app

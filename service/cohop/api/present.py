@@ -90,3 +90,43 @@ def assessment_dict(assessment: Assessment, simulation: SiteSimulation | None = 
         "systems": [_system(f, assessment) for f in assessment.systems],
         "simulation": simulation_dict(simulation, assessment) if simulation is not None else None,
     }
+
+
+def _baseline(b) -> dict:
+    systems = []
+    if b.assessment is not None:
+        systems = [{"id": f.id, "channel_count": len(f.hop_set), "collision_probability": f.collision_probability,
+                    "residual_loss_probability": f.residual_loss_probability} for f in b.assessment.systems]
+    return {"name": b.name, "objective": b.objective, "meets_requirements": not b.violations,
+            "violations": [{"requirement": v.requirement, "systems": list(v.systems), "detail": v.detail}
+                           for v in b.violations], "systems": systems}
+
+
+def _comparison(result) -> dict:
+    plan = result.report.evaluated_objective
+    scored = [b for b in result.baselines if b.objective is not None]
+    best = min(scored, key=lambda b: b.objective) if scored else None
+    ratio = None
+    if best is not None and best.objective > 0:
+        ratio = plan / best.objective
+    return {"best_baseline": best.name if best else None, "best_baseline_objective": best.objective if best else None,
+            "plan_objective": plan, "ratio": ratio}
+
+
+def plan_dict(result, detail: str = "channel") -> dict:
+    """The plan response: hop sets, solver report, the full assessment, baselines and comparison."""
+    prep = result.assessment.prepared
+    r = result.report
+    inst = result.instance
+    coordination = inst.req.coordination
+    plan = [{"id": s.id, "hop_set": [int(c) for c in hs], "centres_hz": [float(prep.centres_hz[c]) for c in hs],
+             "channel_count": int(hs.size)} for s, hs in zip(prep.site.systems, result.hop_sets)]
+    solver = {"status": r.status, "objective": r.objective, "bound": r.bound, "gap": r.gap, "bounds": r.bounds,
+              "evaluated_objective": r.evaluated_objective, "linearisation_error": r.objective - r.evaluated_objective,
+              "objective_kind": inst.req.objective, "time_s": r.time_s, "time_limit_s": r.time_limit_s,
+              "method": r.method, "scale_factor": r.scale_factor, "max_relative_rounding": r.rounding,
+              "workers": r.workers, "deterministic": r.deterministic, "binding": r.binding, "notes": r.notes}
+    caution = prep.profile.coordination_caution and coordination == "joint"
+    return {"cautions": cautions_for(caution), "coordination": coordination, "plan": plan, "solver": solver,
+            "assessment": assessment_dict(result.assessment), "baselines": [_baseline(b) for b in result.baselines],
+            "comparison": _comparison(result)}

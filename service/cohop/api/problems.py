@@ -9,10 +9,13 @@ from flask import Flask, Response, request
 from werkzeug.exceptions import HTTPException, InternalServerError
 
 from cohop.errors import SiteError
+from cohop.planning.requirements import PlanInfeasible
 
 PROBLEM_JSON = "application/problem+json"
 VALIDATION = "urn:cohop:problem:invalid-request"
 SITE = "urn:cohop:problem:site-not-evaluable"
+INFEASIBLE = "urn:cohop:problem:no-feasible-plan"
+NOT_FOUND_IN_TIME = "urn:cohop:problem:no-plan-found-in-time"
 
 log = logging.getLogger("cohop.api")
 
@@ -74,6 +77,18 @@ def _site_error(err: SiteError):
     return problem(422, "Site cannot be evaluated", "; ".join(m for _, m in err.problems), SITE, errors)
 
 
+def _infeasible(err: PlanInfeasible):
+    conflicts = [{"requirement": c.requirement, "systems": list(c.systems), "detail": c.detail,
+                  "citation": c.citation, "channels": [list(r) for r in c.channels], "relax": c.relax}
+                 for c in err.conflicts]
+    if err.proven:
+        return problem(422, "No plan meets the requirements", "these requirements conflict: " + "; ".join(
+            c.detail for c in err.conflicts), INFEASIBLE, conflicts=conflicts, proven=True)
+    return problem(422, "No plan found in time", "no plan meeting every requirement was found within the time "
+                   "limit, and none was proven impossible: " + "; ".join(c.detail for c in err.conflicts),
+                   NOT_FOUND_IN_TIME, conflicts=conflicts, proven=False)
+
+
 def _unexpected(err: Exception):
     if isinstance(err, HTTPException):
         return _http_exception(err)
@@ -84,4 +99,5 @@ def _unexpected(err: Exception):
 def register(app: Flask) -> None:
     app.register_error_handler(HTTPException, _http_exception)
     app.register_error_handler(SiteError, _site_error)
+    app.register_error_handler(PlanInfeasible, _infeasible)
     app.register_error_handler(Exception, _unexpected)

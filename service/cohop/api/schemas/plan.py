@@ -1,0 +1,203 @@
+"""Plan request and response schemas."""
+
+from __future__ import annotations
+
+import marshmallow as ma
+from marshmallow import fields, post_load, validate, validates_schema
+
+from cohop import limits
+from cohop.api.schemas.assessment import AssessmentResponseSchema
+from cohop.api.schemas.fields import IDENTIFIER, Count, Number, Text, between
+from cohop.api.schemas.problem import ProblemSchema
+from cohop.api.schemas.site import ErrorTree, SiteSchema, StrictSchema
+from cohop.assess import DETAIL_LEVELS
+from cohop.planning.requirements import (BASELINES, COORDINATION, DEFAULT_INTERFERER_THRESHOLD, OBJECTIVES,
+                                         PlanRequirements, SystemRequirement)
+
+def _channel() -> Count:
+    return Count(validate=validate.Range(min=0, max=limits.MAX_CHANNELS - 1))
+
+
+class SystemRequirementSchema(StrictSchema):
+    system = Text(required=True, validate=IDENTIFIER)
+    min_channels = Count(validate=validate.Range(min=1, max=limits.MAX_CHANNELS),
+                         metadata={"description": "At least this many channels (default: the profile's minimum)."})
+    max_channels = Count(validate=validate.Range(min=1, max=limits.MAX_CHANNELS),
+                         metadata={"description": "At most this many (default: the minimum, i.e. an exact count)."})
+    excluded_channels = fields.List(_channel(), load_default=list, validate=validate.Length(max=limits.MAX_CHANNELS))
+    pinned_channels = fields.List(_channel(), load_default=list, validate=validate.Length(max=limits.MAX_CHANNELS),
+                                  metadata={"description": "Channels the system must keep (a pin overrides an "
+                                                           "interferer exclusion, not an explicit one)."})
+    max_attempt_loss = Number(validate=between(0.0, 1.0), metadata={"description": "Ceiling on per-attempt loss."})
+    max_residual_loss = Number(validate=between(0.0, 1.0),
+                               metadata={"description": "Ceiling on loss after the retry limit."})
+
+    @validates_schema
+    def _consistent(self, data, **kwargs):
+        errors = ErrorTree()
+        lo, hi = data.get("min_channels"), data.get("max_channels")
+        if lo is not None and hi is not None and hi < lo:
+            errors.add(("max_channels",), "Must not be below min_channels.")
+        both = set(data["excluded_channels"]) & set(data["pinned_channels"])
+        if both:
+            errors.add(("pinned_channels",), f"Channels {sorted(both)} are both pinned and excluded.")
+        for name in ("excluded_channels", "pinned_channels"):
+            if len(set(data[name])) != len(data[name]):
+                errors.add((name,), "Channels must not repeat.")
+        errors.raise_if_any()
+
+    @post_load
+    def _make(self, data, **kwargs):
+        data["excluded_channels"] = tuple(data["excluded_channels"])
+        data["pinned_channels"] = tuple(data["pinned_channels"])
+        return SystemRequirement(**data)
+
+
+class RequirementsSchema(StrictSchema):
+    systems = fields.List(fields.Nested(SystemRequirementSchema), load_default=list,
+                          validate=validate.Length(max=limits.MAX_SYSTEMS))
+    interferer_threshold = Number(load_default=DEFAULT_INTERFERER_THRESHOLD, validate=between(0.0, 1.0),
+                                  metadata={"description": "A channel is excluded for a system when a fixed "
+                                                           "interferer's predicted hit probability there exceeds "
+                                                           f"this (default {DEFAULT_INTERFERER_THRESHOLD})."})
+    guard_excess_db = Number(load_default=None, validate=between(-50.0, 200.0),
+                             metadata={"description": "Pairs whose excess reaches this keep entirely out of each "
+                                                      "other's harmful windows (default: no guard)."})
+    coordination = Text(load_default="joint", validate=validate.OneOf(COORDINATION),
+                        metadata={"description": "joint: systems planned together; independent: each only "
+                                                 "avoids measured occupancy and its own exclusions."})
+    objective = Text(load_default="weighted_sum", validate=validate.OneOf(OBJECTIVES))
+
+    @validates_schema
+    def _unique(self, data, **kwargs):
+        ids = [r.system for r in data["systems"]]
+        if len(set(ids)) != len(ids):
+            raise ma.ValidationError("One entry per system.", field_name="systems")
+
+
+class SearchSchema(StrictSchema):
+    time_limit_s = Number(load_default=10.0, validate=between(0.1, 3600.0),
+                          metadata={"description": "Search budget; clamped by the server's cap."})
+    seed = Count(load_default=0, validate=validate.Range(min=0, max=2**31 - 1))
+
+
+class PlanRequestSchema(StrictSchema):
+    site = fields.Nested(SiteSchema, required=True)
+    requirements = fields.Nested(RequirementsSchema, load_default=None)
+    search = fields.Nested(SearchSchema, load_default=None)
+    baselines = fields.List(Text(validate=validate.OneOf(BASELINES + ("all",))), load_default=list,
+                            metadata={"description": "Practitioners' plans to evaluate beside the optimised one."})
+    detail = Text(load_default="channel", validate=validate.OneOf(DETAIL_LEVELS))
+
+    @validates_schema
+    def _references(self, data, **kwargs):
+        site, req = data["site"], data.get("requirements")
+        if req is None:
+            return
+        errors = ErrorTree()
+        ids = {s.id for s in site.systems}
+        for i, r in enumerate(req["systems"]):
+            if r.system not in ids:
+                errors.add(("requirements", "systems", i, "system"), f"Unknown system {r.system!r}.")
+            for name in ("excluded_channels", "pinned_channels"):
+                for j, c in enumerate(getattr(r, name)):
+                    if c >= site.grid.count:
+                        errors.add(("requirements", "systems", i, name, j), f"Channel {c} is off the grid.")
+        errors.raise_if_any()
+
+    @post_load
+    def _make(self, data, **kwargs):
+        req = data.get("requirements") or {}
+        search = data.get("search") or {}
+        names = tuple(BASELINES) if "all" in data["baselines"] else tuple(dict.fromkeys(data["baselines"]))
+        requirements = PlanRequirements(
+            systems=tuple(req.get("systems", ())),
+            interferer_threshold=req.get("interferer_threshold", DEFAULT_INTERFERER_THRESHOLD),
+            guard_excess_db=req.get("guard_excess_db"), coordination=req.get("coordination", "joint"),
+            objective=req.get("objective", "weighted_sum"), time_limit_s=search.get("time_limit_s", 10.0),
+            seed=search.get("seed", 0), baselines=names)
+        return {"site": data["site"], "requirements": requirements, "detail": data["detail"]}
+
+
+# --- response ---------------------------------------------------------------
+
+class PlannedSystemSchema(StrictSchema):
+    id = fields.String()
+    hop_set = fields.List(fields.Integer())
+    centres_hz = fields.List(fields.Float())
+    channel_count = fields.Integer()
+
+
+class SolverReportSchema(StrictSchema):
+    status = fields.String(metadata={"description": "optimal, feasible (the limit ended the search), or "
+                                                    "no plan found in time"})
+    objective = fields.Float(metadata={"description": "The planner's linearised objective of the plan (never below "
+                                                      "the evaluated figure)"})
+    bound = fields.Float(metadata={"description": "Proven lower bound on that objective"})
+    gap = fields.Float(allow_none=True, metadata={"description": "(objective - bound) / objective"})
+    bounds = fields.Dict(keys=fields.String(), values=fields.Float(),
+                         metadata={"description": "Bound from each method (cp_sat, column_generation)"})
+    evaluated_objective = fields.Float(metadata={"description": "The same objective on the evaluated figures"})
+    linearisation_error = fields.Float(metadata={"description": "objective - evaluated_objective (>= 0)"})
+    objective_kind = fields.String()
+    time_s = fields.Float()
+    time_limit_s = fields.Float()
+    method = fields.String()
+    scale_factor = fields.Float(metadata={"description": "Integer scaling of costs in the CP-SAT model"})
+    max_relative_rounding = fields.Float()
+    workers = fields.Integer()
+    deterministic = fields.Boolean()
+    binding = fields.List(fields.String(), metadata={"description": "Requirements the plan presses against"})
+    notes = fields.List(fields.String())
+
+
+class ViolationSchema(StrictSchema):
+    requirement = fields.String()
+    systems = fields.List(fields.String())
+    detail = fields.String()
+
+
+class BaselineSystemSchema(StrictSchema):
+    id = fields.String()
+    channel_count = fields.Integer()
+    collision_probability = fields.Float()
+    residual_loss_probability = fields.Float()
+
+
+class BaselineSchema(StrictSchema):
+    name = fields.String()
+    objective = fields.Float(allow_none=True, metadata={"description": "Evaluated objective"})
+    meets_requirements = fields.Boolean()
+    violations = fields.List(fields.Nested(ViolationSchema))
+    systems = fields.List(fields.Nested(BaselineSystemSchema))
+
+
+class ComparisonSchema(StrictSchema):
+    best_baseline = fields.String(allow_none=True)
+    best_baseline_objective = fields.Float(allow_none=True)
+    plan_objective = fields.Float()
+    ratio = fields.Float(allow_none=True, metadata={"description": "plan / best baseline, evaluated objectives"})
+
+
+class PlanResponseSchema(StrictSchema):
+    cautions = fields.List(fields.String())
+    coordination = fields.String()
+    plan = fields.List(fields.Nested(PlannedSystemSchema))
+    solver = fields.Nested(SolverReportSchema)
+    assessment = fields.Nested(AssessmentResponseSchema)
+    baselines = fields.List(fields.Nested(BaselineSchema))
+    comparison = fields.Nested(ComparisonSchema)
+
+
+class ConflictSchema(StrictSchema):
+    requirement = fields.String()
+    systems = fields.List(fields.String())
+    detail = fields.String()
+    citation = fields.String(allow_none=True)
+    channels = fields.List(fields.List(fields.Integer()), metadata={"description": "Inclusive channel ranges"})
+    relax = fields.String(metadata={"description": "What to relax"})
+
+
+class InfeasibleProblemSchema(ProblemSchema):
+    conflicts = fields.List(fields.Nested(ConflictSchema))
+    proven = fields.Boolean(metadata={"description": "false: none found in time, not proven impossible"})

@@ -1,0 +1,1 @@
+"""The planner: a constraint program that assigns hop sets (see DEVELOPERS.md)."""

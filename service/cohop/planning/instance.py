@@ -1,0 +1,268 @@
+"""A planning instance: everything the planner needs, prepared as arrays.
+
+Built from a PreparedSite (`cohop.prepare`) and PlanRequirements. Nothing is
+left to the model builders: allowed channels (usable, not excluded, inside
+the sub-band the profile allows), pins, channel counts, separations, the
+coefficients of the linearised objective, guards and ceilings.
+
+The linearised objective (documented in DEVELOPERS.md): victim v's per-hop
+collision estimate is
+    c_v = (1 / N_v) sum_{c in A_v} [ q_v(c) + sum_a (beta_va / N_a) h_va(c) ],
+with q_v(c) the combined hit probability of the fixed interferers (exact),
+h_va(c) the number of a's channels within v's harmful window of c, and
+beta_va = alpha_a E[K_va]. Since 1 - E[(1 - p)^K] <= E[K] p and
+1 - prod(1 - x_i) <= sum x_i, c_v never falls below the evaluated figure;
+it equals it when sources do not overlap and at most one burst can overlap.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from cohop.assess import interferer_collisions
+from cohop.prepare import PreparedSite
+from cohop.planning.requirements import Conflict, PlanInfeasible, PlanRequirements
+from cohop.regulatory import check_compliance
+from cohop.regulatory.profiles import EU868_SUBBANDS, SubBand
+from cohop.regulatory.rules import FAIL
+from cohop.stats import retries
+
+#: Rule kinds whose outcome depends on the number of channels (checked on synthetic hop sets).
+COUNT_RULES = {"channels", "power", "eirp", "occupancy", "medium-utilisation"}
+#: Rule kinds that do not depend on the channels chosen at all.
+FIXED_RULES = {"bandwidth"}
+
+
+def _kind(finding) -> str:
+    return finding.rule.id.split(".", 1)[1]
+
+
+@dataclass
+class PlanningInstance:
+    prep: PreparedSite
+    req: PlanRequirements
+    allowed: np.ndarray  # (S, C) bool
+    pinned: np.ndarray  # (S, C) bool
+    min_size: np.ndarray  # (S,) int
+    max_size: np.ndarray  # (S,) int
+    sizes: np.ndarray  # (S,) int, the counts this solve uses
+    separation: np.ndarray  # (S,) int: two channels of a system at least this many grid steps apart
+    interferer_cost: np.ndarray  # (S, C): q_v(c)
+    beta: np.ndarray  # (S, S) [v, a]: alpha_a E[K_va]; 0 where a cannot hurt v
+    window: np.ndarray  # (S, S) [v, a]
+    weights: np.ndarray  # (S,)
+    guards: list[tuple[int, int, int]]  # (v, a, w): no channel of a within w of one of v's (v < a)
+    ceilings: np.ndarray  # (S,) max linearised per-hop collision (inf: none)
+    exclusions: dict[int, list[tuple[str, list[tuple[int, int]]]]] = field(default_factory=dict)  # v -> (why, runs)
+    separation_citation: list[str | None] = field(default_factory=list)
+
+    @property
+    def n_systems(self) -> int:
+        return self.allowed.shape[0]
+
+    @property
+    def n_channels(self) -> int:
+        return self.allowed.shape[1]
+
+    @property
+    def ids(self) -> list[str]:
+        return [s.id for s in self.prep.site.systems]
+
+    def with_sizes(self, sizes) -> "PlanningInstance":
+        out = PlanningInstance(**{k: getattr(self, k) for k in self.__dataclass_fields__})
+        out.sizes = np.asarray(sizes, dtype=int)
+        return out
+
+    # --- coefficients of the linearised objective (depend on the sizes) ---
+
+    def pair_coef(self) -> np.ndarray:
+        """coef[v, a] = beta_va / (N_v N_a): cost to victim v per (v-channel, a-channel) pair in its window."""
+        n = self.sizes.astype(float)
+        return self.beta / (n[:, None] * n[None, :])
+
+    def node_coef(self) -> np.ndarray:
+        """q_v(c) / N_v per (v, c)."""
+        return self.interferer_cost / self.sizes[:, None]
+
+
+# --- construction -----------------------------------------------------------
+
+def _synthetic(prep: PreparedSite, v: int, usable: np.ndarray, n: int, gap: int):
+    chans = usable[0] + gap * np.arange(n)
+    if chans[-1] > usable[-1]:
+        return None
+    return chans
+
+
+def _findings(prep: PreparedSite, v: int, chans: np.ndarray):
+    return check_compliance(prep.profile, prep.site.systems[v], chans, prep.centres_hz[chans], prep.band)
+
+
+def _separation(prep: PreparedSite, v: int, usable: np.ndarray) -> tuple[int, str | None]:
+    """Smallest grid gap that the profile's separation rule accepts."""
+    for gap in range(1, prep.n_channels):
+        chans = _synthetic(prep, v, usable, 2, gap)
+        if chans is None:
+            break
+        bad = [f for f in _findings(prep, v, chans) if _kind(f) == "separation" and f.status == FAIL]
+        if not bad:
+            return gap, None
+        citation = bad[0].rule.citation
+    return prep.n_channels, citation if usable.size > 1 else None
+
+
+def _count_rules(prep: PreparedSite, v: int, usable: np.ndarray, gap: int) -> tuple[int | None, list]:
+    """Smallest channel count at which no count-dependent rule fails (on evenly spaced synthetic
+    hop sets at the minimum separation; the rules are monotone in the count), and any rule
+    that fails whatever the count."""
+    fixed = [f for f in _findings(prep, v, usable[:1]) if _kind(f) in FIXED_RULES and f.status == FAIL]
+    largest = 1 + (usable[-1] - usable[0]) // gap if usable.size else 0
+
+    def fails(n):
+        chans = _synthetic(prep, v, usable, n, gap)
+        return [f for f in _findings(prep, v, chans) if _kind(f) in COUNT_RULES and f.status == FAIL]
+
+    if largest == 0:
+        return None, fixed
+    at_max = fails(largest)
+    if at_max:
+        return None, fixed + at_max
+    lo, hi = 1, largest
+    while lo < hi:
+        mid = (lo + hi) // 2
+        if fails(mid):
+            lo = mid + 1
+        else:
+            hi = mid
+    return lo, fixed
+
+
+def _eu868_allowed(prep: PreparedSite, v: int, usable_mask: np.ndarray) -> tuple[np.ndarray, SubBand | None]:
+    """Channels of the sub-band (whose limits the system meets) with the most usable channels."""
+    s = prep.site.systems[v]
+    erp = s.eirp_dbm - 2.15
+    duty = s.activity_fraction * s.packet_airtime_s / s.dwell_s
+    half = s.bandwidth_hz / 2
+    best, best_mask = None, np.zeros_like(usable_mask)
+    for band in EU868_SUBBANDS:
+        if erp > band.max_erp_dbm + 1e-9 or (band.max_duty_fraction is not None and duty > band.max_duty_fraction):
+            continue
+        mask = usable_mask & (prep.centres_hz - half >= band.low_hz - 1e-6) & (prep.centres_hz + half <= band.high_hz
+                                                                               + 1e-6)
+        if mask.sum() > best_mask.sum():
+            best, best_mask = band, mask
+    return best_mask, best
+
+
+def _collision_ceiling(max_attempt_loss, max_residual_loss, fade_p, hops, retry_limit) -> float:
+    """Per-hop collision ceiling implied by a per-attempt or residual loss ceiling (inf: none; -1: none
+    possible). Inverts residual = loss^(k+1), loss = 1 - (1 - coll_att)(1 - fade_att),
+    coll_att = 1 - (1 - coll)^n (cohop.stats.retries)."""
+    limits = []
+    if max_residual_loss is not None:
+        limits.append(max_residual_loss ** (1.0 / (retry_limit + 1)))
+    if max_attempt_loss is not None:
+        limits.append(max_attempt_loss)
+    if not limits:
+        return math.inf
+    loss = min(limits)
+    fade_att = float(retries.per_attempt(fade_p, hops))
+    if loss <= fade_att:
+        return -1.0  # fading alone exceeds the ceiling
+    coll_att = 1.0 - (1.0 - loss) / (1.0 - fade_att)
+    return 1.0 - (1.0 - coll_att) ** (1.0 / hops)
+
+
+def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstance:
+    site = prep.site
+    s_count, c_count = prep.n_systems, prep.n_channels
+    channels = np.arange(c_count)
+    allowed = prep.usable.copy()
+    pinned = np.zeros_like(allowed)
+    min_size = np.zeros(s_count, dtype=int)
+    max_size = np.zeros(s_count, dtype=int)
+    separation = np.ones(s_count, dtype=int)
+    q = np.zeros((s_count, c_count))
+    ceilings = np.full(s_count, math.inf)
+    exclusions: dict[int, list] = {}
+    sep_cite = []
+    conflicts: list[Conflict] = []
+    for v, system in enumerate(site.systems):
+        r = req.for_system(system.id)
+        x_itf = interferer_collisions(prep, v, channels) if site.interferers else np.zeros((0, c_count))
+        q[v] = 1.0 - np.prod(1.0 - x_itf, axis=0)
+        reasons = []
+        for k, itf in enumerate(site.interferers):
+            hit = (x_itf[k] > req.interferer_threshold) & prep.usable[v]
+            if hit.any():
+                allowed[v] &= ~hit
+                reasons.append((f"interferer {itf.id}", runs(np.flatnonzero(hit))))
+        if r.excluded_channels:
+            ex = np.array(r.excluded_channels, dtype=int)
+            allowed[v, ex] = False
+            reasons.append(("explicit exclusion", runs(ex)))
+        if prep.profile.id == "eu-868":
+            mask, band = _eu868_allowed(prep, v, allowed[v])
+            if band is None:
+                conflicts.append(Conflict("profile sub-band", (system.id,), "no sub-band of the profile admits this "
+                                          "system's e.r.p. and duty cycle", "CEPT ERC Rec 70-03 Annex 1",
+                                          relax="lower the power or the duty cycle"))
+            allowed[v] = mask
+        exclusions[v] = reasons
+        usable = np.flatnonzero(prep.usable[v])
+        gap, cite = _separation(prep, v, usable) if usable.size else (1, None)
+        separation[v] = gap
+        sep_cite.append(cite)
+        need, blockers = _count_rules(prep, v, usable, gap) if usable.size else (None, [])
+        for f in blockers:
+            conflicts.append(Conflict("profile rule", (system.id,), f.message, f.rule.citation,
+                                      relax=f"change the system's parameters to meet {f.rule.title.lower()}"))
+        lo = max(need or 1, r.min_channels or 0, len(r.pinned_channels), 1)
+        hi = r.max_channels if r.max_channels is not None else lo
+        if hi < lo:
+            conflicts.append(Conflict("channel count", (system.id,), f"max_channels {hi} is below the minimum {lo} "
+                                      "(profile, pins and min_channels)", relax="raise max_channels"))
+            hi = lo
+        min_size[v], max_size[v] = lo, hi
+        if r.pinned_channels:
+            pinned[v, np.array(r.pinned_channels, dtype=int)] = True
+        ceilings[v] = _collision_ceiling(r.max_attempt_loss, r.max_residual_loss, prep.fade_probability[v],
+                                         system.hops_per_attempt, system.retry_limit)
+    if conflicts:
+        raise PlanInfeasible(conflicts)
+    beta = np.where(prep.window >= 0, prep.activity[None, :] * (prep.overlap_k0 + prep.overlap_r), 0.0)
+    np.fill_diagonal(beta, 0.0)
+    guards = _guards(prep, req)
+    weights = np.array([s.priority_weight for s in site.systems])
+    return PlanningInstance(prep=prep, req=req, allowed=allowed, pinned=pinned, min_size=min_size, max_size=max_size,
+                            sizes=min_size.copy(), separation=separation, interferer_cost=q, beta=beta,
+                            window=prep.window.copy(), weights=weights, guards=guards, ceilings=ceilings,
+                            exclusions=exclusions, separation_citation=sep_cite)
+
+
+def _guards(prep: PreparedSite, req: PlanRequirements) -> list[tuple[int, int, int]]:
+    if req.guard_excess_db is None:
+        return []
+    out = []
+    for v in range(prep.n_systems):
+        for a in range(v + 1, prep.n_systems):
+            lv, la = prep.links[v][a], prep.links[a][v]
+            if max(lv.excess_db, la.excess_db) >= req.guard_excess_db:
+                w = int(max(prep.window[v, a], prep.window[a, v]))
+                if w >= 0:
+                    out.append((v, a, w))
+    return out
+
+
+def runs(chans) -> list[tuple[int, int]]:
+    """Sorted channel indices as inclusive runs [(lo, hi), ...]."""
+    chans = np.unique(np.asarray(chans, dtype=int))
+    if chans.size == 0:
+        return []
+    breaks = np.flatnonzero(np.diff(chans) > 1)
+    starts = np.concatenate([[0], breaks + 1])
+    ends = np.concatenate([breaks, [chans.size - 1]])
+    return [(int(chans[a]), int(chans[b])) for a, b in zip(starts, ends)]

@@ -1,0 +1,82 @@
+"""What a plan must meet and how to search for it (validated request data)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+#: Default share of hops that fixed interferers may hit on a channel before the
+#: planner excludes that channel for that system.
+DEFAULT_INTERFERER_THRESHOLD = 0.05
+
+OBJECTIVES = ("weighted_sum", "worst_system")
+COORDINATION = ("joint", "independent")
+BASELINES = ("whole_band", "random", "contiguous", "interleaved", "greedy")
+
+
+@dataclass(frozen=True)
+class SystemRequirement:
+    """Requirements on one system's hop set; None means "from the profile" or "none"."""
+
+    system: str
+    min_channels: int | None = None
+    max_channels: int | None = None
+    excluded_channels: tuple[int, ...] = ()
+    pinned_channels: tuple[int, ...] = ()
+    max_attempt_loss: float | None = None
+    max_residual_loss: float | None = None
+
+
+@dataclass(frozen=True)
+class PlanRequirements:
+    systems: tuple[SystemRequirement, ...] = ()
+    interferer_threshold: float = DEFAULT_INTERFERER_THRESHOLD
+    guard_excess_db: float | None = None  # pairs at or above this excess must not meet in their windows
+    coordination: str = "joint"
+    objective: str = "weighted_sum"
+    time_limit_s: float = 10.0
+    seed: int = 0
+    baselines: tuple[str, ...] = ()
+
+    def for_system(self, system_id: str) -> SystemRequirement:
+        for r in self.systems:
+            if r.system == system_id:
+                return r
+        return SystemRequirement(system=system_id)
+
+
+@dataclass(frozen=True)
+class Conflict:
+    """One requirement taking part in an infeasibility, in the user's terms."""
+
+    requirement: str  # e.g. "channel count", "interferer exclusion", "guard"
+    systems: tuple[str, ...]
+    detail: str
+    citation: str | None = None
+    channels: tuple[tuple[int, int], ...] = ()  # inclusive channel ranges involved
+    relax: str = ""
+
+
+class PlanInfeasible(Exception):
+    """No plan can meet the hard requirements; `conflicts` is a small conflicting set."""
+
+    def __init__(self, conflicts: list[Conflict], proven: bool = True):
+        self.conflicts = conflicts
+        self.proven = proven
+        super().__init__("; ".join(c.detail for c in conflicts))
+
+
+@dataclass
+class Progress:
+    """What a progress callback receives while the solver works."""
+
+    elapsed_s: float
+    objective: float | None
+    bound: float | None
+    phase: str = ""
+    extra: dict = field(default_factory=dict)
+
+    @property
+    def gap(self) -> float | None:
+        if self.objective is None or self.bound is None or self.objective <= 0:
+            return None
+        return max(0.0, (self.objective - self.bound) / self.objective)

@@ -1,0 +1,24 @@
+"""The planning use case: prepare the site, plan, and turn an unmet requirement into an error."""
+
+from __future__ import annotations
+
+from typing import Callable
+
+from cohop.errors import SiteError
+from cohop.planning.requirements import Conflict, PlanInfeasible, PlanRequirements, Progress
+from cohop.planning.solve import NO_PLAN, PlanResult, SolveSettings, plan_site
+from cohop.prepare import prepare_site
+from cohop.site import Site
+
+
+def run_plan(site: Site, requirements: PlanRequirements, settings: SolveSettings,
+             progress: Callable[[Progress], None] | None = None, detail: str = "channel") -> PlanResult:
+    try:
+        prep = prepare_site(site)
+    except SiteError as err:
+        raise err.under("/site") from None
+    result = plan_site(prep, requirements, settings, progress, detail)
+    if result.report.status == NO_PLAN:
+        raise PlanInfeasible([Conflict(v.requirement, v.systems, v.detail, relax="raise the time limit or relax "
+                                       "this requirement") for v in result.violations], proven=False)
+    return result
