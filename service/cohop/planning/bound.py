@@ -139,7 +139,7 @@ class _Pricing:
     pricing, or on the root bound if the node limit is reached).
     """
 
-    ENUMERATE = 16
+    ENUMERATE = 14
     NODE_LIMIT = 200_000
 
     def __init__(self, inst: PlanningInstance, costs: _Costs, classes: _Classes, key: tuple):
@@ -181,6 +181,7 @@ class _Pricing:
                     pairs.append((k1, k2, to_v, to_a))
         self.pairs = np.array(pairs, dtype=float).reshape(-1, 4)
         self._grid = None
+        self.work = 0  # elementary operations spent, a deterministic stand-in for time
 
     def consistency_terms(self, rho: dict) -> np.ndarray:
         """Linear adjustment from the duals rho[(type, v, i)] of the rows saying that channels of a type
@@ -220,6 +221,7 @@ class _Pricing:
 
     def _enumerate(self, b, q, keep: int) -> list[tuple[float, np.ndarray]]:
         y, _ = self._all_patterns()
+        self.work += y.size * (y.shape[1] + 2)
         values = y @ b + 0.5 * ((y @ q) * y).sum(axis=1)
         keep = min(keep, values.size)
         best = np.argpartition(values, keep - 1)[:keep]
@@ -236,6 +238,7 @@ class _Pricing:
                     continue
                 y[seed] = 1.0
             while True:  # best single flip that keeps the hard pairs apart
+                self.work += 4 * y.size * y.size
                 gain_add = b + q @ y
                 gain_del = -(b + q @ y)
                 blocked = (self.forbidden.astype(float) @ y) > 0
@@ -269,6 +272,7 @@ class _Pricing:
         def visit(i: int, val: float, m: np.ndarray, blocked: np.ndarray) -> None:
             nonlocal best_val, best_y, nodes
             nodes += 1
+            self.work += 4 * (cand.size - i) + 2 * m.size
             if nodes > node_limit:
                 return
             rest = cand[i:]
@@ -323,11 +327,18 @@ def window_length(inst: PlanningInstance, max_booleans: int = 40, cap: int = 3) 
     return max(1, length)
 
 
+#: Pricing operations per second on our 2-core machines (measured on the benchmark sites), to turn a
+#: time budget into a deterministic work budget.
+WORK_PER_SECOND = 3e7
+
+
 def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = None, iterations: int = 40,
-                pricing_work_s: float = 0.5, deadline=None) -> BoundResult:
+                seconds: float | None = None, deadline=None) -> BoundResult:
     """Column generation from the patterns of a feasible plan `start`.
 
-    `deadline()`, if given, returns True when the caller wants the loop to stop.
+    It stops at convergence, after `iterations`, or when its pricing work exceeds `seconds` worth of
+    WORK_PER_SECOND (a count, so runs repeat exactly); a last exact pricing then gives a valid bound.
+    `deadline()`, a wall-clock safety cap, can stop it too (then runs may differ).
     """
     length = length or window_length(inst)
     classes = _Classes(inst, length)
@@ -406,14 +417,20 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
             found += [(key, p) for rc, p in patterns if rc < -1e-12 * max(1.0, abs(value))]
         return found, lagrange
 
+    budget = math.inf if seconds is None else seconds * WORK_PER_SECOND
+
+    def spent() -> float:
+        return float(sum(p.work for p in pricers.values()))
+
     for it in range(1, iterations + 1):
         if lp.Solve() != pywraplp.Solver.OPTIMAL:
             break
         value = objective.Value() + (0.0 if worst else float(inst.weights @ constant))
+        last = it == iterations or spent() > budget or (deadline is not None and deadline())
         found, lagrange = price(exact=False)
         if not found:  # the heuristic found nothing: price exactly, which also bounds
             found, lagrange = price(exact=True)
-        elif it % 10 == 0 or it == iterations or (deadline is not None and deadline()):
+        elif it % 10 == 0 or last:
             _, lagrange = price(exact=True)
         if math.isfinite(lagrange):
             best = max(best, lagrange)
@@ -422,7 +439,7 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
             best = max(best, min(value, lagrange))
             break
         added = sum(add_column(key, pattern) for key, pattern in found)
-        if added == 0 or (deadline is not None and deadline()):
+        if added == 0 or last:
             break
     return BoundResult(bound=max(best, 0.0), lp_value=value, window=length, iterations=it, columns=len(seen),
                        converged=converged)
