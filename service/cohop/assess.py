@@ -87,10 +87,11 @@ class Assessment:
     notes: tuple[str, ...] = field(default_factory=tuple)
 
 
-def resolve_hop_sets(prep: PreparedSite, given: list | None = None) -> tuple[list[np.ndarray], list[str]]:
+def resolve_hop_sets(prep: PreparedSite, given: list | None = None,
+                     given_origin: str = "request") -> tuple[list[np.ndarray], list[str]]:
     """Each system's hop set as a sorted array: the request's, or the whole band.
 
-    `given` overrides the hop sets in the site (a planner passes its own).
+    `given` overrides the hop sets in the site (a planner passes its own, labelled `given_origin`).
     """
     out, origin = [], []
     for v, s in enumerate(prep.site.systems):
@@ -102,7 +103,7 @@ def resolve_hop_sets(prep: PreparedSite, given: list | None = None) -> tuple[lis
                                   f"no channel of the grid fits {s.id!r}'s bandwidth inside the band")])
             origin.append("whole band")
         else:
-            origin.append("request")
+            origin.append(given_origin if given is not None else "request")
         out.append(np.unique(np.asarray(hs, dtype=int)))
     return out, origin
 
@@ -219,11 +220,12 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
         compliance=tuple(findings), noise_floor_dbm=noise)
 
 
-def assess_site(prep: PreparedSite, hop_sets: list | None = None, detail: str = "channel") -> Assessment:
-    """Evaluate every system; `hop_sets` overrides the site's (None: use the site's)."""
+def assess_site(prep: PreparedSite, hop_sets: list | None = None, detail: str = "channel",
+                origin: str = "request") -> Assessment:
+    """Evaluate every system; `hop_sets` overrides the site's (None: use the site's), labelled `origin`."""
     if detail not in DETAIL_LEVELS:
         raise ValueError(f"detail must be one of {DETAIL_LEVELS}")
-    sets, origin = resolve_hop_sets(prep, hop_sets)
+    sets, origin = resolve_hop_sets(prep, hop_sets, origin)
     prefix = channel_prefix_counts(prep, sets)
     sizes = np.array([s.size for s in sets])
     figures = tuple(assess_system(prep, v, sets, origin[v], prefix, sizes, detail) for v in range(prep.n_systems))

@@ -76,10 +76,12 @@ def simulation_dict(sim: SiteSimulation, assessment: Assessment) -> dict:
     return {"seed": sim.seed, "trials_per_system": sim.trials_per_system, "confidence": 0.95, "systems": systems}
 
 
-def assessment_dict(assessment: Assessment, simulation: SiteSimulation | None = None) -> dict:
+def assessment_dict(assessment: Assessment, simulation: SiteSimulation | None = None,
+                    coordination_caution: bool | None = None) -> dict:
     prep = assessment.prepared
+    caution = prep.profile.coordination_caution if coordination_caution is None else coordination_caution
     return {
-        "cautions": cautions_for(prep.profile.coordination_caution),
+        "cautions": cautions_for(caution),
         "profile": {"id": prep.profile.id, "name": prep.profile.name},
         "band": {"low_hz": prep.band.low_hz, "high_hz": prep.band.high_hz},
         "assumptions": list(MODEL_ASSUMPTIONS),
@@ -122,11 +124,11 @@ def plan_dict(result, detail: str = "channel") -> dict:
     plan = [{"id": s.id, "hop_set": [int(c) for c in hs], "centres_hz": [float(prep.centres_hz[c]) for c in hs],
              "channel_count": int(hs.size)} for s, hs in zip(prep.site.systems, result.hop_sets)]
     solver = {"status": r.status, "objective": r.objective, "bound": r.bound, "gap": r.gap, "bounds": r.bounds,
-              "evaluated_objective": r.evaluated_objective, "linearisation_error": r.objective - r.evaluated_objective,
+              "evaluated_objective": r.evaluated_objective, "linearisation_error": r.linearisation_error,
               "objective_kind": inst.req.objective, "time_s": r.time_s, "time_limit_s": r.time_limit_s,
               "method": r.method, "scale_factor": r.scale_factor, "max_relative_rounding": r.rounding,
               "workers": r.workers, "deterministic": r.deterministic, "binding": r.binding, "notes": r.notes}
     caution = prep.profile.coordination_caution and coordination == "joint"
     return {"cautions": cautions_for(caution), "coordination": coordination, "plan": plan, "solver": solver,
-            "assessment": assessment_dict(result.assessment), "baselines": [_baseline(b) for b in result.baselines],
+            "assessment": assessment_dict(result.assessment, coordination_caution=caution), "baselines": [_baseline(b) for b in result.baselines],
             "comparison": _comparison(result)}

@@ -228,7 +228,9 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
             hi = lo
         min_size[v], max_size[v] = lo, hi
         if r.pinned_channels:
-            pinned[v, np.array(r.pinned_channels, dtype=int)] = True
+            pins = np.array(r.pinned_channels, dtype=int)
+            pinned[v, pins] = True
+            allowed[v, pins] |= prep.usable[v, pins]  # a pin overrides an interferer exclusion
         ceilings[v] = _collision_ceiling(r.max_attempt_loss, r.max_residual_loss, prep.fade_probability[v],
                                          system.hops_per_attempt, system.retry_limit)
     if conflicts:

@@ -85,7 +85,7 @@ class Exclusions:
                 lit = enforce("exclusion", (v, why, tuple(runs)))
                 for lo, hi in runs:
                     for c in range(lo, hi + 1):
-                        if (v, c) in mv.x:
+                        if (v, c) in mv.x and not inst.pinned[v, c]:  # a pin overrides an interferer exclusion
                             ct = m.add(mv.x[v, c] == 0)
                             if lit is not None:
                                 ct.only_enforce_if(lit)

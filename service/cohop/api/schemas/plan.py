@@ -132,13 +132,15 @@ class SolverReportSchema(StrictSchema):
     status = fields.String(metadata={"description": "optimal, feasible (the limit ended the search), or "
                                                     "no plan found in time"})
     objective = fields.Float(metadata={"description": "The planner's linearised objective of the plan (never below "
-                                                      "the evaluated figure)"})
+                                                      "the evaluated figure; with independent coordination, each "
+                                                      "system's own interferer exposure)"})
     bound = fields.Float(metadata={"description": "Proven lower bound on that objective"})
     gap = fields.Float(allow_none=True, metadata={"description": "(objective - bound) / objective"})
     bounds = fields.Dict(keys=fields.String(), values=fields.Float(),
                          metadata={"description": "Bound from each method (cp_sat, column_generation)"})
     evaluated_objective = fields.Float(metadata={"description": "The same objective on the evaluated figures"})
-    linearisation_error = fields.Float(metadata={"description": "objective - evaluated_objective (>= 0)"})
+    linearisation_error = fields.Float(metadata={"description": "The linearised estimate of the request's "
+                                                                "objective minus evaluated_objective (>= 0)"})
     objective_kind = fields.String()
     time_s = fields.Float()
     time_limit_s = fields.Float()
