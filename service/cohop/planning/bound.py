@@ -329,7 +329,7 @@ def window_length(inst: PlanningInstance, max_booleans: int = 40, cap: int = 3) 
 
 #: Pricing operations per second on our 2-core machines (measured on the benchmark sites), to turn a
 #: time budget into a deterministic work budget.
-WORK_PER_SECOND = 3e7
+WORK_PER_SECOND = 5e7
 
 
 def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = None, iterations: int = 40,

@@ -282,7 +282,7 @@ def _search(inst: PlanningInstance, settings: SolveSettings, limit: float, clock
     if x is None:
         raise PlanInfeasible(diagnose(inst)[0] or [], proven=False)
     if not _proven(_value(inst, x), max(bounds.values())):
-        cg = bound.lower_bound(inst, x, length=bound.window_length(inst), iterations=400, seconds=0.25 * limit,
+        cg = bound.lower_bound(inst, x, length=bound.window_length(inst), iterations=400, seconds=0.3 * limit,
                                deadline=stop)
         bounds["column_generation"] = max(cg.bound, bounds.get("column_generation", 0.0))
         clock.tell("column generation", bound=cg.bound)
