@@ -147,6 +147,13 @@ class Plan:
     cautions: tuple[str, ...]
     raw: dict = field(repr=False)
 
+    def sequence(self, system_id: str) -> tuple[int, ...]:
+        """The hop order (grid channel indices, one period) planned for a system."""
+        for s in (self.raw.get("sequences") or {}).get("systems", []):
+            if s["id"] == system_id:
+                return tuple(s["channels"])
+        raise KeyError(system_id)
+
     @classmethod
     def from_json(cls, body: dict) -> "Plan":
         return cls(systems=tuple(PlannedSystem(p["id"], tuple(p["hop_set"]), tuple(p["centres_hz"]))

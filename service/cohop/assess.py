@@ -188,11 +188,23 @@ def _source_figures(prep: PreparedSite, v: int, x_sys: np.ndarray, x_itf: np.nda
     return tuple(out)
 
 
+def _aligned_exact(prep: PreparedSite, v: int, channels: np.ndarray, x_sys: np.ndarray, sequences) -> None:
+    """Replace the uniform figure of slot-aligned sources by the exact one when both sequences are known."""
+    from cohop.sequences.analysis import aligned_channel_hits
+
+    if sequences is None or sequences[v] is None:
+        return
+    for a, link in enumerate(prep.links[v]):
+        if link is not None and link.aligned and sequences[a] is not None and prep.window[v, a] >= 0:
+            x_sys[a] = aligned_channel_hits(prep, v, a, np.asarray(sequences[v]), np.asarray(sequences[a]), channels)
+
+
 def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin: str, prefix: np.ndarray,
-                  sizes: np.ndarray, detail: str = "channel") -> SystemFigures:
+                  sizes: np.ndarray, detail: str = "channel", sequences=None) -> SystemFigures:
     system = prep.site.systems[v]
     channels = hop_sets[v]
     x_sys = system_collisions(prep, v, channels, prefix, sizes)
+    _aligned_exact(prep, v, channels, x_sys, sequences)
     x_itf = interferer_collisions(prep, v, channels)
     x = np.vstack([np.delete(x_sys, v, axis=0), x_itf])
     total = 1.0 - np.prod(1.0 - x, axis=0)  # combine independent sources (cohop.stats.retries)
@@ -204,7 +216,8 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
     attempt_fade = float(retries.per_attempt(fade, n))
     attempt_loss = float(retries.combine_independent(attempt_collision, attempt_fade))
     ids = [s.id for a, s in enumerate(prep.site.systems) if a != v] + [i.id for i in prep.site.interferers]
-    findings = check_compliance(prep.profile, system, channels, prep.centres_hz[channels], prep.band)
+    findings = check_compliance(prep.profile, system, channels, prep.centres_hz[channels], prep.band,
+                                None if sequences is None else sequences[v])
     noise = None
     if system.noise_figure_db is not None:
         noise = noise_floor_dbm(system.bandwidth_hz, system.noise_figure_db)
@@ -220,15 +233,27 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
         compliance=tuple(findings), noise_floor_dbm=noise)
 
 
+def site_sequences(prep: PreparedSite) -> list | None:
+    """The sequences the request gives (None for a system without one), or None if it gives none."""
+    seqs = [None if s.sequence is None else np.asarray(s.sequence) for s in prep.site.systems]
+    return seqs if any(q is not None for q in seqs) else None
+
+
 def assess_site(prep: PreparedSite, hop_sets: list | None = None, detail: str = "channel",
-                origin: str = "request") -> Assessment:
-    """Evaluate every system; `hop_sets` overrides the site's (None: use the site's), labelled `origin`."""
+                origin: str = "request", sequences: list | None = None) -> Assessment:
+    """Evaluate every system; `hop_sets` overrides the site's (None: use the site's), labelled `origin`.
+
+    `sequences` (one hop order per system, or None) make slot-aligned figures exact and let the profile
+    checks see the order; by default the request's own sequences are used when hop sets are too."""
     if detail not in DETAIL_LEVELS:
         raise ValueError(f"detail must be one of {DETAIL_LEVELS}")
     sets, origin = resolve_hop_sets(prep, hop_sets, origin)
+    if sequences is None and hop_sets is None:
+        sequences = site_sequences(prep)
     prefix = channel_prefix_counts(prep, sets)
     sizes = np.array([s.size for s in sets])
-    figures = tuple(assess_system(prep, v, sets, origin[v], prefix, sizes, detail) for v in range(prep.n_systems))
+    figures = tuple(assess_system(prep, v, sets, origin[v], prefix, sizes, detail, sequences)
+                    for v in range(prep.n_systems))
     weights = np.array([s.priority_weight for s in prep.site.systems])
     rates = np.array([f.collision_probability for f in figures])
     worst = int(np.argmax(rates))

@@ -9,6 +9,7 @@ from cohop.assess import Assessment, assess_site, resolve_hop_sets
 from cohop.errors import SiteError
 from cohop.montecarlo import SiteSimulation, simulate_site
 from cohop.prepare import prepare_site
+from cohop.sequences.report import DEFAULT_PACKETS, given_sequences
 from cohop.site import Site
 
 
@@ -40,7 +41,8 @@ def _check_caps(req: AssessmentRequest, hop_sets, max_simulated_attempts: int) -
                                          f"cap of {limits.MAX_SOURCE_DETAIL_ENTRIES}; ask for detail 'channel'")])
 
 
-def run_assessment(req: AssessmentRequest, max_simulated_attempts: int) -> tuple[Assessment, SiteSimulation | None]:
+def run_assessment(req: AssessmentRequest, max_simulated_attempts: int):
+    """(assessment, simulation or None, sequence outcome or None)."""
     try:
         prep = prepare_site(req.site)
         hop_sets, _ = resolve_hop_sets(prep)
@@ -51,4 +53,6 @@ def run_assessment(req: AssessmentRequest, max_simulated_attempts: int) -> tuple
     simulation = None
     if req.simulation is not None:
         simulation = simulate_site(prep, req.simulation.trials_per_system, req.simulation.seed)
-    return assessment, simulation
+    seed = req.simulation.seed if req.simulation is not None else 0
+    sequences = given_sequences(prep, DEFAULT_PACKETS, seed)
+    return assessment, simulation, sequences

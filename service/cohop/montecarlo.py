@@ -54,7 +54,9 @@ class SimulatedRate:
         denom = 1 + z * z / n
         centre = (p + z * z / (2 * n)) / denom
         half = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / denom
-        return max(0.0, centre - half), min(1.0, centre + half)
+        lo = 0.0 if self.hits == 0 else max(0.0, centre - half)  # exact ends: no float dust
+        hi = 1.0 if self.hits == n else min(1.0, centre + half)
+        return lo, hi
 
 
 @dataclass(frozen=True)

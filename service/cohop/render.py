@@ -57,6 +57,7 @@ def plan_table(result: Plan) -> str:
     out += ["", "hop sets:"]
     out += [textwrap.fill(f"{p.id}: {_ranges(p.hop_set)}", 100, initial_indent="  ", subsequent_indent="      ")
             for p in result.systems]
+    out += _sequence_lines(result.raw.get("sequences"))
     if result.baselines:
         out += ["", "against what a practitioner might do (evaluated objective; lower is better):"]
         for b in sorted(result.baselines, key=lambda b: (b.objective is None, b.objective or 0.0)):
@@ -69,6 +70,25 @@ def plan_table(result: Plan) -> str:
         out += ["", "binding requirements: " + "; ".join(r.binding)]
     out += ["", "notes:"] + [f"  - {n}" for n in r.notes]
     return "\n".join(out + _cautions(result.cautions))
+
+
+def _sequence_lines(seqs: dict | None) -> list[str]:
+    if not seqs:
+        return []
+    out = ["", f"hop sequences (delay spread {seqs['delay_spread_s'] * 1e9:.0f} ns; residual loss after retries: "
+               "simulated with these orders / independent attempts / same channels in ascending order):"]
+    for s in seqs["systems"]:
+        r = s["retries"]
+        sp = s["spacing"]
+        out.append(f"  {s['id']}: {s['construction']}, {s['period_hops']} hops = {s['period_s']:.2f} s; closest step "
+                   f"{sp['min_channels']} ch (want {sp['required_channels']}), fading corr <= "
+                   f"{sp['fading_correlation_max']:.2f}; {_pct(r['residual_loss_probability'])} / "
+                   f"{_pct(r['independent_residual_probability'])} / "
+                   f"{_pct(r['ascending_order']['residual_loss_probability'])}")
+    if seqs["alignment"]["depends_on_alignment"]:
+        out.append("  note: " + seqs["alignment"]["note"])
+    out += [f"  note: {n}" for n in seqs["notes"]]
+    return out
 
 
 def _ranges(chans) -> str:

@@ -77,6 +77,7 @@ class System:
     position: Position | None = None
     time_base_group: str | None = None
     hop_set: tuple[int, ...] | None = None
+    sequence: tuple[int, ...] | None = None  # hop order over the hop set (one period), if known
 
     @property
     def eirp_dbm(self) -> float:
@@ -162,6 +163,7 @@ class Site:
     coupling: Coupling = field(default_factory=Coupling)
     interferers: tuple[Interferer, ...] = ()
     name: str = ""
+    rms_delay_spread_s: float | None = None  # multipath delay spread; None: the industrial default
 
     def system_index(self) -> dict[str, int]:
         return {s.id: i for i, s in enumerate(self.systems)}

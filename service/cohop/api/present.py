@@ -77,7 +77,7 @@ def simulation_dict(sim: SiteSimulation, assessment: Assessment) -> dict:
 
 
 def assessment_dict(assessment: Assessment, simulation: SiteSimulation | None = None,
-                    coordination_caution: bool | None = None) -> dict:
+                    coordination_caution: bool | None = None, sequences=None) -> dict:
     prep = assessment.prepared
     caution = prep.profile.coordination_caution if coordination_caution is None else coordination_caution
     return {
@@ -91,6 +91,7 @@ def assessment_dict(assessment: Assessment, simulation: SiteSimulation | None = 
                     "worst_system": assessment.worst_system},
         "systems": [_system(f, assessment) for f in assessment.systems],
         "simulation": simulation_dict(simulation, assessment) if simulation is not None else None,
+        "sequences": sequences_dict(sequences, assessment) if sequences is not None else None,
     }
 
 
@@ -128,7 +129,65 @@ def plan_dict(result, detail: str = "channel") -> dict:
               "objective_kind": inst.req.objective, "time_s": r.time_s, "time_limit_s": r.time_limit_s,
               "method": r.method, "scale_factor": r.scale_factor, "max_relative_rounding": r.rounding,
               "workers": r.workers, "deterministic": r.deterministic, "binding": r.binding, "notes": r.notes}
-    caution = prep.profile.coordination_caution and coordination == "joint"
+    caution = prep.profile.coordination_caution and (coordination == "joint" or (
+        result.sequences is not None and result.sequences.depends_on_alignment))
+    seqs = sequences_dict(result.sequences, result.assessment) if result.sequences is not None else None
     return {"cautions": cautions_for(caution), "coordination": coordination, "plan": plan, "solver": solver,
+            "sequences": seqs,
             "assessment": assessment_dict(result.assessment, coordination_caution=caution), "baselines": [_baseline(b) for b in result.baselines],
             "comparison": _comparison(result)}
+
+
+def _retry(r) -> dict:
+    lo, hi = r.residual_interval
+    return {"packets": r.packets, "attempt_loss_probability": r.attempt_loss, "residual_loss_probability": r.residual_loss,
+            "residual_interval": [lo, hi], "independent_residual_probability": r.independent_residual}
+
+
+def sequences_dict(outcome, assessment: Assessment) -> dict:
+    """Hop orders, what they do, and the sequence-driven retry figures."""
+    from cohop.sequences.theory import coherence_bandwidth_hz
+
+    prep = assessment.prepared
+    rep = outcome.report
+    ids = [s.id for s in prep.site.systems]
+    required_hz = coherence_bandwidth_hz(outcome.delay_spread_s)
+    systems = []
+    for seq, order, retry, poor, fig in zip(rep.sequences, rep.orders, outcome.retries, outcome.poor_order,
+                                            assessment.systems):
+        entry = {
+            "id": ids[seq.system], "construction": seq.construction, "group": seq.group,
+            "family": None if seq.prime is None else {"component": seq.component, "prime": seq.prime,
+                                                      "member": seq.member},
+            "channels": [int(c) for c in seq.channels],
+            "centres_hz": [float(prep.centres_hz[c]) for c in seq.channels],
+            "period_hops": order.period_hops, "dwell_s": prep.site.systems[seq.system].dwell_s,
+            "period_s": order.period_s, "uses": {"min": order.uses_min, "max": order.uses_max},
+            "spacing": {"min_channels": order.min_spacing_channels, "min_hz": order.min_spacing_hz,
+                        "required_channels": order.required_spacing_channels, "required_hz": required_hz,
+                        "fading_correlation_max": order.fading_correlation_max,
+                        "fading_correlation_mean": order.fading_correlation_mean},
+            "order": {"reversal_share": order.reversal_share, "distinct_steps": order.distinct_steps,
+                      "looks_random": order.looks_random},
+            "retries": {**_retry(retry), "analytic_residual_probability": fig.residual_loss_probability,
+                        "ascending_order": _retry(poor)},
+        }
+        systems.append(entry)
+    pairs = [{"victim": ids[p.a], "source": ids[p.b], "shared_channels": p.shared_channels,
+              "coincidences_max": p.coincidences_max, "common_period_hops": p.common_period_hops,
+              "longest_run_hops": p.longest_run, "aligned": p.aligned, "aligned_hit_rate": p.aligned_hit_rate,
+              "unaligned_hit_rate": p.unaligned_hit_rate} for p in rep.pairs]
+    families = []
+    for comp, fam in rep.family_bounds.items():
+        members = {s.system for s in rep.sequences if s.component == comp}
+        measured = [p.coincidences_max for p in rep.pairs if p.a in members and p.b in members
+                    and p.coincidences_max is not None]
+        families.append({"component": comp, "prime": fam["prime"], "members": fam["members"],
+                         "peng_fan_bound": fam["peng_fan_bound"],
+                         "measured_max_coincidences": max(measured) if measured else None})
+    groups = sorted({s.group for s in rep.sequences if s.group})
+    note = ("figures of slot-aligned systems depend on keeping alignment: see unaligned_hit_rate for what "
+            "the same sequences give when it is lost" if outcome.depends_on_alignment else "")
+    return {"delay_spread_s": outcome.delay_spread_s, "systems": systems, "pairs": pairs, "families": families,
+            "alignment": {"depends_on_alignment": outcome.depends_on_alignment, "groups": groups, "note": note},
+            "notes": list(rep.notes)}

@@ -237,12 +237,35 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
         raise PlanInfeasible(conflicts)
     beta = np.where(prep.window >= 0, prep.activity[None, :] * (prep.overlap_k0 + prep.overlap_r), 0.0)
     np.fill_diagonal(beta, 0.0)
+    _orthogonal_groups(site, beta, min_size, max_size)
     guards = _guards(prep, req)
     weights = np.array([s.priority_weight for s in site.systems])
     return PlanningInstance(prep=prep, req=req, allowed=allowed, pinned=pinned, min_size=min_size, max_size=max_size,
                             sizes=min_size.copy(), separation=separation, interferer_cost=q, beta=beta,
                             window=prep.window.copy(), weights=weights, guards=guards, ceilings=ceilings,
                             exclusions=exclusions, separation_citation=sep_cite)
+
+
+def _orthogonal_groups(site, beta: np.ndarray, min_size: np.ndarray, max_size: np.ndarray) -> None:
+    """Members of a slot-aligned time-base group will get orthogonal sequences (`cohop.sequences`):
+    they never share a channel in a slot, so their mutual co-channel cost is taken as zero, and they
+    need one channel count (the largest of their minimums). Adjacent-window harm between them is not
+    modelled here; the evaluation of the sequences shows what remains."""
+    groups: dict[str, list[int]] = {}
+    for v, s in enumerate(site.systems):
+        if s.time_base_group is not None:
+            groups.setdefault(s.time_base_group, []).append(v)
+    for members in groups.values():
+        if len(members) < 2:
+            continue
+        common = int(max(min_size[members]))
+        if common > min(max_size[members]):
+            continue  # no common count: planned as ordinary aligned systems
+        min_size[members] = common
+        max_size[members] = common
+        for v in members:
+            for a in members:
+                beta[v, a] = 0.0
 
 
 def _guards(prep: PreparedSite, req: PlanRequirements) -> list[tuple[int, int, int]]:

@@ -23,6 +23,7 @@ from cohop.planning.linear import hop_sets_of, marginal_costs, objective_value, 
 from cohop.planning.requirements import PlanInfeasible, PlanRequirements, Progress
 from cohop.planning.validate import Violation, validate_plan
 from cohop.prepare import PreparedSite
+from cohop.sequences.report import SequenceOutcome, plan_sequences
 
 OPTIMAL, FEASIBLE, INFEASIBLE, NO_PLAN = "optimal", "feasible", "infeasible", "no plan found in time"
 #: Relative gap under which a plan is called optimal: the integer scaling of costs in CP-SAT leaves a
@@ -77,6 +78,7 @@ class PlanResult:
     report: SolverReport
     baselines: list[BaselineResult]
     violations: list[Violation]
+    sequences: SequenceOutcome | None = None
 
 
 def evaluated_objective(inst: PlanningInstance, assessment: Assessment) -> float:
@@ -310,7 +312,8 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
     best_bound = min(max(bounds.values()), objective)
     gap = 0.0 if objective <= 0 else max(0.0, (objective - best_bound) / objective)
     hop_sets = hop_sets_of(x)
-    assessment = _evaluate(prep, hop_sets, detail, "plan")
+    sequences = plan_sequences(prep, hop_sets, req.seed, req.sequence_packets)
+    assessment = assess_site(prep, hop_sets=hop_sets, detail=detail, origin="plan", sequences=sequences.orders)
     violations = validate_plan(full, hop_sets, assessment)
     status = NO_PLAN if violations else OPTIMAL if gap <= OPTIMAL_GAP else FEASIBLE
     evaluated = evaluated_objective(full, assessment)
@@ -324,4 +327,4 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
                           rounding=scale.max_relative_rounding, workers=settings.num_workers,
                           deterministic=settings.deterministic, binding=_binding(inst, x, estimates), notes=notes)
     return PlanResult(instance=inst, hop_sets=hop_sets, assessment=assessment, report=report,
-                      baselines=_baselines(full), violations=violations)
+                      baselines=_baselines(full), violations=violations, sequences=sequences)

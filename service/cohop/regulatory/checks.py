@@ -10,7 +10,10 @@ from __future__ import annotations
 import math
 from typing import Callable
 
+import numpy as np
+
 from cohop.regulatory.rules import FAIL, PASS, WARNING, Finding, HopContext, Rule, RuleCheck
+from cohop.sequences.theory import max_visits_in_window, order_statistics
 
 #: Float noise allowance when comparing measured values with limits.
 _EPS = 1e-9
@@ -75,23 +78,31 @@ def min_separation(rule: Rule, required_hz: Callable[[HopContext], float]) -> Ru
 
 
 def occupancy(rule: Rule, limit_s: float, window_s: Callable[[HopContext], float]) -> RuleCheck:
-    """Time on any one channel within a window, assuming each channel is visited
-    once per period of N dwells and a packet is sent on every visit (worst
-    case of our traffic model). Fails when the average occupancy exceeds the
-    limit or when a single visit alone does; warns when a window placed to
-    catch one more visit than average would exceed the limit.
+    """Time on any one channel within a window, with a packet sent on every visit (worst case of our
+    traffic model). Visits come from the hop sequence when it is known; without one each channel is
+    taken as visited once per period of N dwells. Fails when the average occupancy of the busiest
+    channel exceeds the limit or a single visit alone does; warns when a window placed to catch the
+    most visits would exceed it.
     """
 
     def check(ctx: HopContext) -> Finding:
         s = ctx.system
         window = window_s(ctx)
-        period = ctx.count * s.dwell_s
-        visits_avg = window / period
-        visits_max = math.ceil(visits_avg * (1 - _EPS))
-        avg = s.packet_airtime_s * visits_avg
+        if ctx.sequence is not None:
+            seq = ctx.sequence
+            period = seq.size * s.dwell_s
+            per_period = max(int(np.count_nonzero(seq == c)) for c in np.unique(seq))
+            visits_max = max(max_visits_in_window(seq, int(c), window / s.dwell_s) for c in np.unique(seq))
+            source = "on the hop sequence"
+        else:
+            period = ctx.count * s.dwell_s
+            per_period = 1
+            visits_max = math.ceil(window / period * (1 - _EPS))
+            source = "assuming one visit per channel per period"
+        avg = s.packet_airtime_s * per_period * window / period
         worst = s.packet_airtime_s * visits_max
-        base = (f"{avg * 1e3:.1f} ms average on any channel within {window:.3f} s "
-                f"(limit {limit_s * 1e3:.1f} ms; period {period:.3f} s)")
+        base = (f"{avg * 1e3:.1f} ms average on the busiest channel within {window:.3f} s "
+                f"(limit {limit_s * 1e3:.1f} ms; period {period:.3f} s; {source})")
         if avg > limit_s * (1 + _EPS):
             return _finding(rule, False, base, measured=avg, limit=limit_s, unit="s")
         if s.packet_airtime_s > limit_s * (1 + _EPS):
@@ -151,12 +162,21 @@ def medium_utilisation(rule: Rule, limit_fraction: float) -> RuleCheck:
 
 
 def sequence_order(rule: Rule) -> RuleCheck:
-    """Needs the hopping sequence; a hop set alone cannot show it."""
+    """Equal use and a pseudo-random order, on the hop sequence when one is known."""
 
     def check(ctx: HopContext) -> Finding:
-        return Finding(rule=rule, status=WARNING,
-                       message="not checked: order and equal use need the hopping sequence, "
-                               "which this request does not carry")
+        if ctx.sequence is None:
+            return Finding(rule=rule, status=WARNING,
+                           message="not checked: order and equal use need the hopping sequence, "
+                                   "which this request does not carry")
+        seq = ctx.sequence
+        counts = [int(np.count_nonzero(seq == c)) for c in ctx.channels]
+        reversals, distinct, random_like = order_statistics(seq)
+        equal = min(counts) == max(counts)
+        msg = (f"each channel used {min(counts)}-{max(counts)} times per period of {seq.size} hops; "
+               f"{reversals * 100:.0f} % direction reversals, {distinct} distinct step sizes (our screening: "
+               "20-95 % reversals and a fifth of the steps distinct)")
+        return _finding(rule, equal and random_like, msg)
 
     return RuleCheck(rule, check)
 

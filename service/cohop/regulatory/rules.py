@@ -46,6 +46,7 @@ class HopContext:
     channels: np.ndarray  # sorted grid indices
     centres_hz: np.ndarray  # their centre frequencies, ascending
     band: Band
+    sequence: np.ndarray | None = None  # the hop order (grid indices), if known
 
     @property
     def count(self) -> int:

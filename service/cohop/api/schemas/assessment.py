@@ -5,6 +5,7 @@ from __future__ import annotations
 from marshmallow import fields, post_load, validate
 
 from cohop.api.schemas.fields import Count, Text
+from cohop.api.schemas.sequences import SequencesSchema
 from cohop.api.schemas.site import SiteSchema, StrictSchema
 from cohop.assess import DETAIL_LEVELS
 from cohop.evaluation import AssessmentRequest, SimulationRequest
@@ -179,3 +180,5 @@ class AssessmentResponseSchema(StrictSchema):
     summary = fields.Nested(SummarySchema)
     systems = fields.List(fields.Nested(SystemResultSchema))
     simulation = fields.Nested(SimulationResultSchema, allow_none=True)
+    sequences = fields.Nested(SequencesSchema, allow_none=True, metadata={
+        "description": "When the request gives hop sequences: what they do, and retries driven by them"})

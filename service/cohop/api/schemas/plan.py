@@ -9,6 +9,7 @@ from cohop import limits
 from cohop.api.schemas.assessment import AssessmentResponseSchema
 from cohop.api.schemas.fields import IDENTIFIER, Count, Number, Text, between
 from cohop.api.schemas.problem import ProblemSchema
+from cohop.api.schemas.sequences import SequencesSchema
 from cohop.api.schemas.site import ErrorTree, SiteSchema, StrictSchema
 from cohop.assess import DETAIL_LEVELS
 from cohop.planning.requirements import (BASELINES, COORDINATION, DEFAULT_INTERFERER_THRESHOLD, OBJECTIVES,
@@ -79,6 +80,9 @@ class SearchSchema(StrictSchema):
     time_limit_s = Number(load_default=10.0, validate=between(0.1, 3600.0),
                           metadata={"description": "Search budget; clamped by the server's cap."})
     seed = Count(load_default=0, validate=validate.Range(min=0, max=2**31 - 1))
+    sequence_packets = Count(load_default=20_000, validate=validate.Range(min=1000, max=1_000_000),
+                             metadata={"description": "Simulated packets per system for the sequence-driven "
+                                                      "retry figures"})
 
 
 class PlanRequestSchema(StrictSchema):
@@ -115,7 +119,7 @@ class PlanRequestSchema(StrictSchema):
             interferer_threshold=req.get("interferer_threshold", DEFAULT_INTERFERER_THRESHOLD),
             guard_excess_db=req.get("guard_excess_db"), coordination=req.get("coordination", "joint"),
             objective=req.get("objective", "weighted_sum"), time_limit_s=search.get("time_limit_s", 10.0),
-            seed=search.get("seed", 0), baselines=names)
+            seed=search.get("seed", 0), baselines=names, sequence_packets=search.get("sequence_packets", 20_000))
         return {"site": data["site"], "requirements": requirements, "detail": data["detail"]}
 
 
@@ -186,6 +190,8 @@ class PlanResponseSchema(StrictSchema):
     coordination = fields.String()
     plan = fields.List(fields.Nested(PlannedSystemSchema))
     solver = fields.Nested(SolverReportSchema)
+    sequences = fields.Nested(SequencesSchema, metadata={"description": "A hopping sequence per system, ready "
+                                                                       "to load, with sequence-driven figures"})
     assessment = fields.Nested(AssessmentResponseSchema)
     baselines = fields.List(fields.Nested(BaselineSchema))
     comparison = fields.Nested(ComparisonSchema)

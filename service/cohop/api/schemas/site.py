@@ -145,6 +145,10 @@ class SystemSchema(StrictSchema):
     hop_set = fields.List(Count(validate=validate.Range(min=0, max=limits.MAX_CHANNELS - 1)), load_default=None,
                           validate=validate.Length(min=1, max=limits.MAX_CHANNELS),
                           metadata={"description": "Grid channel indices the system hops over."})
+    sequence = fields.List(Count(validate=validate.Range(min=0, max=limits.MAX_CHANNELS - 1)), load_default=None,
+                           validate=validate.Length(min=1, max=4 * limits.MAX_CHANNELS),
+                           metadata={"description": "The hop order its radios use (one period of channel "
+                                                    "indices); the hop set is its channels."})
 
     @validates_schema
     def _consistent(self, data, **kwargs):
@@ -164,12 +168,19 @@ class SystemSchema(StrictSchema):
         hs = data.get("hop_set")
         if hs is not None and len(set(hs)) != len(hs):
             errors.add(("hop_set",), "Channels must not repeat.")
+        seq = data.get("sequence")
+        if seq is not None and hs is not None and set(seq) != set(hs):
+            errors.add(("sequence",), "Must visit exactly the channels of hop_set.")
         errors.raise_if_any()
 
     @post_load
     def _make(self, data, **kwargs):
         data["rejection"] = tuple(data["rejection"])
         data["fading"] = data["fading"] or Fading()
+        if data["sequence"] is not None:
+            data["sequence"] = tuple(data["sequence"])
+            if data["hop_set"] is None:
+                data["hop_set"] = tuple(sorted(set(data["sequence"])))
         if data["hop_set"] is not None:
             data["hop_set"] = tuple(data["hop_set"])
         return System(**data)
@@ -297,6 +308,9 @@ class SiteSchema(StrictSchema):
     coupling = fields.Nested(CouplingSchema, load_default=None)
     interferers = fields.List(fields.Nested(InterfererSchema), load_default=list,
                               validate=validate.Length(max=limits.MAX_INTERFERERS))
+    rms_delay_spread_s = Number(load_default=None, validate=positive(1e-4), metadata={
+        "description": "RMS multipath delay spread (default 100 ns, the median Rappaport measured in factories); "
+                       "sets the consecutive-hop spacing and fading correlation."})
 
     @validates_schema
     def _cross_checks(self, data, **kwargs):
@@ -362,9 +376,10 @@ def _check_grid(errors: ErrorTree, grid: Grid, band: Band) -> None:
 
 def _check_hop_sets(errors: ErrorTree, systems, grid: Grid) -> None:
     for i, s in enumerate(systems):
-        for j, c in enumerate(s.hop_set or ()):
-            if c >= grid.count:
-                errors.add(("systems", i, "hop_set", j), f"Channel {c} is off the grid (0-{grid.count - 1}).")
+        for name in ("hop_set", "sequence"):
+            for j, c in enumerate(getattr(s, name) or ()):
+                if c >= grid.count:
+                    errors.add(("systems", i, name, j), f"Channel {c} is off the grid (0-{grid.count - 1}).")
 
 
 def _check_groups(errors: ErrorTree, systems) -> None:

@@ -22,5 +22,5 @@ class Assessments(MethodView):
     @blp.alt_response(415, response="UNSUPPORTED_MEDIA_TYPE")
     def post(self, req):
         """Evaluate each system's hop set: collisions by source and channel, losses, compliance."""
-        assessment, simulation = run_assessment(req, current_app.config["COHOP_MAX_SIMULATED_ATTEMPTS"])
-        return assessment_dict(assessment, simulation)
+        assessment, simulation, sequences = run_assessment(req, current_app.config["COHOP_MAX_SIMULATED_ATTEMPTS"])
+        return assessment_dict(assessment, simulation, sequences=sequences)

@@ -1,0 +1,1 @@
+"""Hopping sequences: families, construction, analysis and sequence-driven prediction."""
