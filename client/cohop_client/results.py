@@ -168,3 +168,37 @@ class Plan:
             if p.id == system_id:
                 return p.hop_set
         raise KeyError(system_id)
+
+
+@dataclass(frozen=True)
+class SystemChange:
+    id: str
+    status: str  # "kept", "changed", "new system"
+    dropped: tuple[int, ...]
+    added: tuple[int, ...]
+    sequence_changed: bool
+
+
+@dataclass(frozen=True)
+class Replan:
+    systems: tuple[PlannedSystem, ...]
+    changes: tuple[SystemChange, ...]
+    change_count: int
+    change_lower_bound: int
+    proven_minimal: bool
+    objective: float
+    fresh_objective: float
+    assessment: Assessment
+    cautions: tuple[str, ...]
+    raw: dict = field(repr=False)
+
+    @classmethod
+    def from_json(cls, body: dict) -> "Replan":
+        return cls(systems=tuple(PlannedSystem(p["id"], tuple(p["hop_set"]), tuple(p["centres_hz"]))
+                                 for p in body["plan"]),
+                   changes=tuple(SystemChange(d["id"], d["status"], tuple(d["dropped"]), tuple(d["added"]),
+                                              d["sequence_changed"]) for d in body["diff"]),
+                   change_count=body["changes"]["count"], change_lower_bound=body["changes"]["lower_bound"],
+                   proven_minimal=body["changes"]["proven_minimal"], objective=body["objective"],
+                   fresh_objective=body["fresh"]["objective"], assessment=Assessment.from_json(body["assessment"]),
+                   cautions=tuple(body["cautions"]), raw=body)

@@ -10,7 +10,7 @@ import requests
 
 from cohop_client.errors import (CohopError, InvalidRequest, NoFeasiblePlan, RequestTimeout, ServerError,
                                  TransportError)
-from cohop_client.results import Assessment, Health, Plan, Profile
+from cohop_client.results import Assessment, Health, Plan, Profile, Replan
 
 DEFAULT_TIMEOUT_S = 60.0
 T = TypeVar("T")
@@ -80,6 +80,16 @@ class Client:
             if value is not None:
                 body[key] = value
         return self._typed(Plan.from_json, self._call("POST", "/v1/plans", body))
+
+    def replan(self, site: dict, current: dict, *, mode: dict | None = None, requirements: dict | None = None,
+               search: dict | None = None, detail: str | None = None) -> Replan:
+        """Re-plan after the site changed. `current`: {"systems": [{"id", "hop_set", "sequence"}]};
+        `mode`: {"kind": "tolerance", "tolerance": 0.05} or {"kind": "budget", "max_changes": n}."""
+        body: dict[str, Any] = {"site": site, "current": current}
+        for key, value in (("mode", mode), ("requirements", requirements), ("search", search), ("detail", detail)):
+            if value is not None:
+                body[key] = value
+        return self._typed(Replan.from_json, self._call("POST", "/v1/replans", body))
 
     # --- transport ---------------------------------------------------------
 

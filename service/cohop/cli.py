@@ -38,16 +38,49 @@ def _client(args, config: dict | None = None) -> Client:
                   session=embedded_session(create_app(config)))
 
 
+def _read_json(path: str, what: str) -> dict:
+    try:
+        return json.loads(Path(path).read_text(encoding="utf-8"))
+    except OSError as err:
+        raise SystemExit(f"cohop: cannot read {what} {path}: {err.strerror}")
+    except UnicodeDecodeError as err:
+        raise SystemExit(f"cohop: {path} is not UTF-8 text: {err.reason} at byte {err.start}")
+    except json.JSONDecodeError as err:
+        raise SystemExit(f"cohop: {path} is not valid JSON: {err}")
+
+
+def _add_surveys(args, body: dict) -> None:
+    if not getattr(args, "survey", None):
+        return
+    from cohop.survey_csv import SurveyFileError, read_survey
+
+    for path in args.survey:
+        try:
+            survey = read_survey(path)
+        except (OSError, SurveyFileError) as err:
+            raise SystemExit(f"cohop: survey {path}: {err}")
+        body["site"].setdefault("surveys", []).append(survey)
+
+
+def _chart(args, body: dict, raw: dict) -> None:
+    if not getattr(args, "chart", None):
+        return
+    from cohop.charts import PlotUnavailable, channel_map
+
+    try:
+        width, height = (float(v) for v in args.chart_size.lower().split("x"))
+    except ValueError:
+        raise SystemExit(f"cohop: --chart-size wants WIDTHxHEIGHT in inches, not {args.chart_size!r}")
+    try:
+        channel_map(body["site"], raw, args.chart, width, height)
+    except PlotUnavailable as err:
+        raise SystemExit(f"cohop: {err}")
+    print(f"chart written to {args.chart}", file=sys.stderr)
+
+
 def _load_request(args) -> dict:
     if args.site is not None:
-        try:
-            body = json.loads(Path(args.site).read_text(encoding="utf-8"))
-        except OSError as err:
-            raise SystemExit(f"cohop: cannot read {args.site}: {err.strerror}")
-        except UnicodeDecodeError as err:
-            raise SystemExit(f"cohop: {args.site} is not UTF-8 text: {err.reason} at byte {err.start}")
-        except json.JSONDecodeError as err:
-            raise SystemExit(f"cohop: {args.site} is not valid JSON: {err}")
+        body = _read_json(args.site, "site")
     else:
         from cohop import samples
 
@@ -58,7 +91,9 @@ def _load_request(args) -> dict:
         print(f"(embedded sample site '{args.sample}'; give a file to assess your own)", file=sys.stderr)
     if not isinstance(body, dict):
         raise SystemExit("cohop: the site file must hold a JSON object")
-    return body if "site" in body else {"site": body}
+    body = body if "site" in body else {"site": body}
+    _add_surveys(args, body)
+    return body
 
 
 def _cmd_assess(args) -> int:
@@ -73,6 +108,7 @@ def _cmd_assess(args) -> int:
         if simulation:
             print("simulating...", file=sys.stderr, flush=True)
         result = api.assess(body["site"], simulation=simulation, detail=detail)
+    _chart(args, body, result.raw)
     return _emit(args, result.raw, assessment_table(result))
 
 
@@ -117,7 +153,51 @@ def _cmd_plan(args) -> int:
                               baselines=baselines, detail=args.detail or body.get("detail"))
         finally:
             line.finish()
+    _chart(args, body, result.raw)
     return _emit(args, result.raw, plan_table(result))
+
+
+def _current_from(path: str) -> dict:
+    """A current plan: {"systems": [...]}, or a saved plan or re-plan answer."""
+    data = _read_json(path, "current plan")
+    if isinstance(data, dict) and "systems" in data and "sequences" not in data:
+        return {"systems": data["systems"]}
+    if isinstance(data, dict) and data.get("sequences"):
+        return {"systems": [{"id": s["id"], "hop_set": sorted(s["channels"]), "sequence": s["channels"]}
+                            for s in data["sequences"]["systems"]]}
+    if isinstance(data, dict) and "plan" in data:
+        return {"systems": [{"id": p["id"], "hop_set": p["hop_set"]} for p in data["plan"]]}
+    raise SystemExit(f"cohop: {path} holds neither a current plan nor a saved plan answer")
+
+
+def _cmd_replan(args) -> int:
+    from cohop.render import replan_table
+
+    body = _load_request(args)
+    current = _current_from(args.current) if args.current else body.get("current")
+    if current is None:
+        raise SystemExit("cohop: give the current plan with --current FILE (or a 'current' key in the request)")
+    mode = body.get("mode") or {}
+    if args.max_changes is not None:
+        mode = {"kind": "budget", "max_changes": args.max_changes}
+    elif args.tolerance is not None:
+        mode = {"kind": "tolerance", "tolerance": args.tolerance}
+    search = dict(body.get("search") or {})
+    if args.time_limit is not None:
+        search["time_limit_s"] = args.time_limit
+    with _client(args, {"COHOP_SOLVER_WORKERS": args.workers}) as api:
+        result = api.replan(body["site"], current, mode=mode or None, requirements=body.get("requirements"),
+                            search=search or None, detail=body.get("detail"))
+    _chart(args, body, result.raw)
+    return _emit(args, result.raw, replan_table(result))
+
+
+def _cmd_chart(args) -> int:
+    body = _read_json(args.request, "request")
+    body = body if "site" in body else {"site": body}
+    args.chart = args.out
+    _chart(args, body, _read_json(args.answer, "answer"))
+    return 0
 
 
 def _cmd_profiles(args) -> int:
@@ -133,8 +213,9 @@ def _cmd_profiles(args) -> int:
 def _cmd_samples(args) -> int:
     from cohop import samples
 
-    for name in samples.names():
-        print(f"{name}: {samples.load(name)['site'].get('name', '')}")
+    for name in samples.all_names():
+        kind = " (re-plan request)" if name in samples.replan_names() else ""
+        print(f"{name}: {samples.load(name)['site'].get('name', '')}{kind}")
     return 0
 
 
@@ -144,6 +225,13 @@ def _cmd_serve(args) -> int:
     print(f"cohop development server on http://{args.host}:{args.port} (not for production)", file=sys.stderr)
     create_app().run(host=args.host, port=args.port)
     return 0
+
+
+def _outputs(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--survey", action="append", metavar="CSV", help="add a spectrum survey from a CSV file "
+                   "(columns frequency_hz, level_dbm[, occupancy_fraction]; '# key: value' lines for its fields)")
+    p.add_argument("--chart", metavar="FILE", help="also draw a channel map to FILE (.png or .svg)")
+    p.add_argument("--chart-size", default="11x6", metavar="WxH", help="chart size in inches (default 11x6)")
 
 
 def _common(p: argparse.ArgumentParser) -> None:
@@ -164,6 +252,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--seed", type=int, default=0, help="Monte Carlo seed")
     p.add_argument("--detail", choices=("system", "channel", "source"), help="how much per-channel detail")
     p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
+    _outputs(p)
     _common(p)
     p.set_defaults(func=_cmd_assess)
     p = sub.add_parser("plan", help="assign hop sets to every system, with a proven bound and baselines")
@@ -177,8 +266,27 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--workers", type=int, default=2, help="solver threads when running in-process")
     p.add_argument("--detail", choices=("system", "channel", "source"))
     p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
+    _outputs(p)
     _common(p)
     p.set_defaults(func=_cmd_plan)
+    p = sub.add_parser("replan", help="re-plan after the site changed, changing as few channels as possible")
+    p.add_argument("site", nargs="?", help="the changed site (or a re-plan request); default: a sample")
+    p.add_argument("--sample", default="water_works_replan", help="embedded sample when no file is given")
+    p.add_argument("--current", metavar="FILE", help="the current plan, or a saved plan answer")
+    p.add_argument("--tolerance", type=float, help="fewest changes within this share of a fresh plan (default 0.05)")
+    p.add_argument("--max-changes", type=int, help="best plan changing at most this many channels")
+    p.add_argument("--time-limit", type=float, metavar="S")
+    p.add_argument("--workers", type=int, default=2, help="solver threads when running in-process")
+    p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
+    _outputs(p)
+    _common(p)
+    p.set_defaults(func=_cmd_replan)
+    p = sub.add_parser("chart", help="draw a channel map from a saved request and answer")
+    p.add_argument("request", help="the request (or site) JSON")
+    p.add_argument("answer", help="the answer JSON (assessment, plan or re-plan)")
+    p.add_argument("--out", required=True, metavar="FILE", help=".png or .svg")
+    p.add_argument("--chart-size", default="11x6", metavar="WxH")
+    p.set_defaults(func=_cmd_chart)
     p = sub.add_parser("profiles", help="list the regulatory profiles and their rules")
     _common(p)
     p.set_defaults(func=_cmd_profiles)

@@ -56,6 +56,7 @@ class PreparedSite:
     activity: np.ndarray  # (S,) activity_fraction of each system as a source
     interferer_links: tuple[tuple[SourceLink, ...], ...]  # [v][k]
     interferer_range: np.ndarray  # (S, K, 2) int [v, k]: harmful grid channels lo <= c < hi
+    derived: tuple = ()  # interferers derived from surveys (cohop.surveys.DerivedInterferer), also in site
 
     @property
     def n_systems(self) -> int:
@@ -259,10 +260,13 @@ def _span_range(centres: np.ndarray, low_hz: float, high_hz: float, bound_hz: fl
 
 
 def prepare_site(site: Site) -> PreparedSite:
+    from cohop.surveys import with_survey_interferers
+
     profile = get_profile(site.profile)
     band = effective_band(site, profile)
     grid = site.grid
     centres = grid.first_centre_hz + grid.spacing_hz * np.arange(grid.count)
+    site, derived = with_survey_interferers(site, centres)
     f_mid = float((centres[0] + centres[-1]) / 2)  # propagation evaluated at the grid's mid frequency
     wanted, margin = _wanted_and_margin(site, f_mid)
     fade = np.array([fading.fade_probability(s.fading.model, m, s.fading.k_factor_db)
@@ -277,4 +281,4 @@ def prepare_site(site: Site) -> PreparedSite:
                         fade_probability=fade, coupling_loss_db=loss, coupling_explicit=explicit,
                         links=links, window=window, overlap_k0=k0, overlap_r=r,
                         activity=np.array([s.activity_fraction for s in site.systems]),
-                        interferer_links=ilinks, interferer_range=iranges)
+                        interferer_links=ilinks, interferer_range=iranges, derived=tuple(derived))

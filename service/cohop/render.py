@@ -6,7 +6,7 @@ import textwrap
 
 import time
 
-from cohop_client import Assessment, Plan
+from cohop_client import Assessment, Plan, Replan
 
 
 def _pct(p: float) -> str:
@@ -158,3 +158,26 @@ def profiles_table(profiles) -> str:
         for r in p.rules:
             lines.append(f"    {r.title}: {r.summary} [{r.citation}; {r.certainty}]")
     return "\n".join(lines)
+
+
+def replan_table(result: Replan) -> str:
+    proven = "proven minimal" if result.proven_minimal else f"lower bound {result.change_lower_bound}"
+    out = [f"re-plan: {result.change_count} channel change(s) ({proven}); objective {result.objective:.5f} "
+           f"against a fresh plan's {result.fresh_objective:.5f}", ""]
+    out += _systems_table(result.assessment)
+    out += ["", "changes:"]
+    for c in result.changes:
+        if c.status == "kept":
+            out.append(f"  {c.id}: unchanged")
+        elif c.status == "new system":
+            out.append(f"  {c.id}: new system, {len(c.added)} channels")
+        else:
+            seq = ", new sequence" if c.sequence_changed else ""
+            out.append(f"  {c.id}: drop {_ranges(c.dropped)}; add {_ranges(c.added)}{seq}")
+    out += ["", "predicted per-hop collision, now -> after the re-plan:"]
+    for d in result.raw["diff"]:
+        if d["before"]:
+            out.append(f"  {d['id']}: {_pct(d['before']['collision_probability'])} -> "
+                       f"{_pct(d['after']['collision_probability'])}")
+    out += [f"  note: {n}" for n in result.raw.get("notes", [])]
+    return "\n".join(out + _cautions(result.cautions))

@@ -155,6 +155,27 @@ class Interferer:
 
 
 @dataclass(frozen=True)
+class Survey:
+    """A measured spectrum trace at the receivers of `applies_to`.
+
+    Each point is the power the analyser read in its resolution bandwidth at
+    that frequency; `occupancy_fraction`, if given, is the share of sweeps
+    in which the point was above the analyser's threshold.
+    """
+
+    id: str
+    applies_to: tuple[str, ...]
+    frequencies_hz: tuple[float, ...]
+    levels_dbm: tuple[float, ...]
+    resolution_bandwidth_hz: float
+    detector: str = "rms"
+    occupancy_fraction: tuple[float, ...] | None = None
+    label: str = ""
+    detection_margin_db: float = 6.0  # above the trace's own floor for a channel to count as occupied
+    noise_bandwidth_factor: float = 1.0  # equivalent noise bandwidth of the RBW filter / RBW
+
+
+@dataclass(frozen=True)
 class Site:
     profile: str
     grid: Grid
@@ -164,6 +185,7 @@ class Site:
     interferers: tuple[Interferer, ...] = ()
     name: str = ""
     rms_delay_spread_s: float | None = None  # multipath delay spread; None: the industrial default
+    surveys: tuple[Survey, ...] = ()
 
     def system_index(self) -> dict[str, int]:
         return {s.id: i for i, s in enumerate(self.systems)}

@@ -11,7 +11,7 @@ import pytest
 from cohop.api.app import create_app
 
 SAMPLES_DIR = Path(__file__).resolve().parents[2] / "sample_requests"
-SAMPLE_FILES = sorted(p.name for p in SAMPLES_DIR.glob("*.json"))
+SAMPLE_FILES = sorted(p.name for p in SAMPLES_DIR.glob("*.json") if not p.stem.endswith("_replan"))
 PROBLEM_JSON = "application/problem+json"
 ASSESSMENTS = "/v1/assessments"
 

@@ -186,7 +186,8 @@ def test_samples(capsys):
     code, out, _ = run(capsys, "samples")
     assert code == 0
     names = [line.split(":")[0] for line in out.splitlines()]
-    assert names == ["container_terminal_eu2400", "open_pit_mine_ca915", "water_works_us915"]
+    assert names == ["container_terminal_eu2400", "open_pit_mine_ca915", "water_works_replan", "water_works_us915"]
+    assert "re-plan request" in out.splitlines()[2]
 
 
 def test_server_gives_same_table_as_embedded(capsys, live_server, request_file):

@@ -66,8 +66,8 @@ def create_app(config: dict | None = None) -> flask.Flask:
     app.json.sort_keys = False
     app.before_request(_require_json)
     api = CohopApi(app)
-    from cohop.api.views import assessments, meta, plans, profiles
+    from cohop.api.views import assessments, meta, plans, profiles, replans
 
-    for blp in (assessments.blp, plans.blp, profiles.blp, meta.blp):
+    for blp in (assessments.blp, plans.blp, replans.blp, profiles.blp, meta.blp):
         api.register_blueprint(blp)
     return app

@@ -92,7 +92,15 @@ def assessment_dict(assessment: Assessment, simulation: SiteSimulation | None = 
         "systems": [_system(f, assessment) for f in assessment.systems],
         "simulation": simulation_dict(simulation, assessment) if simulation is not None else None,
         "sequences": sequences_dict(sequences, assessment) if sequences is not None else None,
+        "derived_interferers": [_derived(d) for d in prep.derived],
     }
+
+
+def _derived(d) -> dict:
+    itf = d.interferer
+    return {"id": itf.id, "survey": d.survey, "system": d.system, "low_hz": itf.low_hz, "high_hz": itf.high_hz,
+            "channels": list(d.channels), "channel_level_dbm": d.channel_level_dbm, "floor_dbm": d.floor_dbm,
+            "activity_fraction": itf.activity_fraction}
 
 
 def _baseline(b) -> dict:
@@ -191,3 +199,46 @@ def sequences_dict(outcome, assessment: Assessment) -> dict:
     return {"delay_spread_s": outcome.delay_spread_s, "systems": systems, "pairs": pairs, "families": families,
             "alignment": {"depends_on_alignment": outcome.depends_on_alignment, "groups": groups, "note": note},
             "notes": list(rep.notes)}
+
+
+def _plan_rows(prep, hop_sets) -> list[dict]:
+    return [{"id": s.id, "hop_set": [int(c) for c in hs], "centres_hz": [float(prep.centres_hz[c]) for c in hs],
+             "channel_count": int(len(hs))} for s, hs in zip(prep.site.systems, hop_sets)]
+
+
+def _figures(f) -> dict:
+    return {"collision_probability": f.collision_probability, "residual_loss_probability": f.residual_loss_probability}
+
+
+def replan_dict(result, mode) -> dict:
+    from cohop.planning.solve import evaluated_objective
+
+    prep = result.assessment.prepared
+    before = {f.id: f for f in result.before.systems}
+    after = {f.id: f for f in result.assessment.systems}
+    diff = [{"id": d.id, "status": d.status, "dropped": d.dropped, "added": d.added,
+             "sequence_changed": d.sequence_changed,
+             "before": _figures(before[d.id]) if d.status != "new system" else None, "after": _figures(after[d.id])}
+            for d in result.diffs]
+    fresh = result.fresh
+    joint = result.instance.req.coordination == "joint"
+    caution = prep.profile.coordination_caution and (joint or result.sequences.depends_on_alignment)
+    return {
+        "cautions": cautions_for(caution),
+        "mode": {"kind": mode.kind, "tolerance": mode.tolerance, "max_changes": mode.max_changes},
+        "objective": result.objective, "target_objective": result.target,
+        "evaluated_objective": evaluated_objective(result.instance, result.assessment),
+        "changes": {"count": result.changes, "lower_bound": result.lower_bound, "proven_minimal": result.proven_minimal,
+                    "removed_systems": result.removed},
+        "plan": _plan_rows(prep, result.hop_sets), "diff": diff,
+        "fresh": {"objective": fresh.report.objective, "evaluated_objective": fresh.report.evaluated_objective,
+                  "bound": fresh.report.bound, "status": fresh.report.status,
+                  "plan": _plan_rows(prep, fresh.hop_sets),
+                  "systems": [{"id": f.id, "channel_count": len(f.hop_set),
+                               "collision_probability": f.collision_probability,
+                               "residual_loss_probability": f.residual_loss_probability}
+                              for f in fresh.assessment.systems]},
+        "sequences": sequences_dict(result.sequences, result.assessment),
+        "assessment": assessment_dict(result.assessment, coordination_caution=caution),
+        "notes": list(result.notes),
+    }

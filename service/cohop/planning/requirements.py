@@ -36,7 +36,7 @@ class PlanRequirements:
     time_limit_s: float = 10.0
     seed: int = 0
     baselines: tuple[str, ...] = ()
-    sequence_packets: int = 20_000  # simulated packets per system for the sequence-driven retry figures
+    sequence_packets: int = 5_000  # simulated packets per system for the sequence-driven retry figures
 
     def for_system(self, system_id: str) -> SystemRequirement:
         for r in self.systems:

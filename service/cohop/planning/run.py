@@ -22,3 +22,18 @@ def run_plan(site: Site, requirements: PlanRequirements, settings: SolveSettings
         raise PlanInfeasible([Conflict(v.requirement, v.systems, v.detail, relax="raise the time limit or relax "
                                        "this requirement") for v in result.violations], proven=False)
     return result
+
+
+def run_replan(site: Site, requirements: PlanRequirements, current, mode, settings: SolveSettings):
+    from cohop.planning.replan import replan_site
+
+    try:
+        prep = prepare_site(site)
+    except SiteError as err:
+        raise err.under("/site") from None
+    result = replan_site(prep, requirements, current, mode, settings)
+    if result.violations:
+        raise PlanInfeasible([Conflict(v.requirement, v.systems, v.detail, relax="raise the time limit or the "
+                                       "change budget, or relax this requirement") for v in result.violations],
+                             proven=False)
+    return result

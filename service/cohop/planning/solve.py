@@ -300,7 +300,8 @@ def _value(inst: PlanningInstance, x: np.ndarray) -> float:
 
 
 def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings = SolveSettings(),
-              progress: Callable[[Progress], None] | None = None, detail: str = "channel") -> PlanResult:
+              progress: Callable[[Progress], None] | None = None, detail: str = "channel",
+              with_sequences: bool = True) -> PlanResult:
     limit = min(req.time_limit_s, settings.max_time_s)
     clock = _Clock(limit, progress)
     full = build_instance(prep, req)
@@ -312,8 +313,9 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
     best_bound = min(max(bounds.values()), objective)
     gap = 0.0 if objective <= 0 else max(0.0, (objective - best_bound) / objective)
     hop_sets = hop_sets_of(x)
-    sequences = plan_sequences(prep, hop_sets, req.seed, req.sequence_packets)
-    assessment = assess_site(prep, hop_sets=hop_sets, detail=detail, origin="plan", sequences=sequences.orders)
+    sequences = plan_sequences(prep, hop_sets, req.seed, req.sequence_packets) if with_sequences else None
+    assessment = assess_site(prep, hop_sets=hop_sets, detail=detail, origin="plan",
+                             sequences=sequences.orders if sequences is not None else None)
     violations = validate_plan(full, hop_sets, assessment)
     status = NO_PLAN if violations else OPTIMAL if gap <= OPTIMAL_GAP else FEASIBLE
     evaluated = evaluated_objective(full, assessment)

@@ -13,7 +13,7 @@ from cohop.sequences.construct import Sequence, build_sequences
 from cohop.sequences.simulate import RetryFigures, simulate_retries
 
 #: Simulated packets per system for the sequence-driven retry figures (default, and the server's cap).
-DEFAULT_PACKETS = 20_000
+DEFAULT_PACKETS = 5_000
 MAX_PACKETS = 1_000_000
 
 
@@ -35,7 +35,7 @@ def delay_spread(prep: PreparedSite) -> float:
 
 
 #: Simulated packets x systems^2 per run (the cost grows with both): large sites get fewer packets each.
-PACKET_BUDGET = 5_000_000
+PACKET_BUDGET = 2_000_000
 
 
 def packets_for(prep: PreparedSite, requested: int) -> int:

@@ -171,6 +171,18 @@ class ProfileRefSchema(StrictSchema):
     name = fields.String()
 
 
+class DerivedInterfererSchema(StrictSchema):
+    id = fields.String()
+    survey = fields.String()
+    system = fields.String(metadata={"description": "The system whose receivers the survey stands for"})
+    low_hz = fields.Float()
+    high_hz = fields.Float()
+    channels = fields.List(fields.Integer(), metadata={"description": "Inclusive grid channel range"})
+    channel_level_dbm = fields.Float(metadata={"description": "Mean power in the system's channel bandwidth"})
+    floor_dbm = fields.Float(metadata={"description": "The survey's own floor (median channel power)"})
+    activity_fraction = fields.Float()
+
+
 class AssessmentResponseSchema(StrictSchema):
     cautions = fields.List(fields.String())
     profile = fields.Nested(ProfileRefSchema)
@@ -180,5 +192,7 @@ class AssessmentResponseSchema(StrictSchema):
     summary = fields.Nested(SummarySchema)
     systems = fields.List(fields.Nested(SystemResultSchema))
     simulation = fields.Nested(SimulationResultSchema, allow_none=True)
+    derived_interferers = fields.List(fields.Nested(DerivedInterfererSchema), metadata={
+        "description": "What the site's surveys became: fixed interferers used by evaluation and planning"})
     sequences = fields.Nested(SequencesSchema, allow_none=True, metadata={
         "description": "When the request gives hop sequences: what they do, and retries driven by them"})

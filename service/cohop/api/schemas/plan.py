@@ -80,7 +80,7 @@ class SearchSchema(StrictSchema):
     time_limit_s = Number(load_default=10.0, validate=between(0.1, 3600.0),
                           metadata={"description": "Search budget; clamped by the server's cap."})
     seed = Count(load_default=0, validate=validate.Range(min=0, max=2**31 - 1))
-    sequence_packets = Count(load_default=20_000, validate=validate.Range(min=1000, max=1_000_000),
+    sequence_packets = Count(load_default=5_000, validate=validate.Range(min=1000, max=1_000_000),
                              metadata={"description": "Simulated packets per system for the sequence-driven "
                                                       "retry figures"})
 
@@ -119,7 +119,7 @@ class PlanRequestSchema(StrictSchema):
             interferer_threshold=req.get("interferer_threshold", DEFAULT_INTERFERER_THRESHOLD),
             guard_excess_db=req.get("guard_excess_db"), coordination=req.get("coordination", "joint"),
             objective=req.get("objective", "weighted_sum"), time_limit_s=search.get("time_limit_s", 10.0),
-            seed=search.get("seed", 0), baselines=names, sequence_packets=search.get("sequence_packets", 20_000))
+            seed=search.get("seed", 0), baselines=names, sequence_packets=search.get("sequence_packets", 5_000))
         return {"site": data["site"], "requirements": requirements, "detail": data["detail"]}
 
 
@@ -209,3 +209,116 @@ class ConflictSchema(StrictSchema):
 class InfeasibleProblemSchema(ProblemSchema):
     conflicts = fields.List(fields.Nested(ConflictSchema))
     proven = fields.Boolean(metadata={"description": "false: none found in time, not proven impossible"})
+
+
+
+# --- re-planning ------------------------------------------------------------
+
+class CurrentSystemSchema(StrictSchema):
+    id = Text(required=True, validate=IDENTIFIER)
+    hop_set = fields.List(_channel(), required=True, validate=validate.Length(min=1, max=limits.MAX_CHANNELS))
+    sequence = fields.List(_channel(), load_default=None, validate=validate.Length(min=1, max=limits.MAX_CHANNELS),
+                           metadata={"description": "Kept when the hop set does not change"})
+
+    @validates_schema
+    def _consistent(self, data, **kwargs):
+        if len(set(data["hop_set"])) != len(data["hop_set"]):
+            raise ma.ValidationError("Channels must not repeat.", field_name="hop_set")
+        if data.get("sequence") is not None and set(data["sequence"]) != set(data["hop_set"]):
+            raise ma.ValidationError("Must visit exactly the channels of hop_set.", field_name="sequence")
+
+
+class CurrentPlanSchema(StrictSchema):
+    systems = fields.List(fields.Nested(CurrentSystemSchema), required=True,
+                          validate=validate.Length(min=1, max=limits.MAX_SYSTEMS))
+
+
+class ReplanModeSchema(StrictSchema):
+    kind = Text(load_default="tolerance", validate=validate.OneOf(("tolerance", "budget")),
+                metadata={"description": "tolerance: fewest changes within the tolerance of a fresh plan; "
+                                         "budget: best plan with at most max_changes changes"})
+    tolerance = Number(load_default=0.05, validate=between(0.0, 10.0), metadata={
+        "description": "Objective at most (1 + tolerance) x the fresh plan's (default 0.05)"})
+    max_changes = Count(load_default=None, validate=validate.Range(min=0, max=10**6))
+
+    @validates_schema
+    def _budget(self, data, **kwargs):
+        if data["kind"] == "budget" and data.get("max_changes") is None:
+            raise ma.ValidationError("The budget mode needs max_changes.", field_name="max_changes")
+
+
+class ReplanRequestSchema(PlanRequestSchema):
+    current = fields.Nested(CurrentPlanSchema, required=True,
+                            metadata={"description": "The plan the radios use now (hop sets and sequences)"})
+    mode = fields.Nested(ReplanModeSchema, load_default=None)
+
+    @validates_schema
+    def _current_ids(self, data, **kwargs):
+        errors = ErrorTree()
+        grid = data["site"].grid
+        seen = set()
+        for i, c in enumerate(data["current"]["systems"]):
+            if c["id"] in seen:
+                errors.add(("current", "systems", i, "id"), f"Duplicate id {c['id']!r}.")
+            seen.add(c["id"])
+            for name in ("hop_set", "sequence"):
+                for j, ch in enumerate(c.get(name) or ()):
+                    if ch >= grid.count:
+                        errors.add(("current", "systems", i, name, j), f"Channel {ch} is off the grid.")
+        errors.raise_if_any()
+
+    @post_load
+    def _make(self, data, **kwargs):
+        from cohop.planning.replan import CurrentSystem, ReplanMode
+
+        current = data.pop("current")
+        mode = data.pop("mode") or {}
+        out = super()._make(data, **kwargs)
+        out["current"] = [CurrentSystem(c["id"], tuple(c["hop_set"]), None if c.get("sequence") is None
+                                        else tuple(c["sequence"])) for c in current["systems"]]
+        out["mode"] = ReplanMode(kind=mode.get("kind", "tolerance"), tolerance=mode.get("tolerance", 0.05),
+                                 max_changes=mode.get("max_changes"))
+        return out
+
+
+class SystemDiffSchema(StrictSchema):
+    id = fields.String()
+    status = fields.String(metadata={"description": "kept, changed or new system"})
+    dropped = fields.List(fields.Integer())
+    added = fields.List(fields.Integer())
+    sequence_changed = fields.Boolean()
+    before = fields.Dict(keys=fields.String(), values=fields.Float(), allow_none=True, metadata={
+        "description": "collision_probability and residual_loss_probability of the current plan on the changed "
+                       "site"})
+    after = fields.Dict(keys=fields.String(), values=fields.Float())
+
+
+class ChangesSchema(StrictSchema):
+    count = fields.Integer(metadata={"description": "Channels newly set on existing systems"})
+    lower_bound = fields.Integer(metadata={"description": "No plan meeting the requirements changes fewer"})
+    proven_minimal = fields.Boolean()
+    removed_systems = fields.List(fields.String())
+
+
+class FreshSchema(StrictSchema):
+    objective = fields.Float()
+    evaluated_objective = fields.Float()
+    bound = fields.Float()
+    status = fields.String()
+    plan = fields.List(fields.Nested(PlannedSystemSchema))
+    systems = fields.List(fields.Nested(BaselineSystemSchema))
+
+
+class ReplanResponseSchema(StrictSchema):
+    cautions = fields.List(fields.String())
+    mode = fields.Dict()
+    objective = fields.Float(metadata={"description": "Linearised objective of the re-plan"})
+    target_objective = fields.Float(allow_none=True)
+    evaluated_objective = fields.Float()
+    changes = fields.Nested(ChangesSchema)
+    plan = fields.List(fields.Nested(PlannedSystemSchema))
+    diff = fields.List(fields.Nested(SystemDiffSchema))
+    fresh = fields.Nested(FreshSchema)
+    sequences = fields.Nested(SequencesSchema)
+    assessment = fields.Nested(AssessmentResponseSchema)
+    notes = fields.List(fields.String())

@@ -14,7 +14,7 @@ from cohop import limits
 from cohop.api.schemas.fields import IDENTIFIER, Count, Number, Text, between, positive
 from cohop.regulatory import PROFILES
 from cohop.site import (Band, Coupling, CouplingEntry, Fading, Grid, Interferer, InterfererLevel, Position,
-                        Propagation, RejectionPoint, Site, System)
+                        Propagation, RejectionPoint, Site, Survey, System)
 
 FADING_MODELS = ("rayleigh", "rician", "none")
 PROPAGATION_MODELS = ("free_space", "log_distance", "p1238")
@@ -296,6 +296,54 @@ class InterfererSchema(StrictSchema):
         return Interferer(**data)
 
 
+DETECTORS = ("rms", "average", "peak", "sample")
+MAX_SURVEY_POINTS = 200_000
+
+
+class SurveySchema(StrictSchema):
+    id = Text(required=True, validate=IDENTIFIER)
+    label = Text(load_default="", validate=validate.Length(max=200))
+    applies_to = fields.List(Text(validate=IDENTIFIER), required=True, validate=validate.Length(min=1),
+                             metadata={"description": "Systems whose receivers the trace stands for"})
+    frequencies_hz = fields.List(Number(validate=positive(1e12)), required=True,
+                                 validate=validate.Length(min=2, max=MAX_SURVEY_POINTS),
+                                 metadata={"description": "Strictly increasing"})
+    levels_dbm = fields.List(Number(validate=between(-250.0, 60.0)), required=True,
+                             validate=validate.Length(min=2, max=MAX_SURVEY_POINTS),
+                             metadata={"description": "Power read in the resolution bandwidth at each point"})
+    resolution_bandwidth_hz = Number(required=True, validate=positive(1e9))
+    detector = Text(load_default="rms", validate=validate.OneOf(DETECTORS))
+    occupancy_fraction = fields.List(Number(validate=between(0.0, 1.0)), load_default=None,
+                                     metadata={"description": "Share of sweeps above threshold, per point"})
+    detection_margin_db = Number(load_default=6.0, validate=between(0.0, 60.0), metadata={
+        "description": "A channel counts as occupied this far above the trace's own floor (its median)"})
+    noise_bandwidth_factor = Number(load_default=1.0, validate=between(0.5, 2.0), metadata={
+        "description": "Equivalent noise bandwidth of the resolution filter, as a multiple of it"})
+
+    @validates_schema
+    def _trace(self, data, **kwargs):
+        errors = ErrorTree()
+        f = data["frequencies_hz"]
+        for i in range(1, len(f)):
+            if f[i] <= f[i - 1]:
+                errors.add(("frequencies_hz", i), "Frequencies must strictly increase (sorted, no duplicates).")
+                break
+        if len(data["levels_dbm"]) != len(f):
+            errors.add(("levels_dbm",), f"Needs one level per frequency ({len(f)}).")
+        occ = data.get("occupancy_fraction")
+        if occ is not None and len(occ) != len(f):
+            errors.add(("occupancy_fraction",), f"Needs one share per frequency ({len(f)}).")
+        errors.raise_if_any()
+
+    @post_load
+    def _make(self, data, **kwargs):
+        for key in ("applies_to", "frequencies_hz", "levels_dbm"):
+            data[key] = tuple(data[key])
+        if data.get("occupancy_fraction") is not None:
+            data["occupancy_fraction"] = tuple(data["occupancy_fraction"])
+        return Survey(**data)
+
+
 class SiteSchema(StrictSchema):
     name = Text(load_default="", validate=validate.Length(max=200))
     profile = Text(required=True, validate=validate.OneOf(sorted(PROFILES)))
@@ -308,6 +356,8 @@ class SiteSchema(StrictSchema):
     coupling = fields.Nested(CouplingSchema, load_default=None)
     interferers = fields.List(fields.Nested(InterfererSchema), load_default=list,
                               validate=validate.Length(max=limits.MAX_INTERFERERS))
+    surveys = fields.List(fields.Nested(SurveySchema), load_default=list, validate=validate.Length(max=64),
+                          metadata={"description": "Measured spectrum traces; each becomes fixed interferers"})
     rms_delay_spread_s = Number(load_default=None, validate=positive(1e-4), metadata={
         "description": "RMS multipath delay spread (default 100 ns, the median Rappaport measured in factories); "
                        "sets the consecutive-hop spacing and fading correlation."})
@@ -325,12 +375,14 @@ class SiteSchema(StrictSchema):
         _check_coupling(errors, data.get("coupling") or Coupling(), ids)
         _check_link_distances(errors, systems, data.get("coupling") or Coupling())
         _check_interferer_levels(errors, interferers, ids)
+        _check_surveys(errors, data["surveys"], ids)
         errors.raise_if_any()
 
     @post_load
     def _make(self, data, **kwargs):
         data["systems"] = tuple(data["systems"])
         data["interferers"] = tuple(data["interferers"])
+        data["surveys"] = tuple(data["surveys"])
         data["coupling"] = data["coupling"] or Coupling()
         return Site(**data)
 
@@ -402,6 +454,17 @@ def _check_coupling(errors: ErrorTree, coupling: Coupling, ids: set[str]) -> Non
         if (e.from_system, e.to_system) in seen:
             errors.add(("coupling", "entries", j), f"Duplicate entry {e.from_system}->{e.to_system}.")
         seen.add((e.from_system, e.to_system))
+
+
+def _check_surveys(errors: ErrorTree, surveys, ids: set[str]) -> None:
+    seen = set()
+    for k, sv in enumerate(surveys):
+        if sv.id in seen:
+            errors.add(("surveys", k, "id"), f"Duplicate survey id {sv.id!r}.")
+        seen.add(sv.id)
+        for j, sid in enumerate(sv.applies_to):
+            if sid not in ids:
+                errors.add(("surveys", k, "applies_to", j), f"Unknown system {sid!r}.")
 
 
 def _check_link_distances(errors: ErrorTree, systems, coupling: Coupling) -> None:

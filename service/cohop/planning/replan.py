@@ -1,0 +1,296 @@
+"""Re-planning: meet every requirement on the changed site while changing as few channels as possible.
+
+A change is one channel a system must newly be set to (a channel dropped is
+replaced by one added). Systems new to the site are planned freely and their
+channels are not counted; removed systems are simply gone.
+
+1. Repair: keep every current channel that is still allowed and compatible
+   (separation, guards), and top each system up with its least harmful open
+   channels. Lower bound: a system can keep at most its current channels that
+   are still allowed, so it needs at least its count less those new ones.
+2. Tolerance mode: the fresh plan's objective F (planned from scratch on the
+   changed site) sets the target (1 + tolerance) F. While the repaired plan
+   misses it, free moves (among channels already changed) are used first and
+   then, one at a time, the single best move that changes one more kept
+   channel. When the plan meets the target at the lower bound, the change
+   count is proven minimal; when CP-SAT's full model is small enough it
+   proves the minimum directly (minimise changes subject to the target).
+3. Budget mode: the best objective with at most `max_changes` changes, by the
+   same free and paid moves while the budget lasts.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from ortools.sat.python import cp_model
+
+from cohop.assess import Assessment, assess_site
+from cohop.planning import model
+from cohop.planning.instance import PlanningInstance, build_instance
+from cohop.planning.linear import hop_sets_of, objective_value, system_estimates
+from cohop.planning.requirements import Conflict, PlanInfeasible, PlanRequirements
+from cohop.planning.search import Placement, _best_swap
+from cohop.planning.solve import PlanResult, SolveSettings, plan_site
+from cohop.planning.validate import Violation, validate_plan
+from cohop.prepare import PreparedSite
+from cohop.sequences.construct import Sequence, build_sequences
+from cohop.sequences.report import SequenceOutcome, delay_spread, outcome
+
+MODES = ("tolerance", "budget")
+DEFAULT_TOLERANCE = 0.05
+
+
+@dataclass(frozen=True)
+class ReplanMode:
+    kind: str = "tolerance"
+    tolerance: float = DEFAULT_TOLERANCE
+    max_changes: int | None = None
+
+
+@dataclass(frozen=True)
+class CurrentSystem:
+    id: str
+    hop_set: tuple[int, ...]
+    sequence: tuple[int, ...] | None = None
+
+
+@dataclass
+class SystemDiff:
+    id: str
+    status: str  # "kept", "changed", "new system"
+    dropped: list[int]
+    added: list[int]
+    sequence_changed: bool
+
+
+@dataclass
+class ReplanResult:
+    instance: PlanningInstance
+    hop_sets: list[np.ndarray]
+    assessment: Assessment
+    before: Assessment
+    fresh: PlanResult
+    sequences: SequenceOutcome
+    diffs: list[SystemDiff]
+    changes: int
+    lower_bound: int
+    proven_minimal: bool
+    objective: float
+    target: float | None
+    removed: list[str]
+    violations: list[Violation]
+    notes: list[str] = field(default_factory=list)
+
+
+def _old_masks(inst: PlanningInstance, current: dict[str, CurrentSystem]) -> np.ndarray:
+    old = np.zeros_like(inst.allowed)
+    for v, sid in enumerate(inst.ids):
+        if sid in current:
+            chans = [c for c in current[sid].hop_set if 0 <= c < inst.n_channels]
+            old[v, chans] = True
+    return old
+
+
+def _sizes(inst: PlanningInstance, old: np.ndarray, current) -> np.ndarray:
+    """Each existing system keeps its current count when its requirements allow it."""
+    sizes = inst.sizes.copy()
+    for v, sid in enumerate(inst.ids):
+        if sid in current:
+            n = int(old[v].sum())
+            sizes[v] = int(np.clip(n, inst.min_size[v], inst.max_size[v]))
+    return sizes
+
+
+def lower_bound_changes(inst: PlanningInstance, old: np.ndarray, existing: np.ndarray) -> int:
+    """At most |current and still allowed| current channels can stay, so each existing system needs at
+    least size - that many new ones, whatever the plan."""
+    keepable = (old & (inst.allowed | inst.pinned)).sum(axis=1)
+    return int(np.maximum(0, inst.sizes - keepable)[existing].sum())
+
+
+def repair(inst: PlanningInstance, old: np.ndarray) -> np.ndarray:
+    """Keep what still fits (cheapest first), top up with the least harmful open channels."""
+    place = Placement(inst, np.zeros_like(inst.allowed))
+    for v, c in zip(*np.nonzero(inst.pinned)):
+        place.add(int(v), int(c))
+    for v in range(inst.n_systems):
+        keep = [int(c) for c in np.flatnonzero(old[v]) if not place.x[v, c]]
+        keep.sort(key=lambda c: place.table.m[v, c])
+        for c in keep:
+            if place.x[v].sum() < inst.sizes[v] and place.open_channels(v)[c]:
+                place.add(v, c)
+    for v in range(inst.n_systems):
+        while place.x[v].sum() < inst.sizes[v]:
+            ok = place.open_channels(v) & ~place.x[v]
+            if not ok.any():
+                raise PlanInfeasible([Conflict("channel count", (inst.ids[v],), f"{inst.ids[v]} cannot be topped "
+                                               "up to its channel count", relax="relax its exclusions or count")])
+            place.add(v, int(np.argmin(np.where(ok, place.table.m[v], np.inf))))
+    return place.x.copy()
+
+
+def changes_of(x: np.ndarray, old: np.ndarray, existing: np.ndarray) -> int:
+    """Channels newly set on systems that exist in the current plan."""
+    return int((x & ~old)[existing].sum())
+
+
+def _free_or_paid_move(place: Placement, old: np.ndarray, paid: bool) -> tuple[float, int, int, int] | None:
+    """Best swap per system restricted to free moves (the channel leaving was already a change) or to paid
+    ones (a kept channel leaves); returns (delta, v, c_out, c_in) of the best improving one."""
+    inst = place.inst
+    best = None
+    for v in range(inst.n_systems):
+        m = place.table.m[v]
+        held = np.flatnonzero(place.x[v] & ~inst.pinned[v] & (old[v] if paid else ~old[v]))
+        if held.size == 0:
+            continue
+        sep = int(inst.separation[v])
+        base = inst.allowed[v] & (place.guarded[v] == 0) & ~place.x[v]
+        grid = np.arange(inst.n_channels)
+        near = np.abs(grid[None, :] - held[:, None]) < sep
+        ok = base[None, :] & ((place.own[v] == 0)[None, :] | ((place.own[v] == 1)[None, :] & near))
+        delta = np.where(ok, m[None, :] - m[held][:, None], np.inf)
+        i, c_in = np.unravel_index(int(np.argmin(delta)), delta.shape)
+        d = float(delta[i, c_in])
+        scale = max(float(np.abs(m).max()), 1e-300)
+        if d < -1e-12 * scale and (best is None or d < best[0]):
+            best = (d, v, int(held[i]), int(c_in))
+    return best
+
+
+def _descend_free(place: Placement, old: np.ndarray, limit: int = 10_000) -> None:
+    for _ in range(limit):
+        move = _free_or_paid_move(place, old, paid=False)
+        if move is None:
+            return
+        _, v, c_out, c_in = move
+        place.remove(v, c_out)
+        place.add(v, c_in)
+
+
+def _spend(inst, x, old, existing, budget: int | None, target: float | None) -> np.ndarray:
+    """Free moves, then one paid move at a time, until the target is met or the budget is spent."""
+    place = Placement(inst, x)
+    _descend_free(place, old)
+    while True:
+        value = objective_value(inst, system_estimates(inst, place.x))
+        if target is not None and value <= target:
+            break
+        if budget is not None and changes_of(place.x, old, existing) >= budget:
+            break
+        move = _free_or_paid_move(place, old, paid=True)
+        if move is None:
+            break
+        _, v, c_out, c_in = move
+        place.remove(v, c_out)
+        place.add(v, c_in)
+        _descend_free(place, old)
+    return place.x.copy()
+
+
+def _cp_sat_minimum(inst, start, old, existing, target, settings: SolveSettings, seconds: float):
+    """Minimise changes subject to the objective target on the full model; (x, proven) or (None, False)."""
+    m = cp_model.CpModel()
+    mv = model.ModelVars()
+    objective = model.Objective()
+    for g in (model.ChannelVariables(), model.ChannelCounts(), model.Pins(), model.Separation(), model.Guards(),
+              objective):
+        g.add(m, mv, inst, lambda kind, key: None)
+    costs = [wc for wc, _ in objective.costs.node.values()] + [wc for _, wc, _, _ in objective.costs.pair]
+    scale = model.Scale.choose(np.array(costs))
+    expr = sum(scale(wc) * mv.x[v, c] for (v, c), (wc, _) in objective.costs.node.items() if scale(wc))
+    expr += sum(scale(wc) * mv.z[zi][0] for zi, wc, _, _ in objective.costs.pair if scale(wc))
+    m.add(expr <= int(math.floor((target - mv.constant) * scale.factor)))
+    # changes = channels newly set on existing systems
+    m.minimize(sum(mv.x[v, c] for (v, c) in mv.x if existing[v] and not old[v, c]))
+    model.hint(m, mv, start)
+    solver = cp_model.CpSolver()
+    solver.parameters.num_workers = settings.num_workers
+    solver.parameters.max_deterministic_time = seconds
+    solver.parameters.interleave_search = settings.num_workers > 1
+    status = solver.solve(m)
+    if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
+        return None, False
+    return model.solution(solver, mv, inst.allowed.shape), status == cp_model.OPTIMAL
+
+
+def _sequences(prep: PreparedSite, hop_sets, current: dict[str, CurrentSystem], seed: int,
+               packets: int) -> tuple[SequenceOutcome, list[bool]]:
+    """New sequences where hop sets (or a slot-aligned group's sets) changed; the current ones elsewhere."""
+    fresh, notes = build_sequences(prep, hop_sets, seed, delay_spread(prep))
+    ids = [s.id for s in prep.site.systems]
+    groups_changed = set()
+    for v, s in enumerate(prep.site.systems):
+        cur = current.get(s.id)
+        if s.time_base_group and (cur is None or sorted(cur.hop_set) != hop_sets[v].tolist()):
+            groups_changed.add(s.time_base_group)
+    out, changed = [], []
+    for v, seq in enumerate(fresh):
+        cur = current.get(ids[v])
+        same_set = cur is not None and sorted(cur.hop_set) == hop_sets[v].tolist()
+        keep = (same_set and cur.sequence is not None and sorted(cur.sequence) == hop_sets[v].tolist()
+                and prep.site.systems[v].time_base_group not in groups_changed)
+        if keep:
+            out.append(Sequence(system=v, channels=np.asarray(cur.sequence), construction="kept", component=-1,
+                                required_spacing=seq.required_spacing, group=seq.group))
+        else:
+            out.append(seq)
+        changed.append(not keep)
+    return outcome(prep, out, notes, packets, seed), changed
+
+
+def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[CurrentSystem], mode: ReplanMode,
+                settings: SolveSettings = SolveSettings()) -> ReplanResult:
+    cur = {c.id: c for c in current}
+    ids = [s.id for s in prep.site.systems]
+    removed = sorted(set(cur) - set(ids))
+    notes = []
+    fresh_req = PlanRequirements(**{**req.__dict__, "time_limit_s": 0.3 * req.time_limit_s, "baselines": ()})
+    fresh = plan_site(prep, fresh_req, settings, detail="system", with_sequences=False)
+    base = build_instance(prep, req)
+    old = _old_masks(base, cur)
+    existing = np.array([sid in cur for sid in ids])
+    inst = base.with_sizes(_sizes(base, old, cur))
+    x = repair(inst, old)
+    lower = lower_bound_changes(inst, old, existing)
+    target = None
+    if mode.kind == "tolerance":
+        target = (1.0 + mode.tolerance) * fresh.report.objective
+        x = _spend(inst, x, old, existing, None, target)
+    else:
+        if mode.max_changes is not None and lower > mode.max_changes:
+            raise PlanInfeasible([Conflict("change budget", tuple(ids[v] for v in range(len(ids)) if existing[v]),
+                                           f"at least {lower} channels must change (they are now excluded, or the "
+                                           f"counts grew), more than max_changes {mode.max_changes}",
+                                           relax=f"allow at least {lower} changes")])
+        x = _spend(inst, x, old, existing, mode.max_changes, None)
+    changes = changes_of(x, old, existing)
+    proven = changes == lower
+    value = objective_value(inst, system_estimates(inst, x))
+    if mode.kind == "tolerance" and value > target * (1 + 1e-12):
+        notes.append("the tolerance was not reached by the change-limited search; the plan is the best found")
+    if (mode.kind == "tolerance" and not proven and model.product_count(inst) <= settings.max_products):
+        cx, cp_proven = _cp_sat_minimum(inst, x, old, existing, max(value, target), settings, 0.5 * req.time_limit_s)
+        if cx is not None and changes_of(cx, old, existing) <= changes:
+            x, changes, proven = cx, changes_of(cx, old, existing), cp_proven
+            value = objective_value(inst, system_estimates(inst, x))
+    hop_sets = hop_sets_of(x)
+    seqs, seq_changed = _sequences(prep, hop_sets, cur, req.seed, req.sequence_packets)
+    assessment = assess_site(prep, hop_sets=hop_sets, origin="plan", sequences=seqs.orders)
+    before_sets = [np.array(sorted(cur[sid].hop_set)) if sid in cur else hop_sets[v] for v, sid in enumerate(ids)]
+    before = assess_site(prep, hop_sets=before_sets, detail="system", origin="current")
+    diffs = []
+    for v, sid in enumerate(ids):
+        if sid not in cur:
+            diffs.append(SystemDiff(sid, "new system", [], hop_sets[v].tolist(), True))
+            continue
+        dropped = sorted(set(np.flatnonzero(old[v]).tolist()) - set(hop_sets[v].tolist()))
+        added = sorted(set(hop_sets[v].tolist()) - set(np.flatnonzero(old[v]).tolist()))
+        diffs.append(SystemDiff(sid, "changed" if added or dropped else "kept", dropped, added, seq_changed[v]))
+    violations = validate_plan(base, hop_sets, assessment)
+    return ReplanResult(instance=inst, hop_sets=hop_sets, assessment=assessment, before=before, fresh=fresh,
+                        sequences=seqs, diffs=diffs, changes=changes, lower_bound=lower, proven_minimal=proven,
+                        objective=value, target=target, removed=removed, violations=violations, notes=notes)
