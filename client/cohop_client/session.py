@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import json
+import random
+import time
 from typing import Any, Callable, TypeVar
 from urllib.parse import quote
 
@@ -29,9 +31,17 @@ class Client:
     """
 
     def __init__(self, base_url: str, *, timeout_s: float = DEFAULT_TIMEOUT_S, token: str | None = None,
-                 session: requests.Session | None = None):
+                 session: requests.Session | None = None, retries: int = 3, backoff_s: float = 0.25,
+                 max_wait_s: float = 30.0):
+        """`retries`: how often to repeat a request that got 503 (service busy) or could not connect;
+        every endpoint is a pure computation, so repeating is safe. Waits follow the server's
+        Retry-After, else exponential backoff from `backoff_s` with jitter, each at most `max_wait_s`."""
         self.base_url = base_url.rstrip("/")
         self.timeout_s = timeout_s
+        self.retries = max(0, retries)
+        self.backoff_s = backoff_s
+        self.max_wait_s = max_wait_s
+        self._sleep = time.sleep
         self._own_session = session is None
         self._session = session or requests.Session()
         self._headers = {"Accept": "application/json, application/problem+json"}
@@ -101,7 +111,32 @@ class Client:
                                  f"({type(err).__name__}: {err}); is this a cohop service of a matching "
                                  "version?", url=self.base_url) from err
 
+    def _wait(self, attempt: int, retry_after: str | None) -> None:
+        try:
+            wait = float(retry_after) if retry_after is not None else None
+        except ValueError:
+            wait = None
+        if wait is None:
+            wait = self.backoff_s * 2**attempt * (0.5 + random.random())
+        self._sleep(min(max(0.0, wait), self.max_wait_s))
+
     def _call(self, method: str, path: str, body: dict | None = None) -> Any:
+        for attempt in range(self.retries + 1):
+            last = attempt == self.retries
+            try:
+                resp = self._send(method, path, body)
+            except TransportError as err:
+                if last or isinstance(err, RequestTimeout):
+                    raise
+                self._wait(attempt, None)
+                continue
+            if resp.status_code == 503 and not last:
+                self._wait(attempt, resp.headers.get("Retry-After"))
+                continue
+            return _decode(resp, self.base_url + path)
+        raise AssertionError("unreachable")
+
+    def _send(self, method: str, path: str, body: dict | None) -> requests.Response:
         url = self.base_url + path
         try:
             resp = self._session.request(method, url, json=body, headers=self._headers, timeout=self.timeout_s)
@@ -111,7 +146,7 @@ class Client:
             if _caused_by_timeout(err):  # requests reports a stall while reading the body this way
                 raise RequestTimeout(f"the answer from {url} stalled beyond {self.timeout_s:g} s", url=url) from err
             raise TransportError(f"could not reach {url}: {err}", url=url) from err
-        return _decode(resp, url)
+        return resp
 
 
 def _caused_by_timeout(err: BaseException) -> bool:

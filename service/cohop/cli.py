@@ -16,7 +16,7 @@ from cohop_client import Client, CohopError, InvalidRequest, NoFeasiblePlan
 
 
 SERVICE_PACKAGES = {"flask", "flask_smorest", "marshmallow", "numpy", "scipy", "ortools", "werkzeug", "webargs",
-                    "apispec"}
+                    "apispec", "gunicorn", "prometheus_client"}
 
 
 def _service_missing(err: ImportError) -> int:
@@ -57,8 +57,10 @@ def _add_surveys(args, body: dict) -> None:
     for path in args.survey:
         try:
             survey = read_survey(path)
-        except (OSError, SurveyFileError) as err:
-            raise SystemExit(f"cohop: survey {path}: {err}")
+        except SurveyFileError as err:
+            raise SystemExit(f"cohop: survey {err}")
+        except OSError as err:
+            raise SystemExit(f"cohop: cannot read survey {path}: {err.strerror}")
         body["site"].setdefault("surveys", []).append(survey)
 
 
@@ -220,10 +222,19 @@ def _cmd_samples(args) -> int:
 
 
 def _cmd_serve(args) -> int:
-    from cohop.api import create_app
+    if args.dev:
+        from cohop.api import create_app
 
-    print(f"cohop development server on http://{args.host}:{args.port} (not for production)", file=sys.stderr)
-    create_app().run(host=args.host, port=args.port)
+        print(f"cohop development server on http://{args.host}:{args.port} (not for production)", file=sys.stderr)
+        create_app().run(host=args.host, port=args.port)
+        return 0
+    os.environ["COHOP_BIND"] = f"{args.host}:{args.port}"
+    try:
+        from gunicorn.app.wsgiapp import run
+    except ImportError as err:
+        return _service_missing(err)
+    sys.argv = ["gunicorn", "-c", "python:cohop.gunicorn_conf"]
+    run()
     return 0
 
 
@@ -292,9 +303,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(func=_cmd_profiles)
     p = sub.add_parser("samples", help="list the embedded sample sites")
     p.set_defaults(func=_cmd_samples)
-    p = sub.add_parser("serve", help="run a development server")
+    p = sub.add_parser("serve", help="run the service (gunicorn; settings from COHOP_ variables)")
     p.add_argument("--host", default="127.0.0.1")
     p.add_argument("--port", type=int, default=8080)
+    p.add_argument("--dev", action="store_true", help="Flask's development server instead (single process)")
     p.set_defaults(func=_cmd_serve)
     return parser
 

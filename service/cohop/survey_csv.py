@@ -23,8 +23,8 @@ class SurveyFileError(ValueError):
 
 def read_survey(path: str | Path) -> dict:
     text = Path(path).read_text(encoding="utf-8")
-    meta, rows = {}, []
-    for line in text.splitlines():
+    meta, rows, line_of = {}, [], []
+    for number, line in enumerate(text.splitlines(), start=1):
         stripped = line.strip()
         if stripped.startswith("#"):
             key, _, value = stripped[1:].partition(":")
@@ -32,6 +32,7 @@ def read_survey(path: str | Path) -> dict:
                 meta[key.strip()] = value.strip()
         elif stripped:
             rows.append(stripped)
+            line_of.append(number)
     if not rows:
         raise SurveyFileError(f"{path}: no header row and no data")
     reader = csv.DictReader(rows)
@@ -40,13 +41,13 @@ def read_survey(path: str | Path) -> dict:
         raise SurveyFileError(f"{path}: the header must name {', '.join(sorted(missing))}")
     survey: dict = {k: ([] if k != "occupancy_fraction" or "occupancy_fraction" in reader.fieldnames else None)
                     for k in COLUMNS.values()}
-    for n, row in enumerate(reader, start=2):
+    for i, row in enumerate(reader, start=1):
         for col, key in COLUMNS.items():
             if col in row and survey.get(key) is not None:
                 try:
                     survey[key].append(float(row[col]))
                 except (TypeError, ValueError):
-                    raise SurveyFileError(f"{path}: row {n}: {col} {row[col]!r} is not a number") from None
+                    raise SurveyFileError(f"{path}: line {line_of[i]}: {col} {row[col]!r} is not a number") from None
     if survey["occupancy_fraction"] is None:
         del survey["occupancy_fraction"]
     for key, value in meta.items():

@@ -19,6 +19,11 @@ DEFAULTS = {
     "COHOP_MAX_PRODUCTS": 30_000,  # largest full CP-SAT model (pair booleans); larger sites use local search
     "COHOP_DETERMINISTIC": True,  # same request and seed, same plan
     "COHOP_PROGRESS_HOOK": None,  # in-process only: called with solver progress
+    "COHOP_TOKENS": (),  # bearer tokens; none: no authentication
+    "COHOP_METRICS_PUBLIC": False,
+    "COHOP_ISOLATE_SOLVES": False,  # production (create_app_from_env) runs each solve in its own process
+    "COHOP_SOLVE_SLOTS": 4,  # concurrent solves in this process; beyond, 503 with Retry-After
+    "COHOP_RETRY_AFTER_S": 5,
     "API_TITLE": "cohop",
     "API_VERSION": __version__,
     "OPENAPI_VERSION": "3.0.3",
@@ -64,10 +69,29 @@ def create_app(config: dict | None = None) -> flask.Flask:
     app.config.update(DEFAULTS)
     app.config.update(config or {})
     app.json.sort_keys = False
+    from cohop.api import auth, logs, metrics, solving
+
+    logs.register(app)
+    metrics.register(app)
+    auth.register(app)
     app.before_request(_require_json)
     api = CohopApi(app)
+    solving.register(app)
     from cohop.api.views import assessments, meta, plans, profiles, replans
 
     for blp in (assessments.blp, plans.blp, replans.blp, profiles.blp, meta.blp):
         api.register_blueprint(blp)
     return app
+
+
+def create_app_from_env() -> flask.Flask:
+    """The production app: settings from COHOP_ variables (validated), JSON logs, isolated solves."""
+    import logging
+
+    from cohop.api import logs
+    from cohop.config import from_env
+
+    settings = from_env()
+    logs.configure(settings.log_level)
+    logging.getLogger("cohop.start").info("settings " + str(settings.public()))
+    return create_app(settings.flask_config())

@@ -33,7 +33,7 @@ from cohop.planning.instance import PlanningInstance, build_instance
 from cohop.planning.linear import hop_sets_of, objective_value, system_estimates
 from cohop.planning.requirements import Conflict, PlanInfeasible, PlanRequirements
 from cohop.planning.search import Placement, _best_swap
-from cohop.planning.solve import PlanResult, SolveSettings, plan_site
+from cohop.planning.solve import PlanResult, SolveSettings, _independent, plan_site
 from cohop.planning.validate import Violation, validate_plan
 from cohop.prepare import PreparedSite
 from cohop.sequences.construct import Sequence, build_sequences
@@ -231,7 +231,7 @@ def _sequences(prep: PreparedSite, hop_sets, current: dict[str, CurrentSystem], 
     for v, seq in enumerate(fresh):
         cur = current.get(ids[v])
         same_set = cur is not None and sorted(cur.hop_set) == hop_sets[v].tolist()
-        keep = (same_set and cur.sequence is not None and sorted(cur.sequence) == hop_sets[v].tolist()
+        keep = (same_set and cur.sequence is not None and sorted(set(cur.sequence)) == hop_sets[v].tolist()
                 and prep.site.systems[v].time_base_group not in groups_changed)
         if keep:
             out.append(Sequence(system=v, channels=np.asarray(cur.sequence), construction="kept", component=-1,
@@ -250,7 +250,8 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
     notes = []
     fresh_req = PlanRequirements(**{**req.__dict__, "time_limit_s": 0.3 * req.time_limit_s, "baselines": ()})
     fresh = plan_site(prep, fresh_req, settings, detail="system", with_sequences=False)
-    base = build_instance(prep, req)
+    full = build_instance(prep, req)
+    base = _independent(full) if req.coordination == "independent" else full  # the objective the fresh plan used
     old = _old_masks(base, cur)
     existing = np.array([sid in cur for sid in ids])
     inst = base.with_sizes(_sizes(base, old, cur))
@@ -267,6 +268,11 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
                                            f"counts grew), more than max_changes {mode.max_changes}",
                                            relax=f"allow at least {lower} changes")])
         x = _spend(inst, x, old, existing, mode.max_changes, None)
+        if mode.max_changes is not None and changes_of(x, old, existing) > mode.max_changes:
+            raise PlanInfeasible([Conflict("change budget", tuple(ids[v] for v in range(len(ids)) if existing[v]),
+                                           f"no plan within {mode.max_changes} changes was found: keeping the "
+                                           f"current channels needs {changes_of(x, old, existing)} (separation, "
+                                           "guards or exclusions)", relax="allow more changes")], proven=False)
     changes = changes_of(x, old, existing)
     proven = changes == lower
     value = objective_value(inst, system_estimates(inst, x))
@@ -277,6 +283,8 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
         if cx is not None and changes_of(cx, old, existing) <= changes:
             x, changes, proven = cx, changes_of(cx, old, existing), cp_proven
             value = objective_value(inst, system_estimates(inst, x))
+            if proven:
+                lower = changes  # CP-SAT proved no plan within the target changes fewer
     hop_sets = hop_sets_of(x)
     seqs, seq_changed = _sequences(prep, hop_sets, cur, req.seed, req.sequence_packets)
     assessment = assess_site(prep, hop_sets=hop_sets, origin="plan", sequences=seqs.orders)
@@ -290,7 +298,7 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
         dropped = sorted(set(np.flatnonzero(old[v]).tolist()) - set(hop_sets[v].tolist()))
         added = sorted(set(hop_sets[v].tolist()) - set(np.flatnonzero(old[v]).tolist()))
         diffs.append(SystemDiff(sid, "changed" if added or dropped else "kept", dropped, added, seq_changed[v]))
-    violations = validate_plan(base, hop_sets, assessment)
+    violations = validate_plan(full, hop_sets, assessment)
     return ReplanResult(instance=inst, hop_sets=hop_sets, assessment=assessment, before=before, fresh=fresh,
                         sequences=seqs, diffs=diffs, changes=changes, lower_bound=lower, proven_minimal=proven,
                         objective=value, target=target, removed=removed, violations=violations, notes=notes)

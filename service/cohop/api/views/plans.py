@@ -5,18 +5,13 @@ from __future__ import annotations
 from flask import current_app
 from flask.views import MethodView
 
+from cohop.api import solving
 from cohop.api.blueprint import Blueprint
-from cohop.api.present import plan_dict
 from cohop.api.schemas.plan import InfeasibleProblemSchema, PlanRequestSchema, PlanResponseSchema
-from cohop.planning.run import run_plan
-from cohop.planning.solve import SolveSettings
 
 blp = Blueprint("plans", __name__, url_prefix="/v1", description="Plan hop sets")
 
-
-def solve_settings(config) -> SolveSettings:
-    return SolveSettings(num_workers=config["COHOP_SOLVER_WORKERS"], max_time_s=config["COHOP_MAX_SOLVE_S"],
-                         max_products=config["COHOP_MAX_PRODUCTS"], deterministic=config["COHOP_DETERMINISTIC"])
+solve_settings = solving.solve_settings  # kept for importers
 
 
 @blp.route("/plans")
@@ -28,9 +23,12 @@ class Plans(MethodView):
     @blp.alt_response(415, response="UNSUPPORTED_MEDIA_TYPE")
     @blp.alt_response(422, schema=InfeasibleProblemSchema, content_type="application/problem+json",
                       description="Invalid request, or no plan meets the requirements (with the conflicting ones)")
+    @blp.alt_response(503, response="SERVICE_UNAVAILABLE", headers={"Retry-After": {
+        "description": "Seconds to wait before trying again", "schema": {"type": "integer"}}})
     def post(self, body):
         """Plan each system's hop set; returns the plan, its full assessment and the solver report."""
         config = current_app.config
-        result = run_plan(body["site"], body["requirements"], solve_settings(config),
-                          config.get("COHOP_PROGRESS_HOOK"), body["detail"])
-        return plan_dict(result)
+        args = (body["site"], body["requirements"], solving.solve_settings(config), body["detail"])
+        if not config["COHOP_ISOLATE_SOLVES"]:
+            args += (config.get("COHOP_PROGRESS_HOOK"),)
+        return solving.run("plan", solving.plan_job, *args)

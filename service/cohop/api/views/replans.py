@@ -5,11 +5,9 @@ from __future__ import annotations
 from flask import current_app
 from flask.views import MethodView
 
+from cohop.api import solving
 from cohop.api.blueprint import Blueprint
-from cohop.api.present import replan_dict
 from cohop.api.schemas.plan import InfeasibleProblemSchema, ReplanRequestSchema, ReplanResponseSchema
-from cohop.api.views.plans import solve_settings
-from cohop.planning.run import run_replan
 
 blp = Blueprint("replans", __name__, url_prefix="/v1", description="Re-plan with few changes")
 
@@ -23,8 +21,10 @@ class Replans(MethodView):
     @blp.alt_response(415, response="UNSUPPORTED_MEDIA_TYPE")
     @blp.alt_response(422, schema=InfeasibleProblemSchema, content_type="application/problem+json",
                       description="Invalid request, or no re-plan meets the requirements (with the conflicting ones)")
+    @blp.alt_response(503, response="SERVICE_UNAVAILABLE", headers={"Retry-After": {
+        "description": "Seconds to wait before trying again", "schema": {"type": "integer"}}})
     def post(self, body):
         """Re-plan from the current plan: fewest changes within a tolerance, or best plan within a budget."""
-        result = run_replan(body["site"], body["requirements"], body["current"], body["mode"],
-                            solve_settings(current_app.config))
-        return replan_dict(result, body["mode"])
+        settings = solving.solve_settings(current_app.config)
+        return solving.run("replan", solving.replan_job, body["site"], body["requirements"], body["current"],
+                           body["mode"], settings)
