@@ -59,6 +59,10 @@ def post_worker_init(worker):
             previous(signum, frame)
 
     signal.signal(signal.SIGTERM, draining)
+    if _settings.isolate_solves:
+        from cohop.isolation import warm
+
+        warm()  # the solver fork server starts with the worker, so memory is steady from the first request
 
 
 def child_exit(server, worker):

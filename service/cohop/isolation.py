@@ -36,6 +36,15 @@ def _ctx():
         return _context
 
 
+def _noop() -> None:
+    return None
+
+
+def warm() -> None:
+    """Start the fork server now (it loads the solver modules once), not on the first solve."""
+    run_isolated(_noop, timeout_s=120)
+
+
 def _child(conn, func, args):
     try:
         conn.send(("ok", func(*args)))

@@ -9,9 +9,15 @@ from marshmallow import fields, validate
 
 
 class Number(fields.Float):
-    """A finite JSON number. Rejects strings, booleans, NaN and infinity."""
+    """A finite JSON number. Rejects strings, booleans, NaN and infinity.
+
+    An exclusive lower bound is written into the OpenAPI document too (apispec leaves it out)."""
 
     def __init__(self, **kwargs):
+        checks = kwargs.get("validate")
+        checks = checks if isinstance(checks, (list, tuple)) else [checks]
+        if any(isinstance(c, validate.Range) and c.min is not None and not c.min_inclusive for c in checks):
+            kwargs["metadata"] = {**kwargs.get("metadata", {}), "exclusiveMinimum": True}
         super().__init__(allow_nan=False, **kwargs)
 
     def _deserialize(self, value, attr, data, **kwargs):

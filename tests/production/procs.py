@@ -1,0 +1,104 @@
+"""Finding solver processes and running the real server, for fault tests."""
+
+from __future__ import annotations
+
+import os
+import socket
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import requests
+
+
+def _stat(pid: int) -> tuple[int, str] | None:
+    try:
+        text = Path(f"/proc/{pid}/stat").read_text()
+        cmd = Path(f"/proc/{pid}/cmdline").read_bytes().replace(b"\0", b" ").decode(errors="replace")
+    except OSError:
+        return None
+    ppid = int(text[text.rindex(")") + 2:].split()[1])
+    return ppid, cmd
+
+
+def descendants(root: int) -> dict[int, str]:
+    table = {}
+    for entry in os.listdir("/proc"):
+        if entry.isdigit():
+            st = _stat(int(entry))
+            if st:
+                table[int(entry)] = st
+    out, frontier = {}, [root]
+    while frontier:
+        parent = frontier.pop()
+        for pid, (ppid, cmd) in table.items():
+            if ppid == parent and pid not in out:
+                out[pid] = cmd
+                frontier.append(pid)
+    return out
+
+
+def solver_processes(root: int) -> list[int]:
+    """Children of a multiprocessing fork server below `root` (each runs one solve)."""
+    procs = descendants(root)
+    servers = {pid for pid, cmd in procs.items() if "forkserver" in cmd}
+    out = []
+    for pid in procs:
+        st = _stat(pid)
+        if st is not None and st[0] in servers:
+            out.append(pid)
+    return out
+
+
+def wait_for(predicate, timeout_s: float = 20.0, step_s: float = 0.05):
+    end = time.monotonic() + timeout_s
+    while time.monotonic() < end:
+        value = predicate()
+        if value:
+            return value
+        time.sleep(step_s)
+    return None
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+class Server:
+    """The real server (gunicorn via `cohop serve`) on loopback."""
+
+    def __init__(self, **env):
+        self.port = free_port()
+        self.url = f"http://127.0.0.1:{self.port}"
+        full = {**os.environ, "COHOP_CPUS": "2", "COHOP_SOLVER_THREADS": "1", "COHOP_WORKERS": "1",
+                "COHOP_MAX_SOLVE_S": "10", "COHOP_GRACEFUL_TIMEOUT_S": "30", **{k: str(v) for k, v in env.items()}}
+        full.pop("PROMETHEUS_MULTIPROC_DIR", None)
+        self.proc = subprocess.Popen([sys.executable, "-m", "cohop", "serve", "--port", str(self.port)], env=full,
+                                     stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
+
+    def __enter__(self):
+        ok = wait_for(self._healthy, 30)
+        if not ok:
+            self.stop()
+            raise RuntimeError("server did not start: " + (self.proc.stdout.read() if self.proc.stdout else ""))
+        return self
+
+    def _healthy(self):
+        try:
+            return requests.get(self.url + "/v1/health", timeout=1).ok
+        except requests.RequestException:
+            return False
+
+    def stop(self):
+        if self.proc.poll() is None:
+            self.proc.terminate()
+            try:
+                self.proc.wait(30)
+            except subprocess.TimeoutExpired:
+                self.proc.kill()
+
+    def __exit__(self, *exc):
+        self.stop()

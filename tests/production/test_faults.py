@@ -1,0 +1,103 @@
+"""Fault tests on the real thing: a killed solver, SIGTERM during a solve, client retries on 503."""
+
+import copy
+import signal
+import threading
+import time
+
+import pytest
+import requests
+
+from cohop import samples
+from cohop.api import create_app
+from cohop_client import Client, ServerError
+from tests.production.procs import Server, solver_processes, wait_for
+
+
+def _plan_body(seconds: float) -> dict:
+    body = copy.deepcopy(samples.load("water_works_us915"))
+    body["search"] = {"time_limit_s": seconds, "sequence_packets": 1000}
+    return body
+
+
+def test_a_killed_solver_fails_the_request_cleanly_in_process():
+    import os
+
+    app = create_app({"TESTING": True, "COHOP_ISOLATE_SOLVES": True})
+    client = app.test_client()
+    answers = []
+    thread = threading.Thread(target=lambda: answers.append(client.post("/v1/plans", json=_plan_body(8))))
+    thread.start()
+    victims = wait_for(lambda: solver_processes(os.getpid()), 30)
+    assert victims, "no solver process appeared"
+    for pid in victims:
+        os.kill(pid, signal.SIGKILL)
+    thread.join(60)
+    resp = answers[0]
+    assert resp.status_code == 500
+    assert resp.json["type"] == "urn:cohop:problem:solver-failed"
+    assert client.post("/v1/plans", json=_plan_body(0.3)).status_code == 200  # the next one is served
+
+
+@pytest.fixture(scope="module")
+def server():
+    with Server(COHOP_RETRY_AFTER_S=1) as s:
+        yield s
+
+
+def test_a_killed_solver_on_the_real_server(server):
+    import os
+
+    answers = []
+    thread = threading.Thread(target=lambda: answers.append(requests.post(server.url + "/v1/plans",
+                                                                          json=_plan_body(8), timeout=60)))
+    thread.start()
+    victims = wait_for(lambda: solver_processes(server.proc.pid), 30)
+    assert victims
+    for pid in victims:
+        os.kill(pid, signal.SIGKILL)
+    thread.join(60)
+    assert answers[0].status_code == 500 and answers[0].headers["Content-Type"] == "application/problem+json"
+    assert requests.post(server.url + "/v1/plans", json=_plan_body(0.3), timeout=60).status_code == 200
+
+
+def test_client_retries_503_honouring_retry_after(server):
+    long = threading.Thread(target=lambda: requests.post(server.url + "/v1/plans", json=_plan_body(3), timeout=60))
+    long.start()
+    wait_for(lambda: solver_processes(server.proc.pid), 30)
+    waits = []
+    with Client(server.url, retries=0) as impatient:
+        with pytest.raises(ServerError) as err:
+            impatient.plan(_plan_body(0.3)["site"], search={"time_limit_s": 0.3})
+        assert err.value.status == 503
+    with Client(server.url, retries=10, max_wait_s=5) as api:
+        real_sleep = api._sleep
+        api._sleep = lambda s: (waits.append(s), real_sleep(s))
+        result = api.plan(_plan_body(0.3)["site"], search={"time_limit_s": 0.3, "sequence_packets": 1000})
+    long.join(60)
+    assert result.solver.status in ("optimal", "feasible")
+    assert waits and all(w == 1.0 for w in waits)  # the server's Retry-After, not the backoff
+
+
+def test_connection_errors_back_off_and_give_up():
+    waits = []
+    api = Client("http://127.0.0.1:9", retries=2, backoff_s=0.01)
+    api._sleep = waits.append
+    with pytest.raises(Exception):
+        api.health()
+    assert len(waits) == 2 and waits[1] > waits[0] * 0.5  # exponential with jitter, capped at max_wait_s
+
+
+def test_sigterm_during_a_solve_finishes_it_then_exits():
+    with Server() as s:
+        answers = []
+        thread = threading.Thread(target=lambda: answers.append(requests.post(s.url + "/v1/plans",
+                                                                              json=_plan_body(3), timeout=60)))
+        thread.start()
+        assert wait_for(lambda: solver_processes(s.proc.pid), 30)
+        started = time.monotonic()
+        s.proc.send_signal(signal.SIGTERM)
+        thread.join(60)
+        assert answers and answers[0].status_code == 200  # in flight: finished and answered
+        assert s.proc.wait(40) == 0  # then the server exits by itself
+        assert time.monotonic() - started < 35
