@@ -253,6 +253,30 @@ class Ceilings:
                 ct.only_enforce_if(lit)
 
 
+def weighted_sum(mv: ModelVars, objective: Objective, scale: Scale):
+    """The scaled weighted-sum objective (without the plan-independent constant)."""
+    costs = objective.costs
+    expr = sum(scale(wc) * mv.x[v, c] for (v, c), (wc, _) in costs.node.items() if scale(wc))
+    return expr + sum(scale(wc) * mv.z[zi][0] for zi, wc, _, _ in costs.pair if scale(wc))
+
+
+def full_model(inst: PlanningInstance, start: np.ndarray | None = None):
+    """Every hard requirement and the objective's pair booleans, with the integer scale of the costs and the
+    loss ceilings; the caller sets what to minimise. Returns (model, vars, objective group, scale)."""
+    m = cp_model.CpModel()
+    mv = ModelVars()
+    objective = Objective()
+    for g in (ChannelVariables(), ChannelCounts(), Pins(), Separation(), Guards(), objective):
+        g.add(m, mv, inst, lambda kind, key: None)
+    c = objective.costs
+    costs = [w for pair in c.node.values() for w in pair] + [w for _, wc, cv, ca in c.pair for w in (wc, cv, ca)]
+    scale = Scale.choose(np.array(costs))
+    Ceilings(objective, scale).add(m, mv, inst, lambda kind, key: None)
+    if start is not None:
+        hint(m, mv, start)
+    return m, mv, objective, scale
+
+
 def minimise(m: cp_model.CpModel, mv: ModelVars, inst: PlanningInstance, objective: Objective, scale: Scale):
     """Set the objective: weighted sum, or the worst system's estimate (unweighted)."""
     costs = objective.costs
@@ -269,8 +293,7 @@ def minimise(m: cp_model.CpModel, mv: ModelVars, inst: PlanningInstance, objecti
             m.add(worst >= sum(terms) + scale(_constant_of(inst, v)))
         m.minimize(worst)
         return worst
-    expr = sum(scale(wc) * mv.x[v, c] for (v, c), (wc, _) in costs.node.items() if scale(wc))
-    expr += sum(scale(wc) * mv.z[zi][0] for zi, wc, _, _ in costs.pair if scale(wc))
+    expr = weighted_sum(mv, objective, scale)
     m.minimize(expr)
     return expr
 

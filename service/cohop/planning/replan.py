@@ -138,26 +138,15 @@ def changes_of(x: np.ndarray, old: np.ndarray, existing: np.ndarray) -> int:
 
 
 def _free_or_paid_move(place: Placement, old: np.ndarray, paid: bool) -> tuple[float, int, int, int] | None:
-    """Best swap per system restricted to free moves (the channel leaving was already a change) or to paid
-    ones (a kept channel leaves); returns (delta, v, c_out, c_in) of the best improving one."""
-    inst = place.inst
+    """Best improving swap over all systems, restricted to free moves (the channel leaving was already a
+    change) or to paid ones (a kept channel leaves); (delta, v, c_out, c_in) or None."""
     best = None
-    for v in range(inst.n_systems):
-        m = place.table.m[v]
-        held = np.flatnonzero(place.x[v] & ~inst.pinned[v] & (old[v] if paid else ~old[v]))
-        if held.size == 0:
-            continue
-        sep = int(inst.separation[v])
-        base = inst.allowed[v] & (place.guarded[v] == 0) & ~place.x[v]
-        grid = np.arange(inst.n_channels)
-        near = np.abs(grid[None, :] - held[:, None]) < sep
-        ok = base[None, :] & ((place.own[v] == 0)[None, :] | ((place.own[v] == 1)[None, :] & near))
-        delta = np.where(ok, m[None, :] - m[held][:, None], np.inf)
-        i, c_in = np.unravel_index(int(np.argmin(delta)), delta.shape)
-        d = float(delta[i, c_in])
-        scale = max(float(np.abs(m).max()), 1e-300)
-        if d < -1e-12 * scale and (best is None or d < best[0]):
-            best = (d, v, int(held[i]), int(c_in))
+    for v in range(place.inst.n_systems):
+        leaving = old[v] if paid else ~old[v]
+        delta, c_out, c_in = _best_swap(place, v, leaving)
+        scale = max(float(np.abs(place.table.m[v]).max()), 1e-300)
+        if c_out >= 0 and delta < -1e-12 * scale and (best is None or delta < best[0]):
+            best = (delta, v, c_out, c_in)
     return best
 
 
@@ -193,20 +182,10 @@ def _spend(inst, x, old, existing, budget: int | None, target: float | None) -> 
 
 def _cp_sat_minimum(inst, start, old, existing, target, settings: SolveSettings, seconds: float):
     """Minimise changes subject to the objective target on the full model; (x, proven) or (None, False)."""
-    m = cp_model.CpModel()
-    mv = model.ModelVars()
-    objective = model.Objective()
-    for g in (model.ChannelVariables(), model.ChannelCounts(), model.Pins(), model.Separation(), model.Guards(),
-              objective):
-        g.add(m, mv, inst, lambda kind, key: None)
-    costs = [wc for wc, _ in objective.costs.node.values()] + [wc for _, wc, _, _ in objective.costs.pair]
-    scale = model.Scale.choose(np.array(costs))
-    expr = sum(scale(wc) * mv.x[v, c] for (v, c), (wc, _) in objective.costs.node.items() if scale(wc))
-    expr += sum(scale(wc) * mv.z[zi][0] for zi, wc, _, _ in objective.costs.pair if scale(wc))
-    m.add(expr <= int(math.floor((target - mv.constant) * scale.factor)))
+    m, mv, objective, scale = model.full_model(inst, start)
+    m.add(model.weighted_sum(mv, objective, scale) <= int(math.floor((target - mv.constant) * scale.factor)))
     # changes = channels newly set on existing systems
     m.minimize(sum(mv.x[v, c] for (v, c) in mv.x if existing[v] and not old[v, c]))
-    model.hint(m, mv, start)
     solver = cp_model.CpSolver()
     solver.parameters.num_workers = settings.num_workers
     solver.parameters.max_deterministic_time = seconds

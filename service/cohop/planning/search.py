@@ -72,10 +72,11 @@ def greedy(inst: PlanningInstance, weights: np.ndarray | None = None) -> np.ndar
     return place.x.copy()
 
 
-def _best_swap(place: Placement, v: int) -> tuple[float, int, int]:
+def _best_swap(place: Placement, v: int, leaving: np.ndarray | None = None) -> tuple[float, int, int]:
+    """(delta, c_out, c_in) of v's best swap; only channels in `leaving` (boolean over the grid) may go."""
     inst = place.inst
     m = place.table.m[v]
-    held = np.flatnonzero(place.x[v] & ~inst.pinned[v])
+    held = np.flatnonzero(place.x[v] & ~inst.pinned[v] & (True if leaving is None else leaving))
     if held.size == 0:
         return 0.0, -1, -1
     base = inst.allowed[v] & (place.guarded[v] == 0) & ~place.x[v]

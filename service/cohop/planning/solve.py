@@ -118,21 +118,9 @@ class _Callback(cp_model.CpSolverSolutionCallback):
 def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget_s: float, settings: SolveSettings,
             clock: _Clock):
     """Solve the full model (improving `start` if given); returns (x, proven bound, status name)."""
-    m = cp_model.CpModel()
-    mv = model.ModelVars()
-    objective = model.Objective()
-    for g in (model.ChannelVariables(), model.ChannelCounts(), model.Pins(), model.Separation(), model.Guards(),
-              objective):
-        g.add(m, mv, inst, lambda kind, key: None)
-    costs = [wc for wc, _ in objective.costs.node.values()] + [wc for _, wc, _, _ in objective.costs.pair]
-    costs += [own for _, own in objective.costs.node.values()] + [c for _, _, cv, ca in objective.costs.pair
-                                                                    for c in (cv, ca)]
-    scale = model.Scale.choose(np.array(costs))
-    model.Ceilings(objective, scale).add(m, mv, inst, lambda kind, key: None)
+    m, mv, objective, scale = model.full_model(inst, start)
     worst = inst.req.objective == "worst_system"
     model.minimise(m, mv, inst, objective, scale)
-    if start is not None:
-        model.hint(m, mv, start)
     solver = cp_model.CpSolver()
     p = solver.parameters
     p.num_workers = settings.num_workers
