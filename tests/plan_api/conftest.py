@@ -15,7 +15,6 @@ import pytest
 from openapi_schema_validator import OAS30Validator
 
 from cohop import samples
-from cohop.api.app import create_app
 from tests import recompute
 
 PLANS = "/v1/plans"
@@ -178,14 +177,6 @@ def check_comparison(answer: dict) -> None:
     assert comp["ratio"] == pytest.approx(answer["solver"]["evaluated_objective"] / best["objective"], rel=TOL)
 
 
-@pytest.fixture(scope="session")
-def app():
-    return create_app({"TESTING": True})
-
-
-@pytest.fixture(scope="session")
-def client(app):
-    return app.test_client()
 
 
 def post_plan(client, body, *, content_type: str = "application/json"):

@@ -6,7 +6,8 @@ import json
 
 import pytest
 
-from cohop import cli, samples
+from cohop import samples
+from tests.cli_helpers import run_cli
 from cohop.api.app import create_app
 from cohop.embedded import EMBEDDED_URL, embedded_session
 from cohop_client import (Assessment, Client, CohopError, Conflict, InvalidRequest, NoFeasiblePlan, Plan,
@@ -106,15 +107,6 @@ def test_client_invalid_plan_request(api):
 
 # --- command line -----------------------------------------------------------------
 
-def run(capsys, *argv):
-    try:
-        code = cli.main(list(argv))
-    except SystemExit as exc:
-        code = exc.code
-    out, err = capsys.readouterr()
-    return code, out, err
-
-
 @pytest.fixture
 def request_file(tmp_path):
     path = tmp_path / "plan.json"
@@ -123,7 +115,7 @@ def request_file(tmp_path):
 
 
 def test_cli_plan_table_with_comparison(capsys, request_file):
-    code, out, err = run(capsys, "plan", str(request_file), "--time-limit", "1", "--compare")
+    code, out, err = run_cli(capsys, "plan", str(request_file), "--time-limit", "1", "--compare")
     assert code == 0, err
     for sid in IDS:
         assert sid in out
@@ -137,7 +129,7 @@ def test_cli_plan_table_with_comparison(capsys, request_file):
 
 def test_cli_plan_json_and_options(capsys, request_file, tmp_path):
     saved = tmp_path / "answer.json"
-    code, out, err = run(capsys, "plan", str(request_file), "--time-limit", "1", "--json", "--save", str(saved),
+    code, out, err = run_cli(capsys, "plan", str(request_file), "--time-limit", "1", "--json", "--save", str(saved),
                          "--objective", "worst_system", "--coordination", "independent", "--seed", "3",
                          "--workers", "1")
     assert code == 0, err
@@ -152,7 +144,7 @@ def test_cli_plan_json_and_options(capsys, request_file, tmp_path):
 
 def test_cli_plan_save_with_table(capsys, request_file, tmp_path):
     saved = tmp_path / "answer.json"
-    code, out, err = run(capsys, "plan", str(request_file), "--time-limit", "1", "--save", str(saved))
+    code, out, err = run_cli(capsys, "plan", str(request_file), "--time-limit", "1", "--save", str(saved))
     assert code == 0, err
     assert "proven bound" in out and f"full answer written to {saved}" in out
     answer = json.loads(saved.read_text(encoding="utf-8"))
@@ -164,7 +156,7 @@ def test_cli_bare_site_file(capsys, tmp_path):
     """A bare site (no request wrapper) plans with the profile's defaults."""
     path = tmp_path / "site.json"
     path.write_text(json.dumps(small_request()["site"]), encoding="utf-8")
-    code, out, err = run(capsys, "plan", str(path), "--time-limit", "1", "--json")
+    code, out, err = run_cli(capsys, "plan", str(path), "--time-limit", "1", "--json")
     assert code == 0, err
     assert [p["id"] for p in json.loads(out)["plan"]] == list(IDS)
 
@@ -172,7 +164,7 @@ def test_cli_bare_site_file(capsys, tmp_path):
 def test_cli_plan_infeasible_exit_code(capsys, tmp_path):
     path = tmp_path / "impossible.json"
     path.write_text(json.dumps(_infeasible_body()), encoding="utf-8")
-    code, out, err = run(capsys, "plan", str(path), "--time-limit", "1")
+    code, out, err = run_cli(capsys, "plan", str(path), "--time-limit", "1")
     assert code == 3
     assert "conflicting requirements" in err and "no plan meets the requirements" in err
     assert "a needs 40 channels" in err and "relax:" in err
@@ -184,13 +176,13 @@ def test_cli_plan_invalid_request(capsys, tmp_path):
     requirement(body, "a")["pinned_channels"] = [99]
     path = tmp_path / "bad.json"
     path.write_text(json.dumps(body), encoding="utf-8")
-    code, _, err = run(capsys, "plan", str(path), "--time-limit", "1")
+    code, _, err = run_cli(capsys, "plan", str(path), "--time-limit", "1")
     assert code == 1
     assert "/requirements/systems/0/pinned_channels/0" in err
 
 
 def test_cli_plan_default_sample(capsys):
-    code, out, err = run(capsys, "plan", "--time-limit", "1")
+    code, out, err = run_cli(capsys, "plan", "--time-limit", "1")
     assert code == 0, err
     assert "water_works_us915" in err
     for s in samples.load("water_works_us915")["site"]["systems"]:

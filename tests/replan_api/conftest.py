@@ -13,7 +13,6 @@ import json
 import pytest
 
 from cohop import samples
-from cohop.api.app import create_app
 from tests import recompute
 
 REPLANS = "/v1/replans"
@@ -147,14 +146,6 @@ def check_sequences(body: dict, answer: dict) -> None:
 
 # --- fixtures ------------------------------------------------------------------------
 
-@pytest.fixture(scope="session")
-def app():
-    return create_app({"TESTING": True})
-
-
-@pytest.fixture(scope="session")
-def client(app):
-    return app.test_client()
 
 
 @pytest.fixture(scope="session")
