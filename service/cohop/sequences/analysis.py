@@ -82,16 +82,14 @@ def _harm(prep: PreparedSite, v: int, a: int, cv, ca) -> np.ndarray:
 
 
 def longest_true_run(hits: np.ndarray) -> int:
-    """Longest run of True along the last axis, over every row."""
-    h = np.atleast_2d(hits).astype(np.int8)
-    padded = np.concatenate([np.zeros((h.shape[0], 1), np.int8), h, np.zeros((h.shape[0], 1), np.int8)], axis=1)
-    edges = np.diff(padded, axis=1)
-    best = 0
-    for row in edges:
-        starts, ends = np.flatnonzero(row == 1), np.flatnonzero(row == -1)
-        if starts.size:
-            best = max(best, int((ends - starts).max()))
-    return best
+    """Longest run of True along the last axis, over every row: at each True, the distance back to the
+    row's latest False (or to before its start) is the length of the run ending there."""
+    h = np.atleast_2d(np.asarray(hits, dtype=bool))
+    if h.size == 0:
+        return 0
+    idx = np.arange(h.shape[1])
+    last_false = np.maximum.accumulate(np.where(h, -1, idx[None, :]), axis=1)
+    return int((idx[None, :] - last_false).max(initial=0))
 
 
 #: Time offsets of the other sequence tried when looking for the longest run.

@@ -75,24 +75,23 @@ def _system_hits(rng, prep: PreparedSite, v: int, a: int, seq_v: np.ndarray, seq
     """(packets, hops): a hits v's hop."""
     w = int(prep.window[v, a])
     n = start.size
-    if w < 0:
+    if w < 0 or np.abs(np.subtract.outer(seq_v, seq_a)).min() > w:  # a never comes inside v's window
         return np.zeros((n, hops), dtype=bool)
     sv, sa = prep.site.systems[v], prep.site.systems[a]
     t0 = (start[:, None] + np.arange(hops)[None, :]) * sv.dwell_s  # packet starts on each hop
     # a random time offset over a's whole period (its sequence is not tied to v's), unless slot-aligned
     phase = np.zeros((n, 1)) if prep.links[v][a].aligned else rng.random((n, 1)) * sa.dwell_s * seq_a.size
     chan_v = seq_v[(start[:, None] + np.arange(hops)[None, :]) % seq_v.size]
-    hit = np.zeros((n, hops), dtype=bool)
+    exposures = np.zeros((n, hops), dtype=np.int8)  # a's packets that overlap v's and sit in its window
     span = math.ceil((sv.packet_airtime_s + sa.packet_airtime_s) / sa.dwell_s) + 1
     first = np.floor((t0 - sa.packet_airtime_s - phase) / sa.dwell_s).astype(np.int64)
     for j in range(span + 1):
         m = first + j
         begin = m * sa.dwell_s + phase
         overlaps = (begin < t0 + sv.packet_airtime_s) & (begin + sa.packet_airtime_s > t0)
-        active = rng.random((n, hops)) < sa.activity_fraction
-        near = np.abs(seq_a[m % seq_a.size] - chan_v) <= w
-        hit |= overlaps & active & near
-    return hit
+        exposures += overlaps & (np.abs(seq_a[m % seq_a.size] - chan_v) <= w)
+    # each exposed dwell transmits independently with a's activity: one draw per hop for all of them
+    return rng.random((n, hops)) < 1.0 - (1.0 - sa.activity_fraction) ** exposures
 
 
 def _interferer_hits(rng, prep: PreparedSite, v: int, k: int, chan_v: np.ndarray, t0: np.ndarray) -> np.ndarray:
