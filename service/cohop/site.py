@@ -156,7 +156,9 @@ class Interferer:
 
 @dataclass(frozen=True)
 class Survey:
-    """A measured spectrum trace at the receivers of `applies_to`.
+    """A measured spectrum trace at the receivers of `applies_to`, or at a
+    `position` standing for every system whose receivers lie within
+    `radius_m` of it on the same floor.
 
     Each point is the power the analyser read in its resolution bandwidth at
     that frequency; `occupancy_fraction`, if given, is the share of sweeps
@@ -164,10 +166,12 @@ class Survey:
     """
 
     id: str
-    applies_to: tuple[str, ...]
     frequencies_hz: tuple[float, ...]
     levels_dbm: tuple[float, ...]
     resolution_bandwidth_hz: float
+    applies_to: tuple[str, ...] = ()
+    position: Position | None = None
+    radius_m: float = 10.0
     detector: str = "rms"
     occupancy_fraction: tuple[float, ...] | None = None
     label: str = ""

@@ -1,7 +1,8 @@
 """Read a spectrum survey from a plain CSV file (for the command line).
 
 Format: optional comment lines `# key: value` for the survey's fields
-(`id`, `applies_to` as a comma-separated list, `resolution_bandwidth_hz`,
+(`id`, `applies_to` as a comma-separated list, or `position` as `x_m, y_m`
+or `x_m, y_m, floor` with an optional `radius_m`; `resolution_bandwidth_hz`,
 `detector`, `detection_margin_db`, `noise_bandwidth_factor`, `label`), then
 a header row naming the columns `frequency_hz`, `level_dbm` and, optionally,
 `occupancy_fraction`, then one row per trace point. Values are checked by the
@@ -13,7 +14,7 @@ from __future__ import annotations
 import csv
 from pathlib import Path
 
-NUMBERS = {"resolution_bandwidth_hz", "detection_margin_db", "noise_bandwidth_factor"}
+NUMBERS = {"resolution_bandwidth_hz", "detection_margin_db", "noise_bandwidth_factor", "radius_m"}
 COLUMNS = {"frequency_hz": "frequencies_hz", "level_dbm": "levels_dbm", "occupancy_fraction": "occupancy_fraction"}
 
 
@@ -53,6 +54,8 @@ def read_survey(path: str | Path) -> dict:
     for key, value in meta.items():
         if key == "applies_to":
             survey[key] = [s.strip() for s in value.split(",") if s.strip()]
+        elif key == "position":
+            survey[key] = _position(path, value)
         elif key in NUMBERS:
             try:
                 survey[key] = float(value)
@@ -62,3 +65,17 @@ def read_survey(path: str | Path) -> dict:
             survey[key] = value
     survey.setdefault("id", Path(path).stem.replace(" ", "-"))
     return survey
+
+
+def _position(path, value: str) -> dict:
+    parts = [p.strip() for p in value.split(",")]
+    try:
+        numbers = [float(p) for p in parts]
+    except ValueError:
+        numbers = []
+    if len(numbers) not in (2, 3) or (len(numbers) == 3 and not numbers[2].is_integer()):
+        raise SurveyFileError(f"{path}: position {value!r} must be 'x_m, y_m' or 'x_m, y_m, floor'")
+    out = {"x_m": numbers[0], "y_m": numbers[1]}
+    if len(numbers) == 3:
+        out["floor"] = int(numbers[2])
+    return out

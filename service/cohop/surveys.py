@@ -10,18 +10,21 @@ within 3 dB and whose occupancy agrees within 0.1 become one interferer
 spanning the run's channel centres, with the run's mean channel power in the
 victim's channel and its mean occupancy as activity (1 without occupancy
 data: continuous, the cautious reading). A survey speaks only for the
-receivers where it was taken: the interferers it yields reach the other
-systems at a negligible level.
+receivers where it was taken: the systems it names, or, for a survey taken
+at a position, the systems whose receivers (their `position`) lie on the
+same floor within the survey's radius. The interferers it yields reach the
+other systems at a negligible level.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 
 import numpy as np
 
 from cohop.physics.spectrum import channel_power_mw, mw_to_dbm, share_occupied
-from cohop.site import Interferer, InterfererLevel, Site, Survey
+from cohop.site import Interferer, InterfererLevel, Site, Survey, System
 
 #: Level of a survey-derived interferer at systems the survey does not apply to [dBm].
 ELSEWHERE_DBM = -250.0
@@ -66,11 +69,25 @@ def _runs(occupied: np.ndarray, levels: np.ndarray, activity: np.ndarray) -> lis
     return out
 
 
+def distance_m(survey: Survey, system: System) -> float | None:
+    """Horizontal distance from a position survey to a system's receivers; None off its floor or unknown."""
+    if survey.position is None or system.position is None or system.position.floor != survey.position.floor:
+        return None
+    return math.hypot(system.position.x_m - survey.position.x_m, system.position.y_m - survey.position.y_m)
+
+
+def stands_for(survey: Survey, systems: tuple[System, ...]) -> tuple[str, ...]:
+    """The systems whose receivers the survey describes: those it names, or those within its radius."""
+    if survey.position is None:
+        return survey.applies_to
+    return tuple(s.id for s in systems if (d := distance_m(survey, s)) is not None and d <= survey.radius_m)
+
+
 def derive(site: Site, centres_hz: np.ndarray) -> list[DerivedInterferer]:
     systems = {s.id: s for s in site.systems}
     out = []
     for survey in site.surveys:
-        for sid in survey.applies_to:
+        for sid in stands_for(survey, site.systems):
             bw = systems[sid].bandwidth_hz
             levels, activity = channel_levels(survey, centres_hz, bw)
             measured = ~np.isnan(levels)

@@ -121,3 +121,51 @@ def test_nan_in_a_trace_is_rejected():
                                                             content_type="application/json")
     assert resp.status_code == 422
     assert any(e["pointer"].startswith("/site/surveys/0/levels_dbm/") for e in resp.json["errors"])
+
+
+def _positioned(survey_at, radius=None, floors=(0, 0, 1)):
+    """Three systems at x = 0, 30 and 5 m (the last on the floor given); one wideband emitter surveyed."""
+    wide = lambda f: np.where((f >= 2412e6) & (f < 2432e6), -70.0, -125.0)  # noqa: E731
+    body = _surveyed_site(wide)
+    body["systems"] = [sites.system(sid, range(79), position={"x_m": x, "y_m": 0.0, "floor": fl})
+                       for sid, x, fl in zip("abc", (0.0, 30.0, 5.0), floors)]
+    survey = body["surveys"][0]
+    del survey["applies_to"]
+    survey["position"] = survey_at
+    if radius is not None:
+        survey["radius_m"] = radius
+    return body
+
+
+def test_a_survey_at_a_position_stands_for_the_receivers_near_it():
+    # Taken 2 m from a: with the default 10 m radius it stands for a only (b is 28 m off, c on another
+    # floor); with 40 m for a and b. Each system then gets what a survey naming it would give.
+    near = derive(sites.load(_positioned({"x_m": 2.0, "y_m": 0.0})), 2402e6 + 1e6 * np.arange(79))
+    assert {d.system for d in near} == {"a"}
+    wider = derive(sites.load(_positioned({"x_m": 2.0, "y_m": 0.0}, radius=40.0)), 2402e6 + 1e6 * np.arange(79))
+    assert {d.system for d in wider} == {"a", "b"}
+    named = _positioned({"x_m": 2.0, "y_m": 0.0})
+    named["surveys"][0].pop("position")
+    named["surveys"][0]["applies_to"] = ["a", "b"]
+    by_name = derive(sites.load(named), 2402e6 + 1e6 * np.arange(79))
+    key = lambda d: (d.system, d.channels, round(d.channel_level_dbm, 9))  # noqa: E731
+    assert sorted(map(key, wider)) == sorted(map(key, by_name))
+
+
+def test_a_survey_on_another_floor_reaches_that_floor_only():
+    derived = derive(sites.load(_positioned({"x_m": 5.0, "y_m": 0.0, "floor": 1})), 2402e6 + 1e6 * np.arange(79))
+    assert {d.system for d in derived} == {"c"}
+
+
+@pytest.mark.parametrize("change, pointer, words", [
+    (lambda s: s.__setitem__("position", {"x_m": 500.0, "y_m": 0.0}), "/site/surveys/0/position", "nearest is 'b'"),
+    (lambda s: s.__setitem__("applies_to", ["a"]), "/site/surveys/0/applies_to", "exactly one"),
+    (lambda s: s.pop("position"), "/site/surveys/0/applies_to", "exactly one"),
+])
+def test_position_surveys_that_stand_for_nobody_are_rejected(change, pointer, words):
+    body = _positioned({"x_m": 2.0, "y_m": 0.0})
+    change(body["surveys"][0])
+    resp = create_app({"TESTING": True}).test_client().post("/v1/assessments", json={"site": body})
+    assert resp.status_code == 422
+    errors = {e["pointer"]: e["detail"] for e in resp.json["errors"]}
+    assert pointer in errors and words in errors[pointer], errors

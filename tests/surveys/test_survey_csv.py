@@ -34,3 +34,20 @@ def test_the_sample_survey_file_loads():
 
     s = read_survey(resources.files("cohop.samples").joinpath("filter_gallery_survey.csv"))
     assert len(s["frequencies_hz"]) == len(s["levels_dbm"]) == len(s["occupancy_fraction"]) > 1000
+
+
+def test_reads_a_position_and_radius(tmp_path):
+    path = tmp_path / "walk.csv"
+    path.write_text("# position: 12.5, -3, 1\n# radius_m: 25\nfrequency_hz,level_dbm\n1,2\n3,4\n")
+    s = read_survey(path)
+    assert s["position"] == {"x_m": 12.5, "y_m": -3.0, "floor": 1} and s["radius_m"] == 25.0
+    path.write_text("# position: 4, 5\nfrequency_hz,level_dbm\n1,2\n3,4\n")
+    assert read_survey(path)["position"] == {"x_m": 4.0, "y_m": 5.0}
+
+
+@pytest.mark.parametrize("value", ["4", "a, b", "1, 2, 1.5", "1, 2, 3, 4"])
+def test_bad_positions(tmp_path, value):
+    path = tmp_path / "walk.csv"
+    path.write_text(f"# position: {value}\nfrequency_hz,level_dbm\n1,2\n3,4\n")
+    with pytest.raises(SurveyFileError, match="position"):
+        read_survey(path)

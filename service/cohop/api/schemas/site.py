@@ -11,6 +11,7 @@ import marshmallow as ma
 from marshmallow import fields, post_load, validate, validates_schema
 
 from cohop import limits
+from cohop import surveys as surveys_domain
 from cohop.api.schemas.fields import IDENTIFIER, Count, Number, Text, between, positive
 from cohop.regulatory import PROFILES
 from cohop.site import (Band, Coupling, CouplingEntry, Fading, Grid, Interferer, InterfererLevel, Position,
@@ -303,8 +304,14 @@ MAX_SURVEY_POINTS = 200_000
 class SurveySchema(StrictSchema):
     id = Text(required=True, validate=IDENTIFIER)
     label = Text(load_default="", validate=validate.Length(max=200))
-    applies_to = fields.List(Text(validate=IDENTIFIER), required=True, validate=validate.Length(min=1),
-                             metadata={"description": "Systems whose receivers the trace stands for"})
+    applies_to = fields.List(Text(validate=IDENTIFIER), load_default=None, validate=validate.Length(min=1),
+                             metadata={"description": "Systems whose receivers the trace stands for "
+                                                      "(give this or position)"})
+    position = fields.Nested(PositionSchema, load_default=None, metadata={
+        "description": "Where the trace was taken, when not at named receivers: it stands for every system "
+                       "with a position on the same floor within radius_m"})
+    radius_m = Number(load_default=10.0, validate=between(0.1, 10_000.0), metadata={
+        "description": "With position: how far from it the trace still stands for a system's receivers"})
     frequencies_hz = fields.List(Number(validate=positive(1e12)), required=True,
                                  validate=validate.Length(min=2, max=MAX_SURVEY_POINTS),
                                  metadata={"description": "Strictly increasing"})
@@ -323,6 +330,8 @@ class SurveySchema(StrictSchema):
     @validates_schema
     def _trace(self, data, **kwargs):
         errors = ErrorTree()
+        if msg := _exactly_one(data, ("applies_to", "position")):
+            errors.add(("applies_to",), msg)
         f = data["frequencies_hz"]
         for i in range(1, len(f)):
             if f[i] <= f[i - 1]:
@@ -337,7 +346,8 @@ class SurveySchema(StrictSchema):
 
     @post_load
     def _make(self, data, **kwargs):
-        for key in ("applies_to", "frequencies_hz", "levels_dbm"):
+        data["applies_to"] = tuple(data["applies_to"] or ())
+        for key in ("frequencies_hz", "levels_dbm"):
             data[key] = tuple(data[key])
         if data.get("occupancy_fraction") is not None:
             data["occupancy_fraction"] = tuple(data["occupancy_fraction"])
@@ -375,7 +385,7 @@ class SiteSchema(StrictSchema):
         _check_coupling(errors, data.get("coupling") or Coupling(), ids)
         _check_link_distances(errors, systems, data.get("coupling") or Coupling())
         _check_interferer_levels(errors, interferers, ids)
-        _check_surveys(errors, data["surveys"], ids)
+        _check_surveys(errors, data["surveys"], ids, tuple(systems))
         errors.raise_if_any()
 
     @post_load
@@ -456,7 +466,7 @@ def _check_coupling(errors: ErrorTree, coupling: Coupling, ids: set[str]) -> Non
         seen.add((e.from_system, e.to_system))
 
 
-def _check_surveys(errors: ErrorTree, surveys, ids: set[str]) -> None:
+def _check_surveys(errors: ErrorTree, surveys, ids: set[str], systems: tuple) -> None:
     seen = set()
     for k, sv in enumerate(surveys):
         if sv.id in seen:
@@ -465,6 +475,17 @@ def _check_surveys(errors: ErrorTree, surveys, ids: set[str]) -> None:
         for j, sid in enumerate(sv.applies_to):
             if sid not in ids:
                 errors.add(("surveys", k, "applies_to", j), f"Unknown system {sid!r}.")
+        if sv.position is not None and not surveys_domain.stands_for(sv, systems):
+            errors.add(("surveys", k, "position"), _nobody_near(sv, systems))
+
+
+def _nobody_near(survey, systems) -> str:
+    found = [(d, s.id) for s in systems if (d := surveys_domain.distance_m(survey, s)) is not None]
+    where = f"within {survey.radius_m:g} m on floor {survey.position.floor}"
+    if not found:
+        return f"No system with a position on floor {survey.position.floor}: the survey stands for nobody."
+    d, sid = min(found)
+    return f"No system's receivers lie {where}; the nearest is {sid!r} at {d:.1f} m (raise radius_m or use applies_to)."
 
 
 def _check_link_distances(errors: ErrorTree, systems, coupling: Coupling) -> None:
