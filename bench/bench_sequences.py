@@ -59,7 +59,33 @@ def main() -> None:
     print(f"  sequence-driven Monte Carlo, one victim against {len(site.systems) - 1} systems and "
           f"{len(site.interferers)} interferers: {packets} packets ({attempts} hops) in {dt:.2f} s = "
           f"{attempts / dt / 1e6:.2f} M hops/s")
+    order_costs()
 
+
+def order_costs(packets: int = 20_000) -> None:
+    """Residual loss after retries on the medium site: our orders against two poor ones, for the site's
+    own (random) hop sets and for interleaved hop sets (neighbours side by side, where moving in step hurts)."""
+    from cohop.planning.baselines import interleaved
+    from cohop.planning.instance import build_instance
+    from cohop.planning.requirements import PlanRequirements, SystemRequirement
+    from cohop.sequences.report import common_pattern
+
+    site = SiteSchema().load(sitegen.generate("medium", seed=1))
+    prep = prepare_site(site)
+    req = PlanRequirements(systems=tuple(SystemRequirement(s.id, min_channels=50, max_channels=50)
+                                         for s in site.systems))
+    hop_set_choices = {"random hop sets": [np.array(s.hop_set) for s in site.systems],
+                       "interleaved hop sets": interleaved(build_instance(prep, req))}
+    print(f"medium site ({len(site.systems)} systems): residual loss after retries, {packets} packets per system")
+    for label, hop_sets in hop_set_choices.items():
+        seqs, _ = build_sequences(prep, hop_sets, seed=1)
+        orders = [s.channels for s in seqs]
+        variants = {"our orders": orders, "ascending": [np.sort(o) for o in orders],
+                    "common pattern": common_pattern(orders)}
+        for name, variant in variants.items():
+            res = np.array([simulate_retries(prep, variant, v, packets, 1, 100e-9).residual_loss
+                            for v in range(prep.n_systems)])
+            print(f"  {label:21s} {name:15s} mean {res.mean():.2e}, worst {res.max():.2e}")
 
 if __name__ == "__main__":
     main()

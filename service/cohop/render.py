@@ -76,7 +76,8 @@ def _sequence_lines(seqs: dict | None) -> list[str]:
     if not seqs:
         return []
     out = ["", f"hop sequences (delay spread {seqs['delay_spread_s'] * 1e9:.0f} ns; residual loss after retries: "
-               "simulated with these orders / independent attempts / same channels in ascending order):"]
+               "simulated with these orders / independent attempts / same channels in ascending order / "
+               "every system in one common pattern):"]
     for s in seqs["systems"]:
         r = s["retries"]
         sp = s["spacing"]
@@ -84,7 +85,8 @@ def _sequence_lines(seqs: dict | None) -> list[str]:
                    f"{sp['min_channels']} ch (want {sp['required_channels']}), fading corr <= "
                    f"{sp['fading_correlation_max']:.2f}; {_pct(r['residual_loss_probability'])} / "
                    f"{_pct(r['independent_residual_probability'])} / "
-                   f"{_pct(r['ascending_order']['residual_loss_probability'])}")
+                   f"{_pct(r['ascending_order']['residual_loss_probability'])} / "
+                   f"{_pct(r['common_pattern']['residual_loss_probability'])}")
     if seqs["alignment"]["depends_on_alignment"]:
         out.append("  note: " + seqs["alignment"]["note"])
     out += [f"  note: {n}" for n in seqs["notes"]]

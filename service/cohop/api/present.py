@@ -161,8 +161,8 @@ def sequences_dict(outcome, assessment: Assessment) -> dict:
     ids = [s.id for s in prep.site.systems]
     required_hz = coherence_bandwidth_hz(outcome.delay_spread_s)
     systems = []
-    for seq, order, retry, poor, fig in zip(rep.sequences, rep.orders, outcome.retries, outcome.poor_order,
-                                            assessment.systems):
+    for seq, order, retry, poor, step, fig in zip(rep.sequences, rep.orders, outcome.retries, outcome.poor_order,
+                                                  outcome.common_pattern, assessment.systems):
         entry = {
             "id": ids[seq.system], "construction": seq.construction, "group": seq.group,
             "family": None if seq.prime is None else {"component": seq.component, "prime": seq.prime,
@@ -178,7 +178,7 @@ def sequences_dict(outcome, assessment: Assessment) -> dict:
             "order": {"reversal_share": order.reversal_share, "distinct_steps": order.distinct_steps,
                       "looks_random": order.looks_random},
             "retries": {**_retry(retry), "analytic_residual_probability": fig.residual_loss_probability,
-                        "ascending_order": _retry(poor)},
+                        "ascending_order": _retry(poor), "common_pattern": _retry(step)},
         }
         systems.append(entry)
     pairs = [{"victim": ids[p.a], "source": ids[p.b], "shared_channels": p.shared_channels,

@@ -23,6 +23,7 @@ class SequenceOutcome:
     delay_spread_s: float
     retries: list[RetryFigures]  # with the planned order
     poor_order: list[RetryFigures]  # the same hop sets visited in ascending order (adjacent consecutive hops)
+    common_pattern: list[RetryFigures]  # every system in one rank pattern (neighbours that move in step)
     depends_on_alignment: bool
 
     @property
@@ -47,6 +48,20 @@ def _retries(prep, orders, packets, seed, sigma) -> list[RetryFigures]:
     return [simulate_retries(prep, orders, v, n, seed, sigma) for v in range(prep.n_systems)]
 
 
+def common_pattern(orders: list[np.ndarray]) -> list[np.ndarray]:
+    """Correlated neighbours: each order replaced by its own channels visited in the rank pattern of the
+    first order with as many channels (the k-th hop goes to the channel of the same rank), so systems
+    whose hop sets interleave move in step and a hit on one hop predicts hits on the next. An order whose
+    length no earlier order shares keeps its own pattern."""
+    patterns: dict[int, np.ndarray] = {}
+    out = []
+    for order in orders:
+        o = np.asarray(order)
+        ranks = patterns.setdefault(o.size, np.argsort(np.argsort(o, kind="stable"), kind="stable"))
+        out.append(np.sort(o)[ranks])
+    return out
+
+
 def outcome(prep: PreparedSite, sequences: list[Sequence], notes: list[str], packets: int, seed: int) -> SequenceOutcome:
     sigma = delay_spread(prep)
     report = analyse(prep, sequences, sigma, notes)
@@ -55,7 +70,9 @@ def outcome(prep: PreparedSite, sequences: list[Sequence], notes: list[str], pac
     aligned = any(p.aligned and p.aligned_hit_rate is not None and p.aligned_hit_rate < p.unaligned_hit_rate
                   for p in report.pairs)
     return SequenceOutcome(report=report, delay_spread_s=sigma, retries=_retries(prep, orders, packets, seed, sigma),
-                           poor_order=_retries(prep, poor, packets, seed, sigma), depends_on_alignment=aligned)
+                           poor_order=_retries(prep, poor, packets, seed, sigma),
+                           common_pattern=_retries(prep, common_pattern(orders), packets, seed, sigma),
+                           depends_on_alignment=aligned)
 
 
 def plan_sequences(prep: PreparedSite, hop_sets, seed: int, packets: int = DEFAULT_PACKETS) -> SequenceOutcome:

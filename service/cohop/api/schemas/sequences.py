@@ -45,6 +45,10 @@ class SystemRetrySchema(RetrySchema):
     analytic_residual_probability = fields.Float(metadata={"description": "From the independent-attempt model"})
     ascending_order = fields.Nested(RetrySchema, metadata={
         "description": "The same hop set in ascending order: what a poor order costs"})
+    common_pattern = fields.Nested(RetrySchema, metadata={
+        "description": "Every system visiting its own channels in one common rank pattern (that of the first "
+                       "system with as many channels), so interleaved neighbours move in step: what a "
+                       "correlated neighbour costs"})
 
 
 class SequenceSchema(StrictSchema):
