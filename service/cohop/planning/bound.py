@@ -13,16 +13,21 @@ agree on the channels they share leaves a linear program over pattern counts:
     s.t. sum_{p in class P} n_p = m_P          (windows of each kind)
          sum_p uses_v(p) n_p = L N_v           (each channel lies in L windows)
 
-whose optimum is at most the best plan's objective. Windows whose channels
-look the same to every system (same allowed systems, pins, interferer costs)
-form one class, so the LP stays small; it is solved with GLOP, and columns
-are priced per class by a small CP-SAT problem over (offset, system)
-booleans. At any iteration the Lagrangian bound
+whose optimum is at most the best plan's objective. Part of the agreement
+is kept: for each channel type and system, windows must hold the system at
+offset i as often as at offset i + 1 (both count the same channels), which
+every plan satisfies. Windows whose channels look the same to every system
+(same allowed systems, pins, interferer costs) form one class, so the LP
+stays small; it is solved with GLOP, and columns are priced per class by a
+small quadratic 0-1 problem over (offset, system) booleans (`_Pricing`:
+enumeration, a flip heuristic, or branch and bound; CP-SAT was tried for it
+and was far slower on these tiny dense problems). At any iteration the
+Lagrangian bound
     z_LP + sum_P m_P min_p reduced_cost(p)
-is valid (the pricing bound is CP-SAT's proven bound, less the integer
-rounding allowance), so the bound is reported even if the loop stops early.
-With L = 1 this is the aggregated model with one count per subset of systems
-(Dantzig-Wolfe on channels). Pairs harmed at every offset are constant.
+is valid when every class was priced exactly, so the bound is reported even
+if the loop stops early. With L = 1 this is the aggregated model with one
+count per subset of systems (Dantzig-Wolfe on channels). Pairs harmed at
+every offset are constant.
 """
 
 from __future__ import annotations
@@ -32,7 +37,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from ortools.linear_solver import pywraplp
-from ortools.sat.python import cp_model
 
 from cohop.planning.instance import PlanningInstance
 
