@@ -5,9 +5,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from cohop import limits
-from cohop.assess import Assessment, assess_site, resolve_hop_sets
+from cohop.assess import assess_site, resolve_hop_sets
 from cohop.errors import SiteError
-from cohop.montecarlo import SiteSimulation, simulate_site
+from cohop.montecarlo import simulate_site
 from cohop.prepare import prepare_site
 from cohop.sequences.report import DEFAULT_PACKETS, given_sequences
 from cohop.site import Site

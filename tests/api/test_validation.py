@@ -10,7 +10,7 @@ import pytest
 from cohop import limits
 from cohop.api.app import create_app
 
-from .conftest import ASSESSMENTS, assert_pointer, assert_problem, load_sample, pointers, post_assessment
+from .conftest import ASSESSMENTS, assert_pointer, assert_problem, pointers, post_assessment
 
 SYS0 = "/site/systems/0"
 

@@ -11,7 +11,7 @@ from pathlib import Path
 
 import pytest
 
-from cohop import cli, samples
+from cohop import samples
 from tests.cli_helpers import run_cli
 
 POINTER = "/site/systems/0/tx_power_dbm"

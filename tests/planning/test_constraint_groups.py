@@ -1,7 +1,6 @@
 """Each constraint group of the CP-SAT model alone: fix the channels, check feasible or infeasible."""
 
 import numpy as np
-import pytest
 from ortools.sat.python import cp_model
 
 from cohop.planning import model

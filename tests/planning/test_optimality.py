@@ -6,7 +6,6 @@ import numpy as np
 import pytest
 
 from cohop.planning import bound
-from cohop.planning.linear import objective_value, occupancy, system_estimates
 from cohop.planning.requirements import PlanRequirements, SystemRequirement
 from cohop.planning.search import greedy
 from cohop.planning.solve import OPTIMAL, SolveSettings, plan_site

@@ -7,11 +7,10 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
 import pytest
 
-from cohop.regulatory import PROFILES, check_compliance
 from cohop.site import System
+from tests.regulatory.findings import centres, run, statuses
 
 KHZ, MHZ = 1e3, 1e6
 EU24 = ["eu-2400-adaptive", "eu-2400-nonadaptive"]
@@ -22,21 +21,6 @@ def make_system(**kw) -> System:
                 packet_airtime_s=0.005, activity_fraction=0.1, required_sir_db=10.0, rejection=(), retry_limit=0)
     base.update(kw)
     return System(**base)
-
-
-def centres(first_hz: float, spacing_hz: float, n: int) -> np.ndarray:
-    return first_hz + spacing_hz * np.arange(n)
-
-
-def run(pid: str, system: System, centres_hz) -> dict:
-    """Findings keyed by the rule id without its profile prefix ("channels", "eirp", ...)."""
-    p = PROFILES[pid]
-    c = np.asarray(centres_hz, dtype=float)
-    return {f.rule.id.split(".", 1)[1]: f for f in check_compliance(p, system, np.arange(c.size), c, p.band)}
-
-
-def statuses(findings: dict) -> dict:
-    return {k: f.status for k, f in findings.items()}
 
 
 def erp_system(erp_dbm: float, duty: float, bw_hz: float = 25 * KHZ) -> System:

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import copy
 
 import pytest
 from openapi_schema_validator import OAS30Validator

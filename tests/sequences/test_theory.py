@@ -1,7 +1,5 @@
 """Sequence theory against the published family properties and bounds (brute force)."""
 
-import math
-
 import numpy as np
 import pytest
 

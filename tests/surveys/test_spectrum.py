@@ -1,6 +1,5 @@
 """Survey traces into channel powers and interferers (channel-power method, common practice)."""
 
-import copy
 import math
 
 import numpy as np

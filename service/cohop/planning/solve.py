@@ -19,7 +19,7 @@ from cohop.assess import Assessment, assess_site
 from cohop.planning import baselines, bound, model, search
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import PlanningInstance, build_instance
-from cohop.planning.linear import hop_sets_of, marginal_costs, objective_value, occupancy, system_estimates
+from cohop.planning.linear import hop_sets_of, marginal_costs, objective_value, system_estimates
 from cohop.planning.requirements import PlanInfeasible, PlanRequirements, Progress
 from cohop.planning.validate import Violation, validate_plan
 from cohop.prepare import PreparedSite
