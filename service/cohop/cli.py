@@ -252,46 +252,49 @@ def _common(p: argparse.ArgumentParser) -> None:
     p.add_argument("--json", action="store_true", help="print the JSON answer instead of the table")
 
 
+def _site_command(sub, name: str, help_: str, site_help: str, sample: str) -> argparse.ArgumentParser:
+    """A command that sends a site (a file, or an embedded sample); its own options follow, then _answered."""
+    p = sub.add_parser(name, help=help_)
+    p.add_argument("site", nargs="?", help=f"{site_help}; default: a sample")
+    p.add_argument("--sample", default=sample, help="embedded sample to use when no file is given")
+    return p
+
+
+def _answered(p: argparse.ArgumentParser, func, solves: bool = False) -> None:
+    """The options every site command shares: solver budget (when it solves), saving, charts, transport."""
+    if solves:
+        p.add_argument("--time-limit", type=float, metavar="S", help="search budget in seconds (server-capped)")
+        p.add_argument("--workers", type=int, default=2, help="solver threads when running in-process")
+    p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
+    _outputs(p)
+    _common(p)
+    p.set_defaults(func=func)
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(prog="cohop", description="Channel planning for co-located FHSS networks. "
                                      "Every figure is a planning estimate: confirm with a site survey.")
     sub = parser.add_subparsers(dest="command", required=True)
-    p = sub.add_parser("assess", help="predict collisions, losses and compliance of each system's hop set")
-    p.add_argument("site", nargs="?", help="site JSON (a request body or a bare site); default: a sample")
-    p.add_argument("--sample", default="water_works_us915", help="embedded sample to use when no file is given")
+    p = _site_command(sub, "assess", "predict collisions, losses and compliance of each system's hop set",
+                      "site JSON (a request body or a bare site)", "water_works_us915")
     p.add_argument("--trials", type=int, metavar="N", help="also run a Monte Carlo check with N attempts per system")
     p.add_argument("--seed", type=int, default=0, help="Monte Carlo seed")
     p.add_argument("--detail", choices=("system", "channel", "source"), help="how much per-channel detail")
-    p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
-    _outputs(p)
-    _common(p)
-    p.set_defaults(func=_cmd_assess)
-    p = sub.add_parser("plan", help="assign hop sets to every system, with a proven bound and baselines")
-    p.add_argument("site", nargs="?", help="site or plan request JSON; default: a sample")
-    p.add_argument("--sample", default="water_works_us915", help="embedded sample to use when no file is given")
-    p.add_argument("--time-limit", type=float, metavar="S", help="search budget in seconds (server-capped)")
+    _answered(p, _cmd_assess)
+    p = _site_command(sub, "plan", "assign hop sets to every system, with a proven bound and baselines",
+                      "site or plan request JSON", "water_works_us915")
     p.add_argument("--seed", type=int, help="search seed (same request and seed, same plan)")
     p.add_argument("--objective", choices=("weighted_sum", "worst_system"))
     p.add_argument("--coordination", choices=("joint", "independent"))
     p.add_argument("--compare", action="store_true", help="also evaluate every practitioner's baseline")
-    p.add_argument("--workers", type=int, default=2, help="solver threads when running in-process")
     p.add_argument("--detail", choices=("system", "channel", "source"))
-    p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
-    _outputs(p)
-    _common(p)
-    p.set_defaults(func=_cmd_plan)
-    p = sub.add_parser("replan", help="re-plan after the site changed, changing as few channels as possible")
-    p.add_argument("site", nargs="?", help="the changed site (or a re-plan request); default: a sample")
-    p.add_argument("--sample", default="water_works_replan", help="embedded sample when no file is given")
+    _answered(p, _cmd_plan, solves=True)
+    p = _site_command(sub, "replan", "re-plan after the site changed, changing as few channels as possible",
+                      "the changed site (or a re-plan request)", "water_works_replan")
     p.add_argument("--current", metavar="FILE", help="the current plan, or a saved plan answer")
     p.add_argument("--tolerance", type=float, help="fewest changes within this share of a fresh plan (default 0.05)")
     p.add_argument("--max-changes", type=int, help="best plan changing at most this many channels")
-    p.add_argument("--time-limit", type=float, metavar="S")
-    p.add_argument("--workers", type=int, default=2, help="solver threads when running in-process")
-    p.add_argument("--save", metavar="FILE", help="write the full JSON answer to FILE")
-    _outputs(p)
-    _common(p)
-    p.set_defaults(func=_cmd_replan)
+    _answered(p, _cmd_replan, solves=True)
     p = sub.add_parser("chart", help="draw a channel map from a saved request and answer")
     p.add_argument("request", help="the request (or site) JSON")
     p.add_argument("answer", help="the answer JSON (assessment, plan or re-plan)")

@@ -9,10 +9,10 @@ from pathlib import Path
 import pytest
 
 from cohop.api.app import create_app
+from tests.problems import problem_body
 
 SAMPLES_DIR = Path(__file__).resolve().parents[2] / "sample_requests"
 SAMPLE_FILES = sorted(p.name for p in SAMPLES_DIR.glob("*.json") if not p.stem.endswith("_replan"))
-PROBLEM_JSON = "application/problem+json"
 ASSESSMENTS = "/v1/assessments"
 
 _CACHE: dict[str, dict] = {}
@@ -56,13 +56,7 @@ def post(client):
 
 def assert_problem(resp, status: int) -> dict:
     """The response is an RFC 9457 problem-details body with this status; returns it."""
-    assert resp.status_code == status, resp.get_data(as_text=True)[:2000]
-    assert resp.mimetype == PROBLEM_JSON
-    body = json.loads(resp.get_data(as_text=True))
-    assert body["status"] == status
-    assert isinstance(body["title"], str) and body["title"]
-    assert "type" in body and "instance" in body
-    return body
+    return problem_body(resp, status)
 
 
 def pointers(body: dict) -> list[str]:

@@ -7,10 +7,10 @@ from openapi_schema_validator import OAS30Validator
 from openapi_spec_validator import validate
 
 from cohop.api.app import create_app
+from tests.problems import PROBLEM_JSON
 
 from .conftest import SAMPLE_FILES, load_sample, post_assessment
 
-PROBLEM_JSON = "application/problem+json"
 PROBLEM_REF = "#/components/schemas/Problem"
 METHODS = ("get", "put", "post", "delete", "patch", "options", "head")
 EXPECTED_PATHS = {"/v1/assessments", "/v1/plans", "/v1/profiles", "/v1/profiles/{profile_id}", "/v1/health"}

@@ -10,93 +10,76 @@ import pytest
 from cohop import limits
 from cohop.api.app import create_app
 
+from tests.problems import pop_at, set_at
+
 from .conftest import ASSESSMENTS, assert_pointer, assert_problem, pointers, post_assessment
 
 SYS0 = "/site/systems/0"
 
 
-def _set(path, value):
-    """A mutation that sets body[path...] = value (path: keys and list indices)."""
-    def mutate(body):
-        node = body
-        for key in path[:-1]:
-            node = node[key]
-        node[path[-1]] = value
-    return mutate
-
-
-def _pop(path):
-    def mutate(body):
-        node = body
-        for key in path[:-1]:
-            node = node[key]
-        del node[path[-1]]
-    return mutate
-
-
 def _sys(i, field, value):
-    return _set(("site", "systems", i, field), value)
+    return set_at(("site", "systems", i, field), value)
 
 
 # (id, mutation of the water works sample, JSON pointer expected in `errors`)
 CASES = [
-    ("unknown-top-level", _set(("surprise",), 1), "/surprise"),
-    ("unknown-in-site", _set(("site", "surprise"), 1), "/site/surprise"),
+    ("unknown-top-level", set_at(("surprise",), 1), "/surprise"),
+    ("unknown-in-site", set_at(("site", "surprise"), 1), "/site/surprise"),
     ("unknown-in-system", _sys(0, "surprise", 1), f"{SYS0}/surprise"),
-    ("unknown-in-grid", _set(("site", "grid", "surprise"), 1), "/site/grid/surprise"),
-    ("unknown-key-escaped", _set(("site", "a/b~c"), 1), "/site/a~1b~0c"),
+    ("unknown-in-grid", set_at(("site", "grid", "surprise"), 1), "/site/grid/surprise"),
+    ("unknown-key-escaped", set_at(("site", "a/b~c"), 1), "/site/a~1b~0c"),
     ("string-for-number", _sys(0, "tx_power_dbm", "30"), f"{SYS0}/tx_power_dbm"),
     ("bool-for-number", _sys(0, "tx_power_dbm", True), f"{SYS0}/tx_power_dbm"),
     ("bool-for-integer", _sys(0, "retry_limit", False), f"{SYS0}/retry_limit"),
     ("float-retry-limit", _sys(0, "retry_limit", 3.0), f"{SYS0}/retry_limit"),
     ("fractional-retry-limit", _sys(0, "retry_limit", 2.5), f"{SYS0}/retry_limit"),
-    ("float-grid-count", _set(("site", "grid", "count"), 129.0), "/site/grid/count"),
-    ("string-grid-count", _set(("site", "grid", "count"), "129"), "/site/grid/count"),
+    ("float-grid-count", set_at(("site", "grid", "count"), 129.0), "/site/grid/count"),
+    ("string-grid-count", set_at(("site", "grid", "count"), "129"), "/site/grid/count"),
     ("number-for-id", _sys(0, "id", 7), f"{SYS0}/id"),
-    ("number-for-profile", _set(("site", "profile"), 915), "/site/profile"),
-    ("unknown-profile", _set(("site", "profile"), "mars-915"), "/site/profile"),
-    ("bad-detail", _set(("detail",), "everything"), "/detail"),
+    ("number-for-profile", set_at(("site", "profile"), 915), "/site/profile"),
+    ("unknown-profile", set_at(("site", "profile"), "mars-915"), "/site/profile"),
+    ("bad-detail", set_at(("detail",), "everything"), "/detail"),
     ("zero-bandwidth", _sys(0, "bandwidth_hz", 0), f"{SYS0}/bandwidth_hz"),
     ("negative-bandwidth", _sys(0, "bandwidth_hz", -150000.0), f"{SYS0}/bandwidth_hz"),
     ("airtime-above-dwell", _sys(0, "packet_airtime_s", 0.05), f"{SYS0}/packet_airtime_s"),
-    ("grid-below-band", _set(("site", "grid", "first_centre_hz"), 901.9e6), "/site/grid/first_centre_hz"),
-    ("grid-count-beyond-band", _set(("site", "grid", "count"), 200), "/site/grid/count"),
-    ("grid-count-above-cap", _set(("site", "grid", "count"), limits.MAX_CHANNELS + 1), "/site/grid/count"),
+    ("grid-below-band", set_at(("site", "grid", "first_centre_hz"), 901.9e6), "/site/grid/first_centre_hz"),
+    ("grid-count-beyond-band", set_at(("site", "grid", "count"), 200), "/site/grid/count"),
+    ("grid-count-above-cap", set_at(("site", "grid", "count"), limits.MAX_CHANNELS + 1), "/site/grid/count"),
     ("hop-channel-off-grid", _sys(3, "hop_set", [70, 128, 129]), "/site/systems/3/hop_set/2"),
     ("hop-channel-negative", _sys(0, "hop_set", [-1, 0]), f"{SYS0}/hop_set/0"),
     ("hop-channel-repeated", _sys(0, "hop_set", [1, 2, 3, 2]), f"{SYS0}/hop_set"),
     ("hop-set-empty", _sys(0, "hop_set", []), f"{SYS0}/hop_set"),
     ("duplicate-system-id", _sys(1, "id", "scada-backbone"), "/site/systems/1/id"),
-    ("interferer-id-is-system-id", _set(("site", "interferers", 0, "id"), "dosing-link"), "/site/interferers/0/id"),
-    ("coupling-unknown-to", _set(("site", "coupling", "entries", 0, "to_system"), "ghost"),
+    ("interferer-id-is-system-id", set_at(("site", "interferers", 0, "id"), "dosing-link"), "/site/interferers/0/id"),
+    ("coupling-unknown-to", set_at(("site", "coupling", "entries", 0, "to_system"), "ghost"),
      "/site/coupling/entries/0/to_system"),
-    ("coupling-unknown-from", _set(("site", "coupling", "entries", 1, "from_system"), "ghost"),
+    ("coupling-unknown-from", set_at(("site", "coupling", "entries", 1, "from_system"), "ghost"),
      "/site/coupling/entries/1/from_system"),
-    ("coupling-to-itself", _set(("site", "coupling", "entries", 0, "to_system"), "scada-backbone"),
+    ("coupling-to-itself", set_at(("site", "coupling", "entries", 0, "to_system"), "scada-backbone"),
      "/site/coupling/entries/0/to_system"),
-    ("interferer-level-unknown-system", _set(("site", "interferers", 1, "levels", 2, "system"), "ghost"),
+    ("interferer-level-unknown-system", set_at(("site", "interferers", 1, "levels", 2, "system"), "ghost"),
      "/site/interferers/1/levels/2/system"),
-    ("rejection-decreasing", _set(("site", "systems", 0, "rejection", 2, "rejection_db"), 40.0),
+    ("rejection-decreasing", set_at(("site", "systems", 0, "rejection", 2, "rejection_db"), 40.0),
      f"{SYS0}/rejection/2/rejection_db"),
-    ("rejection-offsets-not-increasing", _set(("site", "systems", 0, "rejection", 1, "offset_hz"), 200000.0),
+    ("rejection-offsets-not-increasing", set_at(("site", "systems", 0, "rejection", 1, "offset_hz"), 200000.0),
      f"{SYS0}/rejection/1/offset_hz"),
-    ("custom-profile-without-band", _set(("site", "profile"), "custom"), "/site/band"),
-    ("band-below-profile-band", _set(("site", "band"), {"low_hz": 900e6, "high_hz": 928e6}), "/site/band"),
-    ("band-above-profile-band", _set(("site", "band"), {"low_hz": 902e6, "high_hz": 930e6}), "/site/band"),
-    ("band-inverted", _set(("site", "band"), {"low_hz": 910e6, "high_hz": 905e6}), "/site/band/high_hz"),
-    ("rician-without-k", _pop(("site", "systems", 0, "fading", "k_factor_db")), f"{SYS0}/fading/k_factor_db"),
-    ("k-without-rician", _set(("site", "systems", 4, "fading", "k_factor_db"), 3.0),
+    ("custom-profile-without-band", set_at(("site", "profile"), "custom"), "/site/band"),
+    ("band-below-profile-band", set_at(("site", "band"), {"low_hz": 900e6, "high_hz": 928e6}), "/site/band"),
+    ("band-above-profile-band", set_at(("site", "band"), {"low_hz": 902e6, "high_hz": 930e6}), "/site/band"),
+    ("band-inverted", set_at(("site", "band"), {"low_hz": 910e6, "high_hz": 905e6}), "/site/band/high_hz"),
+    ("rician-without-k", pop_at(("site", "systems", 0, "fading", "k_factor_db")), f"{SYS0}/fading/k_factor_db"),
+    ("k-without-rician", set_at(("site", "systems", 4, "fading", "k_factor_db"), 3.0),
      "/site/systems/4/fading/k_factor_db"),
     ("wanted-and-link-distance", _sys(0, "link_distance_m", 500.0), f"{SYS0}/wanted_signal_dbm"),
-    ("neither-wanted-nor-link-distance", _pop(("site", "systems", 0, "wanted_signal_dbm")),
+    ("neither-wanted-nor-link-distance", pop_at(("site", "systems", 0, "wanted_signal_dbm")),
      f"{SYS0}/wanted_signal_dbm"),
     ("fade-margin-and-sensitivity", _sys(0, "fade_margin_db", 20.0), f"{SYS0}/fade_margin_db"),
-    ("empty-systems", _set(("site", "systems"), []), "/site/systems"),
-    ("null-systems", _set(("site", "systems"), None), "/site/systems"),
-    ("system-not-an-object", _set(("site", "systems", 0), "scada"), SYS0),
-    ("missing-site", _pop(("site",)), "/site"),
-    ("trials-below-minimum", _set(("simulation",), {"trials_per_system": 10}), "/simulation/trials_per_system"),
-    ("float-trials", _set(("simulation",), {"trials_per_system": 1000.0}), "/simulation/trials_per_system"),
+    ("empty-systems", set_at(("site", "systems"), []), "/site/systems"),
+    ("null-systems", set_at(("site", "systems"), None), "/site/systems"),
+    ("system-not-an-object", set_at(("site", "systems", 0), "scada"), SYS0),
+    ("missing-site", pop_at(("site",)), "/site"),
+    ("trials-below-minimum", set_at(("simulation",), {"trials_per_system": 10}), "/simulation/trials_per_system"),
+    ("float-trials", set_at(("simulation",), {"trials_per_system": 1000.0}), "/simulation/trials_per_system"),
 ]
 
 

@@ -16,9 +16,9 @@ from openapi_schema_validator import OAS30Validator
 
 from cohop import samples
 from tests import recompute
+from tests.problems import problem_body
 
 PLANS = "/v1/plans"
-PROBLEM_JSON = "application/problem+json"
 INFEASIBLE = "urn:cohop:problem:no-feasible-plan"
 INVALID = "urn:cohop:problem:invalid-request"
 SAMPLE_NAMES = ("water_works_us915", "container_terminal_eu2400", "open_pit_mine_ca915")
@@ -114,16 +114,6 @@ def interfered(threshold: float, d_count: int, pins=()) -> dict:
     return body
 
 
-def set_at(path, value):
-    """A mutator setting body[path...] = value."""
-    def apply(body):
-        node = body
-        for key in path[:-1]:
-            node = node[key]
-        node[path[-1]] = value
-    return apply
-
-
 # --- invariants of a plan answer ---------------------------------------------------
 
 def check_plan(body: dict, answer: dict) -> None:
@@ -191,13 +181,7 @@ def plan_ok(client, body) -> dict:
 
 
 def assert_problem(resp, status: int = 422, type_: str | None = None) -> dict:
-    assert resp.status_code == status, resp.get_data(as_text=True)[:3000]
-    assert resp.mimetype == PROBLEM_JSON
-    body = json.loads(resp.get_data(as_text=True))
-    assert body["status"] == status and body["title"] and body["instance"] == PLANS
-    if type_ is not None:
-        assert body["type"] == type_, body
-    return body
+    return problem_body(resp, status, PLANS, type_)
 
 
 @pytest.fixture(scope="session")

@@ -6,10 +6,11 @@ import pytest
 
 from cohop.api.app import create_app
 from tests import recompute
+from tests.problems import set_at
 
 from .conftest import (BASELINE_NAMES, INFEASIBLE, INTERFERED_CHANNELS, INTERFERER_ID, INVALID, PLANS,
                        SAMPLE_NAMES, SIZES, TOL, assert_problem, by_id, check_comparison, check_plan, interfered,
-                       plan_ok, post_plan, proven_conflicts, requirement, sample_request, schema_validator, set_at,
+                       plan_ok, post_plan, proven_conflicts, requirement, sample_request, schema_validator,
                        small_request, small_site, without_time)
 
 

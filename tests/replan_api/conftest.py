@@ -14,10 +14,10 @@ import pytest
 
 from cohop import samples
 from tests import recompute
+from tests.problems import problem_body
 
 REPLANS = "/v1/replans"
 PLANS = "/v1/plans"
-PROBLEM_JSON = "application/problem+json"
 INFEASIBLE = "urn:cohop:problem:no-feasible-plan"
 INVALID = "urn:cohop:problem:invalid-request"
 REPLAN_SAMPLE = "water_works_replan"
@@ -64,13 +64,7 @@ def ok(resp) -> dict:
 
 
 def problem(resp, status: int = 422, type_: str | None = None, instance: str = REPLANS) -> dict:
-    assert resp.status_code == status, resp.get_data(as_text=True)[:3000]
-    assert resp.mimetype == PROBLEM_JSON
-    body = json.loads(resp.get_data(as_text=True))
-    assert body["status"] == status and body["title"] and body["instance"] == instance
-    if type_ is not None:
-        assert body["type"] == type_, body
-    return body
+    return problem_body(resp, status, instance, type_)
 
 
 def pointers(prob: dict) -> dict[str, str]:

@@ -2,11 +2,12 @@
 
 from __future__ import annotations
 
-
 import pytest
 from openapi_schema_validator import OAS30Validator
 
-from .conftest import (INFEASIBLE, INVALID, PLANS, PROBLEM_JSON, REPLANS, by_id, check_replan, current_from_plan,
+from tests.problems import PROBLEM_JSON
+
+from .conftest import (INFEASIBLE, INVALID, PLANS, REPLANS, by_id, check_replan, current_from_plan,
                        ok, pointers, post, problem, replan_request, site_request, small_request)
 
 

@@ -9,6 +9,8 @@ from flask_smorest import abort
 from webargs import core
 from webargs.flaskparser import FlaskParser, is_json_request
 
+from cohop.api.schemas.plan import InfeasibleProblemSchema
+
 
 class BodyParser(FlaskParser):
     """webargs' parser, also catching what json.loads raises besides JSONDecodeError
@@ -30,3 +32,21 @@ class BodyParser(FlaskParser):
 
 class Blueprint(flask_smorest.Blueprint):
     ARGUMENTS_PARSER = BodyParser()
+
+    def body_errors(self):
+        """The answers every endpoint taking a JSON body may give besides its own."""
+        def decorate(func):
+            func = self.alt_response(415, response="UNSUPPORTED_MEDIA_TYPE")(func)
+            func = self.alt_response(413, response="REQUEST_ENTITY_TOO_LARGE")(func)
+            return self.alt_response(400, response="BAD_REQUEST")(func)
+        return decorate
+
+    def solver_errors(self, what: str):
+        """The extra answers of a solving endpoint: 422 with conflicts, 503 with Retry-After."""
+        def decorate(func):
+            func = self.alt_response(503, response="SERVICE_UNAVAILABLE", headers={"Retry-After": {
+                "description": "Seconds to wait before trying again", "schema": {"type": "integer"}}})(func)
+            return self.alt_response(422, schema=InfeasibleProblemSchema, content_type="application/problem+json",
+                                     description=f"Invalid request, or no {what} meets the requirements (with the "
+                                                 "conflicting ones)")(func)
+        return decorate

@@ -150,14 +150,18 @@ def _free_or_paid_move(place: Placement, old: np.ndarray, paid: bool) -> tuple[f
     return best
 
 
+def _apply(place: Placement, move: tuple) -> None:
+    _, v, c_out, c_in = move
+    place.remove(v, c_out)
+    place.add(v, c_in)
+
+
 def _descend_free(place: Placement, old: np.ndarray, limit: int = 10_000) -> None:
     for _ in range(limit):
         move = _free_or_paid_move(place, old, paid=False)
         if move is None:
             return
-        _, v, c_out, c_in = move
-        place.remove(v, c_out)
-        place.add(v, c_in)
+        _apply(place, move)
 
 
 def _spend(inst, x, old, existing, budget: int | None, target: float | None) -> np.ndarray:
@@ -173,9 +177,7 @@ def _spend(inst, x, old, existing, budget: int | None, target: float | None) -> 
         move = _free_or_paid_move(place, old, paid=True)
         if move is None:
             break
-        _, v, c_out, c_in = move
-        place.remove(v, c_out)
-        place.add(v, c_in)
+        _apply(place, move)
         _descend_free(place, old)
     return place.x.copy()
 

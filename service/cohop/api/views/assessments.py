@@ -17,9 +17,7 @@ blp = Blueprint("assessments", __name__, url_prefix="/v1", description="Predict 
 class Assessments(MethodView):
     @blp.arguments(AssessmentRequestSchema)
     @blp.response(200, AssessmentResponseSchema)
-    @blp.alt_response(400, response="BAD_REQUEST")
-    @blp.alt_response(413, response="REQUEST_ENTITY_TOO_LARGE")
-    @blp.alt_response(415, response="UNSUPPORTED_MEDIA_TYPE")
+    @blp.body_errors()
     def post(self, req):
         """Evaluate each system's hop set: collisions by source and channel, losses, compliance."""
         assessment, simulation, sequences = run_assessment(req, current_app.config["COHOP_MAX_SIMULATED_ATTEMPTS"])

@@ -7,7 +7,7 @@ from flask.views import MethodView
 
 from cohop.api import solving
 from cohop.api.blueprint import Blueprint
-from cohop.api.schemas.plan import InfeasibleProblemSchema, ReplanRequestSchema, ReplanResponseSchema
+from cohop.api.schemas.plan import ReplanRequestSchema, ReplanResponseSchema
 
 blp = Blueprint("replans", __name__, url_prefix="/v1", description="Re-plan with few changes")
 
@@ -16,13 +16,8 @@ blp = Blueprint("replans", __name__, url_prefix="/v1", description="Re-plan with
 class Replans(MethodView):
     @blp.arguments(ReplanRequestSchema)
     @blp.response(200, ReplanResponseSchema)
-    @blp.alt_response(400, response="BAD_REQUEST")
-    @blp.alt_response(413, response="REQUEST_ENTITY_TOO_LARGE")
-    @blp.alt_response(415, response="UNSUPPORTED_MEDIA_TYPE")
-    @blp.alt_response(422, schema=InfeasibleProblemSchema, content_type="application/problem+json",
-                      description="Invalid request, or no re-plan meets the requirements (with the conflicting ones)")
-    @blp.alt_response(503, response="SERVICE_UNAVAILABLE", headers={"Retry-After": {
-        "description": "Seconds to wait before trying again", "schema": {"type": "integer"}}})
+    @blp.body_errors()
+    @blp.solver_errors("re-plan")
     def post(self, body):
         """Re-plan from the current plan: fewest changes within a tolerance, or best plan within a budget."""
         settings = solving.solve_settings(current_app.config)
