@@ -58,7 +58,7 @@ def _run_one(kind: str, arg: str, seed: int, limit: float) -> dict:
     req = PlanRequirements(systems=_requirements(body, per), time_limit_s=limit, seed=seed,
                            baselines=BASELINES if kind == "size" else ())
     t = time.perf_counter()
-    result = plan_site(prepare_site(site), req, SolveSettings(num_workers=2, max_time_s=max(60.0, limit)))
+    result = plan_site(prepare_site(site), req, SolveSettings(solver_threads=2, max_solve_s=max(60.0, limit)))
     wall = time.perf_counter() - t
     rates = np.array([f.collision_probability for f in result.assessment.systems])
     r = result.report

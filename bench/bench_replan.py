@@ -30,7 +30,7 @@ NEW_INTERFERERS = (
 
 def main() -> None:
     print(f"machine: {machine()}")
-    settings = SolveSettings(num_workers=2)
+    settings = SolveSettings(solver_threads=2)
     for seed in (1, 2, 3):
         body = sitegen.generate("medium", seed=seed, with_hop_sets=False)
         req = PlanRequirements(systems=tuple(SystemRequirement(s["id"], min_channels=50, max_channels=50)

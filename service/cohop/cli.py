@@ -146,7 +146,7 @@ def _cmd_plan(args) -> int:
         requirements["coordination"] = args.coordination
     baselines = ["all"] if args.compare else body.get("baselines")
     line = ProgressLine(sys.stderr)
-    config = {"COHOP_PROGRESS_HOOK": line.update, "COHOP_SOLVER_WORKERS": args.workers}
+    config = {"COHOP_PROGRESS_HOOK": line.update, "COHOP_SOLVER_THREADS": args.workers}
     if args.server:
         print(f"planning on {args.server} ...", file=sys.stderr, flush=True)
     with _client(args, config) as api:
@@ -187,7 +187,7 @@ def _cmd_replan(args) -> int:
     search = dict(body.get("search") or {})
     if args.time_limit is not None:
         search["time_limit_s"] = args.time_limit
-    with _client(args, {"COHOP_SOLVER_WORKERS": args.workers}) as api:
+    with _client(args, {"COHOP_SOLVER_THREADS": args.workers}) as api:
         result = api.replan(body["site"], current, mode=mode or None, requirements=body.get("requirements"),
                             search=search or None, detail=body.get("detail"))
     _chart(args, body, result.raw)

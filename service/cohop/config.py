@@ -45,17 +45,22 @@ def available_cpus() -> int:
 
 @dataclass(frozen=True)
 class Settings:
+    """Every setting, under one name: COHOP_<NAME> in the environment, `Settings.<name>` here, the Flask
+    config key COHOP_<NAME> in the app, and the same name in `SolveSettings`. The defaults here are the
+    only ones; `create_app()` (tests, the command line) uses them too, with the two differences noted
+    in `IN_PROCESS`."""
+
     cpus: int = field(default_factory=available_cpus)
-    solver_threads: int = 2  # CP-SAT num_workers per solve
+    solver_threads: int = 2  # CP-SAT threads per solve
     workers: int | None = None  # gunicorn workers (default: cpus // solver_threads)
-    threads: int = 4  # gunicorn threads per worker (evaluations run beside a solve)
-    max_concurrent_solves: int | None = None  # per worker (default 1); more answer 503
+    threads: int = 16  # gunicorn threads per worker: evaluations and health run beside a solve and slow clients
+    max_concurrent_solves: int = 1  # solves per worker at once; more answer 503
     isolate_solves: bool = True  # run each solve in its own process
-    max_solve_s: float = 60.0
+    max_solve_s: float = 60.0  # cap on a request's time limit
     max_body_bytes: int = 16 * 1024 * 1024
     max_simulated_attempts: int = 50_000_000
-    max_products: int = 30_000
-    deterministic: bool = True
+    max_products: int = 30_000  # largest full CP-SAT model (pair booleans); larger sites use local search
+    deterministic: bool = True  # same request and seed, same plan (when no wall-clock stop intervenes)
     retry_after_s: int = 5
     tokens: tuple[str, ...] = ()
     metrics_public: bool = False
@@ -87,21 +92,13 @@ class Settings:
         return self.workers if self.workers is not None else max(1, self.cpus // self.solver_threads)
 
     @property
-    def solve_slots(self) -> int:
-        return self.max_concurrent_solves if self.max_concurrent_solves is not None else 1
-
-    @property
     def request_timeout_s(self) -> float:
         """Gunicorn's worker timeout: above the longest solve plus its evaluation."""
         return self.max_solve_s * 2 + 30
 
     def flask_config(self) -> dict:
-        return {"MAX_CONTENT_LENGTH": self.max_body_bytes, "COHOP_MAX_SIMULATED_ATTEMPTS": self.max_simulated_attempts,
-                "COHOP_SOLVER_WORKERS": self.solver_threads, "COHOP_MAX_SOLVE_S": self.max_solve_s,
-                "COHOP_MAX_PRODUCTS": self.max_products, "COHOP_DETERMINISTIC": self.deterministic,
-                "COHOP_TOKENS": self.tokens, "COHOP_METRICS_PUBLIC": self.metrics_public,
-                "COHOP_ISOLATE_SOLVES": self.isolate_solves, "COHOP_SOLVE_SLOTS": self.solve_slots,
-                "COHOP_RETRY_AFTER_S": self.retry_after_s}
+        """The app's settings: COHOP_<NAME> for each field the app reads, and Flask's own body cap."""
+        return flask_config({name: getattr(self, name) for name in APP_SETTINGS})
 
     def public(self) -> dict:
         """The settings without secrets, for the start-up log line."""
@@ -109,6 +106,34 @@ class Settings:
         out["tokens"] = f"{len(self.tokens)} configured"
         out["gunicorn_workers"] = self.gunicorn_workers
         return out
+
+
+#: The settings the Flask app reads (the others size gunicorn).
+APP_SETTINGS = ("solver_threads", "max_concurrent_solves", "isolate_solves", "max_solve_s", "max_body_bytes",
+                "max_simulated_attempts", "max_products", "deterministic", "retry_after_s", "tokens",
+                "metrics_public")
+
+#: Where the in-process app (`create_app()`: tests, the command line) differs from the defaults, and why:
+#: it runs solves in its own process, so that the command line's live progress line can follow the
+#: solver (a callback cannot cross a process boundary) and a test needs no fork server.
+IN_PROCESS = {"isolate_solves": False}
+
+
+def default_of(name: str):
+    """The default of one setting (the single place defaults are written)."""
+    f = Settings.__dataclass_fields__[name]
+    return f.default_factory() if callable(f.default_factory) else f.default
+
+
+def flask_config(values: dict) -> dict:
+    out = {PREFIX + name.upper(): value for name, value in values.items()}
+    out["MAX_CONTENT_LENGTH"] = values["max_body_bytes"]
+    return out
+
+
+def in_process_config() -> dict:
+    """The in-process app's settings: the defaults, with `IN_PROCESS` applied; nothing read from the environment."""
+    return flask_config({name: IN_PROCESS.get(name, default_of(name)) for name in APP_SETTINGS})
 
 
 _TYPES = {"cpus": int, "solver_threads": int, "workers": int, "threads": int, "max_concurrent_solves": int,

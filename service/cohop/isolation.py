@@ -14,17 +14,11 @@ import multiprocessing
 import threading
 from typing import Any, Callable
 
+from cohop.errors import SolverCrashed
+
 _PRELOAD = ["cohop.planning.solve", "cohop.planning.replan", "cohop.api.present"]
 _lock = threading.Lock()
 _context = None
-
-
-class SolverCrashed(RuntimeError):
-    """The solver process ended without an answer."""
-
-    def __init__(self, exitcode: int | None):
-        self.exitcode = exitcode
-        super().__init__(f"the solver process ended without an answer (exit code {exitcode})")
 
 
 def _ctx():

@@ -142,7 +142,7 @@ def test_simulation_above_server_cap(sample):
 
 
 def test_body_over_size_cap_is_413(sample):
-    client = create_app({"TESTING": True, "MAX_CONTENT_LENGTH": 1000}).test_client()
+    client = create_app({"TESTING": True, "COHOP_MAX_BODY_BYTES": 1000}).test_client()
     body = assert_problem(post_assessment(client, sample), 413)
     assert "1000" in body["detail"]
 

@@ -10,7 +10,7 @@ from cohop.planning.solve import SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from tests import sites
 
-FAST = SolveSettings(num_workers=2, max_time_s=10.0)
+FAST = SolveSettings(solver_threads=2, max_solve_s=10.0)
 
 
 @pytest.fixture(scope="module")

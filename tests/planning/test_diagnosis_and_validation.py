@@ -5,14 +5,15 @@ import pytest
 
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import build_instance
-from cohop.planning.requirements import PlanInfeasible, PlanRequirements, SystemRequirement
+from cohop.errors import PlanInfeasible
+from cohop.planning.requirements import PlanRequirements, SystemRequirement
 from cohop.planning.solve import SolveSettings, plan_site
 from cohop.planning.validate import validate_plan
 from cohop.prepare import prepare_site
 from tests import sites
 from tests.planning.helpers import instance, tiny_site
 
-FAST = SolveSettings(num_workers=1, max_time_s=5.0)
+FAST = SolveSettings(solver_threads=1, max_solve_s=5.0)
 
 
 def _kinds(conflicts):

@@ -13,7 +13,7 @@ from cohop.prepare import prepare_site
 from tests import sites
 from tests.planning.helpers import brute_force, instance, tiny_site
 
-FAST = SolveSettings(num_workers=1, max_time_s=5.0)
+FAST = SolveSettings(solver_threads=1, max_solve_s=5.0)
 
 
 def _plan(inst, seconds=1.0):

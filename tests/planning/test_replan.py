@@ -8,13 +8,14 @@ import pytest
 from cohop.planning.instance import build_instance
 from cohop.planning.linear import objective_value, occupancy, system_estimates
 from cohop.planning.replan import CurrentSystem, ReplanMode, replan_site
-from cohop.planning.requirements import PlanInfeasible, PlanRequirements, SystemRequirement
+from cohop.errors import PlanInfeasible
+from cohop.planning.requirements import PlanRequirements, SystemRequirement
 from cohop.planning.solve import SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from tests import sites
 from tests.planning.helpers import tiny_site
 
-FAST = SolveSettings(num_workers=1, max_time_s=5.0)
+FAST = SolveSettings(solver_threads=1, max_solve_s=5.0)
 
 
 def _req(sizes, **kw):

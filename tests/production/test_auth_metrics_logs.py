@@ -65,7 +65,7 @@ def test_metrics_count_requests_latency_and_rejections():
 
 
 def test_busy_solver_answers_503_with_retry_after():
-    app = create_app({"TESTING": True, "COHOP_SOLVE_SLOTS": 1})
+    app = create_app({"TESTING": True, "COHOP_MAX_CONCURRENT_SOLVES": 1})
     from cohop.api.solving import slots
 
     held = slots(app)

@@ -10,20 +10,11 @@ from flask_smorest import Api
 from cohop import __version__
 from cohop.api import problems
 from cohop.api.schemas.problem import ProblemSchema
+from cohop.config import in_process_config
 
-DEFAULTS = {
-    "MAX_CONTENT_LENGTH": 16 * 1024 * 1024,
-    "COHOP_MAX_SIMULATED_ATTEMPTS": 50_000_000,
-    "COHOP_SOLVER_WORKERS": 2,  # CP-SAT threads per solve; never left to default to every core
-    "COHOP_MAX_SOLVE_S": 60.0,  # cap on a request's time limit
-    "COHOP_MAX_PRODUCTS": 30_000,  # largest full CP-SAT model (pair booleans); larger sites use local search
-    "COHOP_DETERMINISTIC": True,  # same request and seed, same plan
+#: Flask and OpenAPI settings; the service's own (COHOP_*) come from `cohop.config`.
+API_SETTINGS = {
     "COHOP_PROGRESS_HOOK": None,  # in-process only: called with solver progress
-    "COHOP_TOKENS": (),  # bearer tokens; none: no authentication
-    "COHOP_METRICS_PUBLIC": False,
-    "COHOP_ISOLATE_SOLVES": False,  # production (create_app_from_env) runs each solve in its own process
-    "COHOP_SOLVE_SLOTS": 4,  # concurrent solves in this process; beyond, 503 with Retry-After
-    "COHOP_RETRY_AFTER_S": 5,
     "API_TITLE": "cohop",
     "API_VERSION": __version__,
     "OPENAPI_VERSION": "3.0.3",
@@ -66,8 +57,10 @@ def _require_json():
 
 def create_app(config: dict | None = None) -> flask.Flask:
     app = flask.Flask("cohop")
-    app.config.update(DEFAULTS)
+    app.config.update(in_process_config())
+    app.config.update(API_SETTINGS)
     app.config.update(config or {})
+    app.config["MAX_CONTENT_LENGTH"] = app.config["COHOP_MAX_BODY_BYTES"]  # Flask's name for the same cap
     app.json.sort_keys = False
     from cohop.api import auth, logs, metrics, solving
 

@@ -8,8 +8,7 @@ import logging
 from flask import Flask, Response, request
 from werkzeug.exceptions import HTTPException, InternalServerError
 
-from cohop.errors import SiteError
-from cohop.planning.requirements import PlanInfeasible
+from cohop.errors import PlanInfeasible, SiteError
 
 PROBLEM_JSON = "application/problem+json"
 VALIDATION = "urn:cohop:problem:invalid-request"

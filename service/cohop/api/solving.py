@@ -12,12 +12,13 @@ import time
 from flask import current_app
 
 from cohop.api import problems
-from cohop.isolation import SolverCrashed, SolveSlots, run_isolated
+from cohop.errors import SolverBusy, SolverCrashed
+from cohop.isolation import SolveSlots, run_isolated
 from cohop.planning.solve import SolveSettings
 
 
 def solve_settings(config) -> SolveSettings:
-    return SolveSettings(num_workers=config["COHOP_SOLVER_WORKERS"], max_time_s=config["COHOP_MAX_SOLVE_S"],
+    return SolveSettings(solver_threads=config["COHOP_SOLVER_THREADS"], max_solve_s=config["COHOP_MAX_SOLVE_S"],
                          max_products=config["COHOP_MAX_PRODUCTS"], deterministic=config["COHOP_DETERMINISTIC"])
 
 
@@ -35,14 +36,10 @@ def replan_job(site, requirements, current, mode, settings) -> dict:
     return replan_dict(run_replan(site, requirements, current, mode, settings), mode)
 
 
-class Busy(Exception):
-    """Every solve slot is taken."""
-
-
 def slots(app) -> SolveSlots:
     ext = app.extensions.setdefault("cohop", {})
     if "slots" not in ext:
-        ext["slots"] = SolveSlots(app.config["COHOP_SOLVE_SLOTS"])
+        ext["slots"] = SolveSlots(app.config["COHOP_MAX_CONCURRENT_SOLVES"])
     return ext["slots"]
 
 
@@ -54,7 +51,7 @@ def run(kind: str, job, *args):
     if not slot.try_acquire():
         if metrics:
             metrics.rejections.labels(reason="solver busy").inc()
-        raise Busy()
+        raise SolverBusy(app.config["COHOP_MAX_CONCURRENT_SOLVES"])
     started = time.monotonic()
     status = "error"
     try:
@@ -77,7 +74,7 @@ def run(kind: str, job, *args):
 
 
 def register(app) -> None:
-    @app.errorhandler(Busy)
+    @app.errorhandler(SolverBusy)
     def _busy(err):
         after = str(app.config["COHOP_RETRY_AFTER_S"])
         return problems.problem(503, "Solver busy", "every solve slot is taken; try again after Retry-After "

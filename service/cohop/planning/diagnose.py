@@ -16,7 +16,7 @@ from ortools.sat.python import cp_model
 
 from cohop.planning import model as groups
 from cohop.planning.instance import PlanningInstance, runs
-from cohop.planning.requirements import Conflict
+from cohop.errors import Conflict
 
 
 def _count_conflict(inst: PlanningInstance, v: int) -> Conflict:

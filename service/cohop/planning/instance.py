@@ -24,7 +24,8 @@ import numpy as np
 
 from cohop.assess import interferer_collisions
 from cohop.prepare import PreparedSite
-from cohop.planning.requirements import Conflict, PlanInfeasible, PlanRequirements
+from cohop.errors import Conflict, PlanInfeasible
+from cohop.planning.requirements import PlanRequirements
 from cohop.regulatory import check_compliance
 from cohop.regulatory.profiles import EU868_SUBBANDS, SubBand
 from cohop.regulatory.rules import FAIL

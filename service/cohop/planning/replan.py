@@ -31,7 +31,8 @@ from cohop.assess import Assessment, assess_site
 from cohop.planning import model
 from cohop.planning.instance import PlanningInstance, build_instance
 from cohop.planning.linear import hop_sets_of, objective_value, system_estimates
-from cohop.planning.requirements import Conflict, PlanInfeasible, PlanRequirements
+from cohop.errors import Conflict, PlanInfeasible
+from cohop.planning.requirements import PlanRequirements
 from cohop.planning.search import Placement, _best_swap
 from cohop.planning.solve import PlanResult, SolveSettings, _independent, plan_site
 from cohop.planning.validate import Violation, validate_plan
@@ -189,9 +190,9 @@ def _cp_sat_minimum(inst, start, old, existing, target, settings: SolveSettings,
     # changes = channels newly set on existing systems
     m.minimize(sum(mv.x[v, c] for (v, c) in mv.x if existing[v] and not old[v, c]))
     solver = cp_model.CpSolver()
-    solver.parameters.num_workers = settings.num_workers
+    solver.parameters.num_workers = settings.solver_threads
     solver.parameters.max_deterministic_time = seconds
-    solver.parameters.interleave_search = settings.num_workers > 1
+    solver.parameters.interleave_search = settings.solver_threads > 1
     status = solver.solve(m)
     if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
         return None, False

@@ -45,27 +45,6 @@ class PlanRequirements:
         return SystemRequirement(system=system_id)
 
 
-@dataclass(frozen=True)
-class Conflict:
-    """One requirement taking part in an infeasibility, in the user's terms."""
-
-    requirement: str  # e.g. "channel count", "interferer exclusion", "guard"
-    systems: tuple[str, ...]
-    detail: str
-    citation: str | None = None
-    channels: tuple[tuple[int, int], ...] = ()  # inclusive channel ranges involved
-    relax: str = ""
-
-
-class PlanInfeasible(Exception):
-    """No plan can meet the hard requirements; `conflicts` is a small conflicting set."""
-
-    def __init__(self, conflicts: list[Conflict], proven: bool = True):
-        self.conflicts = conflicts
-        self.proven = proven
-        super().__init__("; ".join(c.detail for c in conflicts))
-
-
 @dataclass
 class Progress:
     """What a progress callback receives while the solver works."""

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from typing import Callable
 
-from cohop.errors import SiteError
-from cohop.planning.requirements import Conflict, PlanInfeasible, PlanRequirements, Progress
+from cohop.errors import Conflict, PlanInfeasible, SiteError
+from cohop.planning.requirements import PlanRequirements, Progress
 from cohop.planning.solve import NO_PLAN, PlanResult, SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from cohop.site import Site

@@ -16,11 +16,13 @@ import numpy as np
 from ortools.sat.python import cp_model
 
 from cohop.assess import Assessment, assess_site
+from cohop.config import default_of
 from cohop.planning import baselines, bound, model, search
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import PlanningInstance, build_instance
 from cohop.planning.linear import hop_sets_of, marginal_costs, objective_value, system_estimates
-from cohop.planning.requirements import PlanInfeasible, PlanRequirements, Progress
+from cohop.errors import PlanInfeasible
+from cohop.planning.requirements import PlanRequirements, Progress
 from cohop.planning.validate import Violation, validate_plan
 from cohop.prepare import PreparedSite
 from cohop.sequences.report import SequenceOutcome, plan_sequences
@@ -35,10 +37,12 @@ DETERMINISTIC_UNITS_PER_SECOND = 0.5
 
 @dataclass(frozen=True)
 class SolveSettings:
-    num_workers: int = 2
-    max_time_s: float = 60.0  # server cap on the request's time limit
-    max_products: int = 30_000  # the full CP-SAT model is skipped above this many pair booleans
-    deterministic: bool = True
+    """The solver's share of the COHOP_ settings (`cohop.config.Settings`), same names."""
+
+    solver_threads: int = default_of("solver_threads")
+    max_solve_s: float = default_of("max_solve_s")  # server cap on the request's time limit
+    max_products: int = default_of("max_products")  # the full CP-SAT model is skipped above this many pair booleans
+    deterministic: bool = default_of("deterministic")
 
 
 @dataclass
@@ -123,12 +127,12 @@ def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget_s: float, s
     model.minimise(m, mv, inst, objective, scale)
     solver = cp_model.CpSolver()
     p = solver.parameters
-    p.num_workers = settings.num_workers
+    p.num_workers = settings.solver_threads
     p.random_seed = int(inst.req.seed) % (2**31)
     if settings.deterministic:
-        p.interleave_search = settings.num_workers > 1
+        p.interleave_search = settings.solver_threads > 1
         p.max_deterministic_time = budget_s * DETERMINISTIC_UNITS_PER_SECOND
-        p.max_time_in_seconds = settings.max_time_s  # safety only
+        p.max_time_in_seconds = settings.max_solve_s  # safety only
     else:
         p.max_time_in_seconds = budget_s
     constant = 0.0 if worst else mv.constant
@@ -231,7 +235,7 @@ def _search(inst: PlanningInstance, settings: SolveSettings, limit: float, clock
     a proven start ends the search), iterated local search (45 %, or 70 % without CP-SAT), CP-SAT on the
     full model when it is small enough (25 %), and the column-generation bound (25 %).
     """
-    stop = (lambda: clock.elapsed() > settings.max_time_s)  # wall-clock safety cap only
+    stop = (lambda: clock.elapsed() > settings.max_solve_s)  # wall-clock safety cap only
     start = search.greedy(inst)
     if start is None:
         _infeasible(inst)  # raises when no plan exists; otherwise CP-SAT looks for one
@@ -278,7 +282,7 @@ def _search(inst: PlanningInstance, settings: SolveSettings, limit: float, clock
         clock.tell("column generation", bound=cg.bound)
         notes.append(f"column generation: windows of {cg.window} channel(s), {cg.iterations} iteration(s), "
                      f"{cg.columns} columns, {'converged' if cg.converged else 'stopped at its work budget'}")
-    if clock.elapsed() > settings.max_time_s:
+    if clock.elapsed() > settings.max_solve_s:
         notes.append("the wall-clock safety cap stopped the search: this run may not repeat exactly")
     return x, bounds, method, scale
 
@@ -290,7 +294,7 @@ def _value(inst: PlanningInstance, x: np.ndarray) -> float:
 def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings = SolveSettings(),
               progress: Callable[[Progress], None] | None = None, detail: str = "channel",
               with_sequences: bool = True) -> PlanResult:
-    limit = min(req.time_limit_s, settings.max_time_s)
+    limit = min(req.time_limit_s, settings.max_solve_s)
     clock = _Clock(limit, progress)
     full = build_instance(prep, req)
     inst = _independent(full) if req.coordination == "independent" else full
@@ -314,7 +318,7 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
                           time_limit_s=limit, method=method, bounds=bounds, evaluated_objective=evaluated,
                           linearisation_error=objective_value(full, system_estimates(full, x)) - evaluated,
                           scale_factor=scale.factor,
-                          rounding=scale.max_relative_rounding, workers=settings.num_workers,
+                          rounding=scale.max_relative_rounding, workers=settings.solver_threads,
                           deterministic=settings.deterministic, binding=_binding(inst, x, estimates), notes=notes)
     return PlanResult(instance=inst, hop_sets=hop_sets, assessment=assessment, report=report,
                       baselines=_baselines(full), violations=violations, sequences=sequences)

@@ -46,4 +46,4 @@ class Ready(MethodView):
 
             abort(503, message="shutting down: send new work elsewhere")
         return {"status": "ready", "solves_running": slots(current_app).active,
-                "solve_slots": current_app.config["COHOP_SOLVE_SLOTS"]}
+                "solve_slots": current_app.config["COHOP_MAX_CONCURRENT_SOLVES"]}
