@@ -20,6 +20,15 @@ per-channel hit thresholds broadcast instead of being gathered. One uniform
 u decides both activity and channel: active iff u < alpha, and then
 floor(u / alpha * N) is a uniform channel index, so "active and in the
 window [lo, hi) of sorted hop-set indices" is alpha lo / N <= u < alpha hi / N.
+
+Long packets against short dwells overlap many bursts (up to
+`cohop.limits.MAX_OVERLAPS`). Up to `_DRAWN_OVERLAPS` bursts are drawn one
+by one; beyond that the k0 bursts that overlap whatever the phase are drawn
+together as the number of them that hit, Binomial(k0, p) with p the burst's
+hit probability on the victim's channel (the same independent bursts,
+counted at once), and only the phase-dependent extra bursts one by one, so
+the work does not grow with k0. The phase indicator is kept apart from k0
+(0, 1 or 2 extra bursts), so no count can overflow its integer type.
 """
 
 from __future__ import annotations
@@ -34,6 +43,8 @@ from cohop.prepare import PreparedSite
 
 #: Elements per working array; keeps the arrays in cache.
 _BLOCK_ELEMENTS = 1 << 16
+#: Sources overlapping at most this many bursts whatever the phase have each burst drawn.
+_DRAWN_OVERLAPS = 4
 Z95 = 1.959963984540054  # standard normal 97.5 % quantile
 
 
@@ -147,22 +158,31 @@ def _bits(bitgen, shape) -> np.ndarray:
     return bitgen.random_raw((n + 1) // 2).view(np.uint32)[:n].reshape(shape)
 
 
+def _certain_hits(bitgen, shape, src: _Source) -> np.ndarray:
+    """Boolean (channels, block): does any of the k0 bursts that overlap whatever the phase hit?
+    Their number of hits is Binomial(k0, p), p = (thr_hi - thr_lo) / 2^32 per victim channel."""
+    lo = 0 if src.thr_lo is None else src.thr_lo.astype(float)
+    p = (src.thr_hi.astype(float) - lo) / _SCALE
+    return np.random.Generator(bitgen).binomial(src.base_overlaps, np.broadcast_to(p, shape)) > 0
+
+
 def _source_hits(bitgen, shape, src: _Source, buf: dict) -> np.ndarray:
     """Boolean (channels, block): does any overlapped burst of `src` hit?"""
-    count = None
+    extra = None  # bursts overlapped beyond base_overlaps: 0, 1 or 2 (by the phase)
     if src.phase_lo is not None:
         x = _bits(bitgen, shape)
-        count = np.less(x, src.phase_lo, out=buf["m1"]).view(np.int8)
-        count += np.greater(x, src.phase_hi, out=buf["m2"]).view(np.int8)
-        count += src.base_overlaps
-    hit = None
-    for j in range(src.max_overlaps):
+        extra = np.less(x, src.phase_lo, out=buf["m1"]).view(np.int8)
+        extra += np.greater(x, src.phase_hi, out=buf["m2"]).view(np.int8)
+    hit, first = None, 0
+    if src.base_overlaps > _DRAWN_OVERLAPS:
+        hit, first = _certain_hits(bitgen, shape, src), src.base_overlaps
+    for j in range(first, src.max_overlaps):
         u = _bits(bitgen, shape)
         h = np.less(u, src.thr_hi, out=buf["h"])
         if src.thr_lo is not None:
             h &= np.greater_equal(u, src.thr_lo, out=buf["t"])
-        if count is not None and j >= src.base_overlaps:
-            h &= np.greater(count, j, out=buf["t"])
+        if extra is not None and j >= src.base_overlaps:
+            h &= np.greater(extra, j - src.base_overlaps, out=buf["t"])
         if hit is None:
             hit = h.copy() if src.max_overlaps > 1 else h
         else:

@@ -14,6 +14,11 @@ receivers where it was taken: the systems it names, or, for a survey taken
 at a position, the systems whose receivers (their `position`) lie on the
 same floor within the survey's radius. The interferers it yields reach the
 other systems at a negligible level.
+
+Work: the trace is integrated once per distinct bandwidth of the systems a
+survey stands for (vectorised over the grid), within the request bounds of
+`cohop.limits` (points, surveys, integration work); the interferers derived
+are capped at `limits.MAX_DERIVED_INTERFERERS` (a 422 names the surveys).
 """
 
 from __future__ import annotations
@@ -23,7 +28,9 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from cohop.physics.spectrum import channel_power_mw, mw_to_dbm, share_occupied
+from cohop import limits
+from cohop.errors import SiteError
+from cohop.physics.spectrum import channel_powers_mw, mw_to_dbm, shares_occupied
 from cohop.site import Interferer, InterfererLevel, Site, Survey, System
 
 #: Level of a survey-derived interferer at systems the survey does not apply to [dBm].
@@ -44,15 +51,14 @@ class DerivedInterferer:
 
 def channel_levels(survey: Survey, centres_hz: np.ndarray, bandwidth_hz: float) -> tuple[np.ndarray, np.ndarray]:
     """Per grid channel: power in the bandwidth [dBm] (nan where the trace does not reach) and activity."""
-    levels = np.full(centres_hz.size, np.nan)
+    p = channel_powers_mw(survey.frequencies_hz, survey.levels_dbm, survey.resolution_bandwidth_hz, centres_hz,
+                          bandwidth_hz, survey.noise_bandwidth_factor)
+    measured = p > 0  # False for nan too
+    levels = np.where(measured, mw_to_dbm(np.where(measured, p, 1.0)), np.nan)
     activity = np.ones(centres_hz.size)
-    for c, f in enumerate(centres_hz):
-        p = channel_power_mw(survey.frequencies_hz, survey.levels_dbm, survey.resolution_bandwidth_hz, f,
-                             bandwidth_hz, survey.noise_bandwidth_factor)
-        if p is not None and p > 0:
-            levels[c] = float(mw_to_dbm(p))
-            if survey.occupancy_fraction is not None:
-                activity[c] = share_occupied(survey.frequencies_hz, survey.occupancy_fraction, f, bandwidth_hz)
+    if survey.occupancy_fraction is not None:
+        shares = shares_occupied(survey.frequencies_hz, survey.occupancy_fraction, centres_hz, bandwidth_hz)
+        activity = np.where(measured, shares, 1.0)
     return levels, activity
 
 
@@ -83,19 +89,38 @@ def stands_for(survey: Survey, systems: tuple[System, ...]) -> tuple[str, ...]:
     return tuple(s.id for s in systems if (d := distance_m(survey, s)) is not None and d <= survey.radius_m)
 
 
+def _occupied_runs(survey: Survey, centres_hz: np.ndarray, bandwidth_hz: float):
+    """(levels, activity, floor, runs) of one survey over one bandwidth; None if it measures no channel."""
+    levels, activity = channel_levels(survey, centres_hz, bandwidth_hz)
+    measured = ~np.isnan(levels)
+    if not measured.any():
+        return None
+    floor = float(np.median(levels[measured]))
+    occupied = measured & (levels >= floor + survey.detection_margin_db)
+    return levels, activity, floor, _runs(occupied, np.nan_to_num(levels, nan=-999.0), activity)
+
+
+def _too_many(count: int) -> SiteError:
+    return SiteError([("/surveys", f"the surveys yield {count} or more interferers, above the cap of "
+                                   f"{limits.MAX_DERIVED_INTERFERERS}: raise detection_margin_db or apply "
+                                   "each survey to fewer systems")])
+
+
 def derive(site: Site, centres_hz: np.ndarray) -> list[DerivedInterferer]:
     systems = {s.id: s for s in site.systems}
     out = []
     for survey in site.surveys:
+        by_bandwidth: dict[float, tuple | None] = {}
         for sid in stands_for(survey, site.systems):
             bw = systems[sid].bandwidth_hz
-            levels, activity = channel_levels(survey, centres_hz, bw)
-            measured = ~np.isnan(levels)
-            if not measured.any():
+            if bw not in by_bandwidth:
+                by_bandwidth[bw] = _occupied_runs(survey, centres_hz, bw)
+            if by_bandwidth[bw] is None:
                 continue
-            floor = float(np.median(levels[measured]))
-            occupied = measured & (levels >= floor + survey.detection_margin_db)
-            for k, (lo, hi) in enumerate(_runs(occupied, np.nan_to_num(levels, nan=-999.0), activity)):
+            levels, activity, floor, runs = by_bandwidth[bw]
+            if len(out) + len(runs) > limits.MAX_DERIVED_INTERFERERS:
+                raise _too_many(len(out) + len(runs))
+            for k, (lo, hi) in enumerate(runs):
                 mean_mw = float(np.mean(np.power(10.0, levels[lo:hi + 1] / 10)))
                 width = float(centres_hz[hi] - centres_hz[lo])
                 total = mean_mw * max(1.0, width / bw)  # the model hands a channel B / width of the total

@@ -61,6 +61,7 @@ def create_app(config: dict | None = None) -> flask.Flask:
     app.config.update(API_SETTINGS)
     app.config.update(config or {})
     app.config["MAX_CONTENT_LENGTH"] = app.config["COHOP_MAX_BODY_BYTES"]  # Flask's name for the same cap
+    app.json = problems.StrictJSONProvider(app)  # answers are strict JSON: no NaN or infinity
     app.json.sort_keys = False
     from cohop.api import auth, logs, metrics, solving
 

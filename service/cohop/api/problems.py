@@ -6,8 +6,10 @@ import json
 import logging
 
 from flask import Flask, Response, request
+from flask.json.provider import DefaultJSONProvider
 from werkzeug.exceptions import HTTPException, InternalServerError
 
+from cohop import limits
 from cohop.errors import PlanInfeasible, SiteError
 
 PROBLEM_JSON = "application/problem+json"
@@ -26,12 +28,37 @@ def problem(status: int, title: str, detail: str | None = None, type_: str = "ab
         body["detail"] = detail
     body["instance"] = request.path if request else ""
     if errors:
-        body["errors"] = errors
+        body["errors"] = [_short(e) for e in errors[:limits.MAX_FIELD_ERRORS]]
+        if len(errors) > limits.MAX_FIELD_ERRORS:
+            body["errors_omitted"] = len(errors) - limits.MAX_FIELD_ERRORS
     body.update(extensions)
-    resp = Response(json.dumps(body), status=status, mimetype=PROBLEM_JSON)
+    resp = Response(json.dumps(body, allow_nan=False), status=status, mimetype=PROBLEM_JSON)
     for k, v in (headers or {}).items():
         resp.headers[k] = v
     return resp
+
+
+#: Longest pointer or detail echoed back (an unknown key may be megabytes long).
+_ECHO_CHARS = 500
+
+
+def _short(error: dict) -> dict:
+    return {k: v if len(v) <= _ECHO_CHARS else v[:_ECHO_CHARS] + "... (cut)" for k, v in error.items()}
+
+
+class NonFiniteNumber(ValueError):
+    """A response would carry NaN or infinity: a bug (an admitted input reached a non-finite figure)."""
+
+
+class StrictJSONProvider(DefaultJSONProvider):
+    """Flask's JSON provider refusing NaN and infinity, which are not JSON (RFC 8259)."""
+
+    def dumps(self, obj, **kwargs):
+        kwargs["allow_nan"] = False
+        try:
+            return super().dumps(obj, **kwargs)
+        except ValueError as err:
+            raise NonFiniteNumber(str(err)) from None
 
 
 def _escape(token) -> str:
@@ -61,7 +88,8 @@ def _http_exception(err: HTTPException):
     if err.code == 422 and messages is not None:
         body_messages = messages.get("json", messages) if isinstance(messages, dict) else messages
         errors = flatten_messages(body_messages)
-        return problem(422, "Invalid request", f"{len(errors)} field(s) failed validation", VALIDATION, errors)
+        shown = f" (the first {limits.MAX_FIELD_ERRORS} listed)" if len(errors) > limits.MAX_FIELD_ERRORS else ""
+        return problem(422, "Invalid request", f"{len(errors)} field(s) failed validation{shown}", VALIDATION, errors)
     if err.code == 413:
         return problem(413, "Request body too large",
                        f"the body exceeds this server's cap of {request.max_content_length} bytes")
@@ -88,6 +116,11 @@ def _infeasible(err: PlanInfeasible):
                    NOT_FOUND_IN_TIME, conflicts=conflicts, proven=False)
 
 
+def _non_finite(err: NonFiniteNumber):
+    log.error("non-finite number in the answer to %s %s: %s", request.method, request.path, err)
+    return _http_exception(InternalServerError())
+
+
 def _unexpected(err: Exception):
     if isinstance(err, HTTPException):
         return _http_exception(err)
@@ -99,4 +132,5 @@ def register(app: Flask) -> None:
     app.register_error_handler(HTTPException, _http_exception)
     app.register_error_handler(SiteError, _site_error)
     app.register_error_handler(PlanInfeasible, _infeasible)
+    app.register_error_handler(NonFiniteNumber, _non_finite)
     app.register_error_handler(Exception, _unexpected)

@@ -41,8 +41,15 @@ class OverlapCount:
 
 
 def random_phase_overlap(victim_airtime_s: float, burst_s: float, period_s: float) -> OverlapCount:
-    """K for an unsynchronised source (random phase), see module docstring."""
+    """K for an unsynchronised source (random phase), see module docstring.
+
+    Needs positive times whose ratio W / D_a is finite; requests keep it at most
+    `cohop.limits.MAX_OVERLAPS`, and anything else is a caller's bug (ValueError)."""
+    if not (victim_airtime_s > 0 and burst_s > 0 and period_s > 0):
+        raise ValueError(f"times must be positive: {victim_airtime_s!r}, {burst_s!r}, {period_s!r}")
     ratio = (victim_airtime_s + burst_s) / period_s
+    if not math.isfinite(ratio):
+        raise ValueError(f"(T_v + T_a) / D_a is not finite for {victim_airtime_s!r}, {burst_s!r}, {period_s!r}")
     k0 = math.floor(ratio)
     return OverlapCount(k0=k0, r=ratio - k0)
 

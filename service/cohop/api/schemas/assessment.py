@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from marshmallow import fields, post_load, validate
 
+from cohop import limits
 from cohop.api.schemas.fields import Count, Text
 from cohop.api.schemas.sequences import SequencesSchema
 from cohop.api.schemas.site import SiteSchema, StrictSchema
@@ -12,10 +13,10 @@ from cohop.evaluation import AssessmentRequest, SimulationRequest
 
 
 class SimulationRequestSchema(StrictSchema):
-    trials_per_system = Count(required=True, validate=validate.Range(min=1000),
+    trials_per_system = Count(limits.TRIALS_PER_SYSTEM, required=True,
                               metadata={"description": "Simulated packet attempts per system; the total is capped "
                                                        "by the server (see the 422 it answers above the cap)."})
-    seed = Count(load_default=0, validate=validate.Range(min=0, max=2**63 - 1))
+    seed = Count(limits.SIMULATION_SEED, load_default=0)
 
     @post_load
     def _make(self, data, **kwargs):

@@ -1,4 +1,5 @@
-"""Strict fields: numbers must be JSON numbers (not strings or booleans) and finite."""
+"""Strict fields: numbers must be JSON numbers (not strings or booleans) and finite, within the bounds of
+`cohop.limits`; lists have their length checked before any element is looked at."""
 
 from __future__ import annotations
 
@@ -7,32 +8,47 @@ import math
 import marshmallow as ma
 from marshmallow import fields, validate
 
+from cohop import limits
+
+
+def within(bound: limits.Bound) -> validate.Range:
+    """The inclusive range of a `cohop.limits.Bound` (written into the OpenAPI document as minimum/maximum)."""
+    return validate.Range(min=bound.minimum, max=bound.maximum)
+
+
+def _described(kwargs: dict, bound: limits.Bound | None) -> dict:
+    if bound is not None:
+        kwargs["validate"] = [within(bound), *_as_list(kwargs.get("validate"))]
+    return kwargs
+
+
+def _as_list(checks) -> list:
+    if checks is None:
+        return []
+    return list(checks) if isinstance(checks, (list, tuple)) else [checks]
+
 
 class Number(fields.Float):
-    """A finite JSON number. Rejects strings, booleans, NaN and infinity.
+    """A finite JSON number. Rejects strings, booleans, NaN and infinity. `bound` gives its range."""
 
-    An exclusive lower bound is written into the OpenAPI document too (apispec leaves it out)."""
-
-    def __init__(self, **kwargs):
-        checks = kwargs.get("validate")
-        checks = checks if isinstance(checks, (list, tuple)) else [checks]
-        if any(isinstance(c, validate.Range) and c.min is not None and not c.min_inclusive for c in checks):
-            kwargs["metadata"] = {**kwargs.get("metadata", {}), "exclusiveMinimum": True}
-        super().__init__(allow_nan=False, **kwargs)
+    def __init__(self, bound: limits.Bound | None = None, **kwargs):
+        super().__init__(allow_nan=False, **_described(kwargs, bound))
 
     def _deserialize(self, value, attr, data, **kwargs):
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise ma.ValidationError("Must be a JSON number.")
         if isinstance(value, float) and not math.isfinite(value):
             raise ma.ValidationError("Must be finite (no NaN or infinity).")
+        if isinstance(value, int) and abs(value) > 1e300:
+            raise ma.ValidationError("Must be a number of ordinary size.")
         return super()._deserialize(value, attr, data, **kwargs)
 
 
 class Count(fields.Integer):
-    """A JSON integer (not a float, string or boolean)."""
+    """A JSON integer (not a float, string or boolean). `bound` gives its range."""
 
-    def __init__(self, **kwargs):
-        super().__init__(strict=True, **kwargs)
+    def __init__(self, bound: limits.Bound | None = None, **kwargs):
+        super().__init__(strict=True, **_described(kwargs, bound))
 
     def _deserialize(self, value, attr, data, **kwargs):
         if isinstance(value, bool) or not isinstance(value, int):
@@ -49,13 +65,33 @@ class Text(fields.String):
         return super()._deserialize(value, attr, data, **kwargs)
 
 
+class List(fields.List):
+    """A JSON array whose length is checked before its elements are, and whose element errors stop at
+    `cohop.limits.MAX_FIELD_ERRORS` (a huge array of bad elements costs one error, not millions)."""
+
+    def __init__(self, inner, *, max_length: int, min_length: int | None = None, **kwargs):
+        self.length = validate.Length(min=min_length, max=max_length)
+        kwargs["validate"] = [self.length, *_as_list(kwargs.get("validate"))]
+        super().__init__(inner, **kwargs)
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if not isinstance(value, list):
+            raise self.make_error("invalid")
+        self.length(value)
+        result, errors = [], {}
+        for idx, each in enumerate(value):
+            try:
+                result.append(self.inner.deserialize(each, **kwargs))
+            except ma.ValidationError as error:
+                errors[idx] = error.messages
+                if len(errors) >= limits.MAX_FIELD_ERRORS and idx + 1 < len(value):
+                    errors["_schema"] = [f"Validation stopped after {len(errors)} failing elements "
+                                         f"(of {len(value)})."]
+                    break
+        if errors:
+            raise ma.ValidationError(errors)
+        return result
+
+
 IDENTIFIER = validate.Regexp(r"^[A-Za-z0-9][A-Za-z0-9_.:-]{0,63}$",
                              error="Use 1-64 letters, digits or _ . : - (starting with a letter or digit).")
-
-
-def positive(maximum: float | None = None):
-    return validate.Range(min=0.0, min_inclusive=False, max=maximum)
-
-
-def between(lo: float, hi: float):
-    return validate.Range(min=lo, max=hi)

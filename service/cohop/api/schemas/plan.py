@@ -7,17 +7,14 @@ from marshmallow import fields, post_load, validate, validates_schema
 
 from cohop import limits
 from cohop.api.schemas.assessment import AssessmentResponseSchema
-from cohop.api.schemas.fields import IDENTIFIER, Count, Number, Text, between
+from cohop.api.schemas import bounds
+from cohop.api.schemas.fields import IDENTIFIER, Count, List, Number, Text
 from cohop.api.schemas.problem import ProblemSchema
 from cohop.api.schemas.sequences import SequencesSchema
-from cohop.api.schemas.site import ErrorTree, SiteSchema, StrictSchema
+from cohop.api.schemas.site import ErrorTree, SiteSchema, StrictSchema, channel_index
 from cohop.assess import DETAIL_LEVELS
 from cohop.planning.requirements import (BASELINES, COORDINATION, DEFAULT_INTERFERER_THRESHOLD, OBJECTIVES,
                                          PlanRequirements, SystemRequirement)
-
-def _channel() -> Count:
-    return Count(validate=validate.Range(min=0, max=limits.MAX_CHANNELS - 1))
-
 
 class SystemRequirementSchema(StrictSchema):
     system = Text(required=True, validate=IDENTIFIER)
@@ -25,12 +22,12 @@ class SystemRequirementSchema(StrictSchema):
                          metadata={"description": "At least this many channels (default: the profile's minimum)."})
     max_channels = Count(validate=validate.Range(min=1, max=limits.MAX_CHANNELS),
                          metadata={"description": "At most this many (default: the minimum, i.e. an exact count)."})
-    excluded_channels = fields.List(_channel(), load_default=list, validate=validate.Length(max=limits.MAX_CHANNELS))
-    pinned_channels = fields.List(_channel(), load_default=list, validate=validate.Length(max=limits.MAX_CHANNELS),
+    excluded_channels = List(channel_index(), load_default=list, max_length=limits.MAX_CHANNELS)
+    pinned_channels = List(channel_index(), load_default=list, max_length=limits.MAX_CHANNELS,
                                   metadata={"description": "Channels the system must keep (a pin overrides an "
                                                            "interferer exclusion, not an explicit one)."})
-    max_attempt_loss = Number(validate=between(0.0, 1.0), metadata={"description": "Ceiling on per-attempt loss."})
-    max_residual_loss = Number(validate=between(0.0, 1.0),
+    max_attempt_loss = Number(limits.FRACTION, metadata={"description": "Ceiling on per-attempt loss."})
+    max_residual_loss = Number(limits.FRACTION,
                                metadata={"description": "Ceiling on loss after the retry limit."})
 
     @validates_schema
@@ -55,13 +52,12 @@ class SystemRequirementSchema(StrictSchema):
 
 
 class RequirementsSchema(StrictSchema):
-    systems = fields.List(fields.Nested(SystemRequirementSchema), load_default=list,
-                          validate=validate.Length(max=limits.MAX_SYSTEMS))
-    interferer_threshold = Number(load_default=DEFAULT_INTERFERER_THRESHOLD, validate=between(0.0, 1.0),
+    systems = List(fields.Nested(SystemRequirementSchema), load_default=list, max_length=limits.MAX_SYSTEMS)
+    interferer_threshold = Number(limits.FRACTION, load_default=DEFAULT_INTERFERER_THRESHOLD,
                                   metadata={"description": "A channel is excluded for a system when a fixed "
                                                            "interferer's predicted hit probability there exceeds "
                                                            f"this (default {DEFAULT_INTERFERER_THRESHOLD})."})
-    guard_excess_db = Number(load_default=None, validate=between(-50.0, 200.0),
+    guard_excess_db = Number(limits.GUARD_EXCESS_DB, load_default=None,
                              metadata={"description": "Pairs whose excess reaches this keep entirely out of each "
                                                       "other's harmful windows (default: no guard)."})
     coordination = Text(load_default="joint", validate=validate.OneOf(COORDINATION),
@@ -77,10 +73,10 @@ class RequirementsSchema(StrictSchema):
 
 
 class SearchSchema(StrictSchema):
-    time_limit_s = Number(load_default=10.0, validate=between(0.1, 3600.0),
+    time_limit_s = Number(limits.TIME_LIMIT_S, load_default=10.0,
                           metadata={"description": "Search budget; clamped by the server's cap."})
-    seed = Count(load_default=0, validate=validate.Range(min=0, max=2**31 - 1))
-    sequence_packets = Count(load_default=5_000, validate=validate.Range(min=1000, max=1_000_000),
+    seed = Count(limits.SEED, load_default=0)
+    sequence_packets = Count(limits.SEQUENCE_PACKETS, load_default=5_000,
                              metadata={"description": "Simulated packets per system for the sequence-driven "
                                                       "retry figures"})
 
@@ -89,9 +85,17 @@ class PlanRequestSchema(StrictSchema):
     site = fields.Nested(SiteSchema, required=True)
     requirements = fields.Nested(RequirementsSchema, load_default=None)
     search = fields.Nested(SearchSchema, load_default=None)
-    baselines = fields.List(Text(validate=validate.OneOf(BASELINES + ("all",))), load_default=list,
+    baselines = List(Text(validate=validate.OneOf(BASELINES + ("all",))), load_default=list,
+                     max_length=limits.MAX_BASELINES,
                             metadata={"description": "Practitioners' plans to evaluate beside the optimised one."})
     detail = Text(load_default="channel", validate=validate.OneOf(DETAIL_LEVELS))
+
+    @validates_schema
+    def _simulated_hops(self, data, **kwargs):
+        errors = ErrorTree()
+        search = data.get("search") or {}
+        bounds.check_simulated_hops(errors.add, data["site"].systems, search.get("sequence_packets", 5_000))
+        errors.raise_if_any()
 
     @validates_schema
     def _references(self, data, **kwargs):
@@ -216,8 +220,8 @@ class InfeasibleProblemSchema(ProblemSchema):
 
 class CurrentSystemSchema(StrictSchema):
     id = Text(required=True, validate=IDENTIFIER)
-    hop_set = fields.List(_channel(), required=True, validate=validate.Length(min=1, max=limits.MAX_CHANNELS))
-    sequence = fields.List(_channel(), load_default=None, validate=validate.Length(min=1, max=limits.MAX_CHANNELS),
+    hop_set = List(channel_index(), required=True, min_length=1, max_length=limits.MAX_CHANNELS)
+    sequence = List(channel_index(), load_default=None, min_length=1, max_length=limits.MAX_SEQUENCE_HOPS,
                            metadata={"description": "Kept when the hop set does not change"})
 
     @validates_schema
@@ -229,17 +233,16 @@ class CurrentSystemSchema(StrictSchema):
 
 
 class CurrentPlanSchema(StrictSchema):
-    systems = fields.List(fields.Nested(CurrentSystemSchema), required=True,
-                          validate=validate.Length(min=1, max=limits.MAX_SYSTEMS))
+    systems = List(fields.Nested(CurrentSystemSchema), required=True, min_length=1, max_length=limits.MAX_SYSTEMS)
 
 
 class ReplanModeSchema(StrictSchema):
     kind = Text(load_default="tolerance", validate=validate.OneOf(("tolerance", "budget")),
                 metadata={"description": "tolerance: fewest changes within the tolerance of a fresh plan; "
                                          "budget: best plan with at most max_changes changes"})
-    tolerance = Number(load_default=0.05, validate=between(0.0, 10.0), metadata={
+    tolerance = Number(limits.REPLAN_TOLERANCE, load_default=0.05, metadata={
         "description": "Objective at most (1 + tolerance) x the fresh plan's (default 0.05)"})
-    max_changes = Count(load_default=None, validate=validate.Range(min=0, max=10**6))
+    max_changes = Count(limits.MAX_CHANGES, load_default=None)
 
     @validates_schema
     def _budget(self, data, **kwargs):

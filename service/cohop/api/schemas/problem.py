@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from marshmallow import fields
 
+from cohop import limits
 from cohop.api.schemas.site import StrictSchema
 
 
@@ -19,4 +20,9 @@ class ProblemSchema(StrictSchema):
     detail = fields.String()
     instance = fields.String()
     errors = fields.List(fields.Nested(FieldErrorSchema), metadata={
-        "description": "Every offending field, when the request was invalid"})
+        "description": f"The offending fields, when the request was invalid: every one, up to "
+                       f"{limits.MAX_FIELD_ERRORS} (sorted by pointer); pointers and details longer than 500 "
+                       "characters are cut"})
+    errors_omitted = fields.Integer(metadata={
+        "description": f"How many further field errors were left out of `errors` (present only when more than "
+                       f"{limits.MAX_FIELD_ERRORS} were found)"})

@@ -8,11 +8,12 @@ grid against band, hop sets against grid) live in `SiteSchema`.
 from __future__ import annotations
 
 import marshmallow as ma
-from marshmallow import fields, post_load, validate, validates_schema
+from marshmallow import fields, post_load, pre_load, validate, validates_schema
 
 from cohop import limits
 from cohop import surveys as surveys_domain
-from cohop.api.schemas.fields import IDENTIFIER, Count, Number, Text, between, positive
+from cohop.api.schemas import bounds
+from cohop.api.schemas.fields import IDENTIFIER, Count, List, Number, Text
 from cohop.regulatory import PROFILES
 from cohop.site import (Band, Coupling, CouplingEntry, Fading, Grid, Interferer, InterfererLevel, Position,
                         Propagation, RejectionPoint, Site, Survey, System)
@@ -44,10 +45,25 @@ class StrictSchema(ma.Schema):
         unknown = ma.RAISE
         ordered = True
 
+    @pre_load
+    def _few_unknown(self, data, **kwargs):
+        """An object with a flood of unknown keys costs a bounded error list, not one error per key."""
+        if not isinstance(data, dict) or len(data) <= len(self.load_fields) + limits.MAX_FIELD_ERRORS:
+            return data
+        known = {f.data_key or name for name, f in self.load_fields.items()}
+        unknown = [k for k in data if k not in known]
+        errors = {k: ["Unknown field."] for k in unknown[:limits.MAX_FIELD_ERRORS]}
+        errors["_schema"] = [f"{len(unknown)} unknown fields; the object was not read further."]
+        raise ma.ValidationError(errors)
+
+
+def channel_index() -> Count:
+    return Count(validate=validate.Range(min=0, max=limits.MAX_CHANNELS - 1))
+
 
 class BandSchema(StrictSchema):
-    low_hz = Number(required=True, validate=positive(1e12))
-    high_hz = Number(required=True, validate=positive(1e12))
+    low_hz = Number(limits.FREQUENCY_HZ, required=True)
+    high_hz = Number(limits.FREQUENCY_HZ, required=True)
 
     @validates_schema
     def _order(self, data, **kwargs):
@@ -60,9 +76,9 @@ class BandSchema(StrictSchema):
 
 
 class GridSchema(StrictSchema):
-    first_centre_hz = Number(required=True, validate=positive(1e12),
+    first_centre_hz = Number(limits.FREQUENCY_HZ, required=True,
                              metadata={"description": "Centre of channel 0."})
-    spacing_hz = Number(required=True, validate=positive(1e9))
+    spacing_hz = Number(limits.CHANNEL_SPACING_HZ, required=True)
     count = Count(required=True, validate=validate.Range(min=1, max=limits.MAX_CHANNELS))
 
     @post_load
@@ -71,8 +87,8 @@ class GridSchema(StrictSchema):
 
 
 class RejectionPointSchema(StrictSchema):
-    offset_hz = Number(required=True, validate=positive(1e10))
-    rejection_db = Number(required=True, validate=between(0.0, 200.0))
+    offset_hz = Number(limits.REJECTION_OFFSET_HZ, required=True)
+    rejection_db = Number(limits.REJECTION_DB, required=True)
 
     @post_load
     def _make(self, data, **kwargs):
@@ -81,7 +97,7 @@ class RejectionPointSchema(StrictSchema):
 
 class FadingSchema(StrictSchema):
     model = Text(required=True, validate=validate.OneOf(FADING_MODELS))
-    k_factor_db = Number(validate=between(-30.0, 40.0), metadata={"description": "Rician K-factor; rician only."})
+    k_factor_db = Number(limits.K_FACTOR_DB, metadata={"description": "Rician K-factor; rician only."})
 
     @validates_schema
     def _k(self, data, **kwargs):
@@ -96,9 +112,9 @@ class FadingSchema(StrictSchema):
 
 
 class PositionSchema(StrictSchema):
-    x_m = Number(required=True, validate=between(-1e6, 1e6))
-    y_m = Number(required=True, validate=between(-1e6, 1e6))
-    floor = Count(load_default=0, validate=validate.Range(min=-50, max=200))
+    x_m = Number(limits.COORDINATE_M, required=True)
+    y_m = Number(limits.COORDINATE_M, required=True)
+    floor = Count(limits.FLOOR, load_default=0)
 
     @post_load
     def _make(self, data, **kwargs):
@@ -114,40 +130,38 @@ def _exactly_one(data: dict, names: tuple[str, str]) -> str | None:
 
 class SystemSchema(StrictSchema):
     id = Text(required=True, validate=IDENTIFIER)
-    label = Text(load_default="", validate=validate.Length(max=200))
-    tx_power_dbm = Number(required=True, validate=between(-60.0, 60.0),
+    label = Text(load_default="", validate=validate.Length(max=limits.MAX_TEXT_CHARS))
+    tx_power_dbm = Number(limits.TX_POWER_DBM, required=True,
                           metadata={"description": "Conducted transmit power."})
-    antenna_gain_dbi = Number(load_default=0.0, validate=between(-30.0, 40.0))
-    bandwidth_hz = Number(required=True, validate=positive(1e8), metadata={"description": "Occupied (20 dB) bandwidth."})
-    dwell_s = Number(required=True, validate=positive(10.0))
-    packet_airtime_s = Number(required=True, validate=positive(10.0),
+    antenna_gain_dbi = Number(limits.ANTENNA_GAIN_DBI, load_default=0.0)
+    bandwidth_hz = Number(limits.BANDWIDTH_HZ, required=True, metadata={"description": "Occupied (20 dB) bandwidth."})
+    dwell_s = Number(limits.DWELL_S, required=True)
+    packet_airtime_s = Number(limits.AIRTIME_S, required=True,
                               metadata={"description": "Airtime of one packet (one per dwell); at most dwell_s."})
-    activity_fraction = Number(required=True, validate=between(0.0, 1.0),
+    activity_fraction = Number(limits.FRACTION, required=True,
                                metadata={"description": "Share of dwells in which it transmits."})
-    required_sir_db = Number(required=True, validate=between(-30.0, 60.0),
+    required_sir_db = Number(limits.SIR_DB, required=True,
                              metadata={"description": "Co-channel capture ratio the demodulator needs."})
-    rejection = fields.List(fields.Nested(RejectionPointSchema), required=True,
-                            validate=validate.Length(min=1, max=limits.MAX_REJECTION_POINTS),
+    rejection = List(fields.Nested(RejectionPointSchema), required=True, min_length=1,
+                     max_length=limits.MAX_REJECTION_POINTS,
                             metadata={"description": "Adjacent-channel rejection: offsets increasing, "
                                                      "rejection non-decreasing; stepped between entries."})
-    wanted_signal_dbm = Number(validate=between(-200.0, 40.0))
-    link_distance_m = Number(validate=positive(1e6))
-    fade_margin_db = Number(validate=between(-30.0, 100.0))
-    sensitivity_dbm = Number(validate=between(-200.0, 40.0))
-    noise_figure_db = Number(validate=between(0.0, 40.0))
+    wanted_signal_dbm = Number(limits.SIGNAL_DBM)
+    link_distance_m = Number(limits.LINK_DISTANCE_M)
+    fade_margin_db = Number(limits.FADE_MARGIN_DB)
+    sensitivity_dbm = Number(limits.SIGNAL_DBM)
+    noise_figure_db = Number(limits.NOISE_FIGURE_DB)
     fading = fields.Nested(FadingSchema, load_default=None)
-    retry_limit = Count(required=True, validate=validate.Range(min=0, max=100))
-    hops_per_attempt = Count(load_default=1, validate=validate.Range(min=1, max=16),
+    retry_limit = Count(limits.RETRY_LIMIT, required=True)
+    hops_per_attempt = Count(limits.HOPS_PER_ATTEMPT, load_default=1,
                              metadata={"description": "Hops one attempt needs (e.g. 2 for data and acknowledgement)."})
-    priority_weight = Number(load_default=1.0, validate=between(0.0, 1e6))
+    priority_weight = Number(limits.PRIORITY_WEIGHT, load_default=1.0)
     position = fields.Nested(PositionSchema, load_default=None)
     time_base_group = Text(load_default=None, validate=IDENTIFIER,
                            metadata={"description": "Systems in one group have slot-aligned dwells."})
-    hop_set = fields.List(Count(validate=validate.Range(min=0, max=limits.MAX_CHANNELS - 1)), load_default=None,
-                          validate=validate.Length(min=1, max=limits.MAX_CHANNELS),
+    hop_set = List(channel_index(), load_default=None, min_length=1, max_length=limits.MAX_CHANNELS,
                           metadata={"description": "Grid channel indices the system hops over."})
-    sequence = fields.List(Count(validate=validate.Range(min=0, max=limits.MAX_CHANNELS - 1)), load_default=None,
-                           validate=validate.Length(min=1, max=4 * limits.MAX_CHANNELS),
+    sequence = List(channel_index(), load_default=None, min_length=1, max_length=limits.MAX_SEQUENCE_HOPS,
                            metadata={"description": "The hop order its radios use (one period of channel "
                                                     "indices); the hop set is its channels."})
 
@@ -189,18 +203,18 @@ class SystemSchema(StrictSchema):
 
 class PropagationSchema(StrictSchema):
     model = Text(required=True, validate=validate.OneOf(PROPAGATION_MODELS))
-    exponent = Number(validate=between(1.0, 10.0), metadata={"description": "log_distance: path-loss exponent n."})
-    reference_loss_db = Number(validate=between(0.0, 200.0),
+    exponent = Number(limits.PATH_LOSS_EXPONENT, metadata={"description": "log_distance: path-loss exponent n."})
+    reference_loss_db = Number(limits.REFERENCE_LOSS_DB,
                                metadata={"description": "log_distance: loss at the reference distance "
                                                         "(default: free-space loss there)."})
-    reference_distance_m = Number(load_default=1.0, validate=positive(1e4))
+    reference_distance_m = Number(limits.REFERENCE_DISTANCE_M, load_default=1.0)
     environment = Text(validate=validate.OneOf(P1238_ENVIRONMENTS), metadata={"description": "p1238 table row."})
-    power_loss_coefficient = Number(validate=between(0.0, 100.0),
+    power_loss_coefficient = Number(limits.POWER_LOSS_COEFFICIENT,
                                     metadata={"description": "p1238: N, overriding the table."})
-    floor_loss_db = Number(validate=between(0.0, 100.0),
+    floor_loss_db = Number(limits.FLOOR_LOSS_DB,
                            metadata={"description": "Loss per floor crossed (p1238: overrides the table Lf(n))."})
-    floor_height_m = Number(load_default=4.0, validate=positive(100.0))
-    margin_db = Number(load_default=0.0, validate=between(0.0, 60.0),
+    floor_height_m = Number(limits.FLOOR_HEIGHT_M, load_default=4.0)
+    margin_db = Number(limits.PROPAGATION_MARGIN_DB, load_default=0.0,
                        metadata={"description": "Planning allowance: lowers computed coupling losses and "
                                                 "raises computed link losses."})
 
@@ -219,7 +233,7 @@ class PropagationSchema(StrictSchema):
 class CouplingEntrySchema(StrictSchema):
     from_system = Text(required=True, validate=IDENTIFIER)
     to_system = Text(required=True, validate=IDENTIFIER)
-    loss_db = Number(required=True, validate=between(0.0, 300.0),
+    loss_db = Number(limits.COUPLING_LOSS_DB, required=True,
                      metadata={"description": "Transmitter output to receiver input, antennas and cables "
                                               "included; holds both ways unless the reverse is also given."})
 
@@ -235,8 +249,7 @@ class CouplingEntrySchema(StrictSchema):
 
 class CouplingSchema(StrictSchema):
     propagation = fields.Nested(PropagationSchema, load_default=None)
-    entries = fields.List(fields.Nested(CouplingEntrySchema), load_default=list,
-                          validate=validate.Length(max=limits.MAX_COUPLING_ENTRIES))
+    entries = List(fields.Nested(CouplingEntrySchema), load_default=list, max_length=limits.MAX_COUPLING_ENTRIES)
 
     @post_load
     def _make(self, data, **kwargs):
@@ -245,7 +258,7 @@ class CouplingSchema(StrictSchema):
 
 class InterfererLevelSchema(StrictSchema):
     system = Text(required=True, validate=IDENTIFIER)
-    level_dbm = Number(required=True, validate=between(-200.0, 40.0),
+    level_dbm = Number(limits.SIGNAL_DBM, required=True,
                        metadata={"description": "Total power at the system's receiver input."})
 
     @post_load
@@ -255,18 +268,17 @@ class InterfererLevelSchema(StrictSchema):
 
 class InterfererSchema(StrictSchema):
     id = Text(required=True, validate=IDENTIFIER)
-    label = Text(load_default="", validate=validate.Length(max=200))
-    low_hz = Number(validate=positive(1e12))
-    high_hz = Number(validate=positive(1e12))
-    centre_hz = Number(validate=positive(1e12))
-    width_hz = Number(validate=between(0.0, 1e10))
-    levels = fields.List(fields.Nested(InterfererLevelSchema), load_default=list,
-                         validate=validate.Length(max=limits.MAX_SYSTEMS))
-    eirp_dbm = Number(validate=between(-100.0, 90.0))
+    label = Text(load_default="", validate=validate.Length(max=limits.MAX_TEXT_CHARS))
+    low_hz = Number(limits.FREQUENCY_HZ)
+    high_hz = Number(limits.FREQUENCY_HZ)
+    centre_hz = Number(limits.FREQUENCY_HZ)
+    width_hz = Number(limits.INTERFERER_WIDTH_HZ)
+    levels = List(fields.Nested(InterfererLevelSchema), load_default=list, max_length=limits.MAX_SYSTEMS)
+    eirp_dbm = Number(limits.EIRP_DBM)
     position = fields.Nested(PositionSchema, load_default=None)
-    activity_fraction = Number(load_default=1.0, validate=between(0.0, 1.0))
-    burst_s = Number(validate=positive(3600.0))
-    period_s = Number(validate=positive(3600.0))
+    activity_fraction = Number(limits.FRACTION, load_default=1.0)
+    burst_s = Number(limits.BURST_S)
+    period_s = Number(limits.PERIOD_S)
 
     @validates_schema
     def _consistent(self, data, **kwargs):
@@ -298,33 +310,32 @@ class InterfererSchema(StrictSchema):
 
 
 DETECTORS = ("rms", "average", "peak", "sample")
-MAX_SURVEY_POINTS = 200_000
 
 
 class SurveySchema(StrictSchema):
     id = Text(required=True, validate=IDENTIFIER)
-    label = Text(load_default="", validate=validate.Length(max=200))
-    applies_to = fields.List(Text(validate=IDENTIFIER), load_default=None, validate=validate.Length(min=1),
+    label = Text(load_default="", validate=validate.Length(max=limits.MAX_TEXT_CHARS))
+    applies_to = List(Text(validate=IDENTIFIER), load_default=None, min_length=1, max_length=limits.MAX_SYSTEMS,
                              metadata={"description": "Systems whose receivers the trace stands for "
                                                       "(give this or position)"})
     position = fields.Nested(PositionSchema, load_default=None, metadata={
         "description": "Where the trace was taken, when not at named receivers: it stands for every system "
                        "with a position on the same floor within radius_m"})
-    radius_m = Number(load_default=10.0, validate=between(0.1, 10_000.0), metadata={
+    radius_m = Number(limits.SURVEY_RADIUS_M, load_default=10.0, metadata={
         "description": "With position: how far from it the trace still stands for a system's receivers"})
-    frequencies_hz = fields.List(Number(validate=positive(1e12)), required=True,
-                                 validate=validate.Length(min=2, max=MAX_SURVEY_POINTS),
+    frequencies_hz = List(Number(limits.FREQUENCY_HZ), required=True, min_length=2,
+                          max_length=limits.MAX_SURVEY_POINTS,
                                  metadata={"description": "Strictly increasing"})
-    levels_dbm = fields.List(Number(validate=between(-250.0, 60.0)), required=True,
-                             validate=validate.Length(min=2, max=MAX_SURVEY_POINTS),
+    levels_dbm = List(Number(limits.SURVEY_LEVEL_DBM), required=True, min_length=2,
+                      max_length=limits.MAX_SURVEY_POINTS,
                              metadata={"description": "Power read in the resolution bandwidth at each point"})
-    resolution_bandwidth_hz = Number(required=True, validate=positive(1e9))
+    resolution_bandwidth_hz = Number(limits.RESOLUTION_BANDWIDTH_HZ, required=True)
     detector = Text(load_default="rms", validate=validate.OneOf(DETECTORS))
-    occupancy_fraction = fields.List(Number(validate=between(0.0, 1.0)), load_default=None,
+    occupancy_fraction = List(Number(limits.FRACTION), load_default=None, max_length=limits.MAX_SURVEY_POINTS,
                                      metadata={"description": "Share of sweeps above threshold, per point"})
-    detection_margin_db = Number(load_default=6.0, validate=between(0.0, 60.0), metadata={
+    detection_margin_db = Number(limits.DETECTION_MARGIN_DB, load_default=6.0, metadata={
         "description": "A channel counts as occupied this far above the trace's own floor (its median)"})
-    noise_bandwidth_factor = Number(load_default=1.0, validate=between(0.5, 2.0), metadata={
+    noise_bandwidth_factor = Number(limits.NOISE_BANDWIDTH_FACTOR, load_default=1.0, metadata={
         "description": "Equivalent noise bandwidth of the resolution filter, as a multiple of it"})
 
     @validates_schema
@@ -355,20 +366,18 @@ class SurveySchema(StrictSchema):
 
 
 class SiteSchema(StrictSchema):
-    name = Text(load_default="", validate=validate.Length(max=200))
+    name = Text(load_default="", validate=validate.Length(max=limits.MAX_TEXT_CHARS))
     profile = Text(required=True, validate=validate.OneOf(sorted(PROFILES)))
     band = fields.Nested(BandSchema, load_default=None,
                          metadata={"description": "Band edges; required for the custom profile, else an optional "
                                                   "narrowing of the profile's band."})
     grid = fields.Nested(GridSchema, required=True)
-    systems = fields.List(fields.Nested(SystemSchema), required=True,
-                          validate=validate.Length(min=1, max=limits.MAX_SYSTEMS))
+    systems = List(fields.Nested(SystemSchema), required=True, min_length=1, max_length=limits.MAX_SYSTEMS)
     coupling = fields.Nested(CouplingSchema, load_default=None)
-    interferers = fields.List(fields.Nested(InterfererSchema), load_default=list,
-                              validate=validate.Length(max=limits.MAX_INTERFERERS))
-    surveys = fields.List(fields.Nested(SurveySchema), load_default=list, validate=validate.Length(max=64),
+    interferers = List(fields.Nested(InterfererSchema), load_default=list, max_length=limits.MAX_INTERFERERS)
+    surveys = List(fields.Nested(SurveySchema), load_default=list, max_length=limits.MAX_SURVEYS,
                           metadata={"description": "Measured spectrum traces; each becomes fixed interferers"})
-    rms_delay_spread_s = Number(load_default=None, validate=positive(1e-4), metadata={
+    rms_delay_spread_s = Number(limits.DELAY_SPREAD_S, load_default=None, metadata={
         "description": "RMS multipath delay spread (default 100 ns, the median Rappaport measured in factories); "
                        "sets the consecutive-hop spacing and fading correlation."})
 
@@ -386,6 +395,8 @@ class SiteSchema(StrictSchema):
         _check_link_distances(errors, systems, data.get("coupling") or Coupling())
         _check_interferer_levels(errors, interferers, ids)
         _check_surveys(errors, data["surveys"], ids, tuple(systems))
+        bounds.check_overlaps(errors.add, systems, interferers)
+        bounds.check_survey_totals(errors.add, data["surveys"], tuple(systems), data["grid"].count)
         errors.raise_if_any()
 
     @post_load
