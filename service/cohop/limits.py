@@ -98,7 +98,8 @@ MAX_CHANNELS = 8192  # at least 4096 must be accepted; headroom above it
 MAX_INTERFERERS = 256  # fixed interferers given by hand
 MAX_REJECTION_POINTS = 64  # a rejection table's rows
 MAX_COUPLING_ENTRIES = MAX_SYSTEMS * (MAX_SYSTEMS - 1)  # one per ordered pair of systems
-MAX_SEQUENCE_HOPS = 4 * MAX_CHANNELS  # one period of a given hop order (channels may repeat)
+MAX_SEQUENCE_HOPS = MAX_CHANNELS  # one period of a given hop order; its analysis is quadratic in it
+CHANNEL_INDEX = Bound(0, MAX_CHANNELS - 1, "", "a grid channel index")
 MAX_TEXT_CHARS = 200  # names and labels
 MAX_BASELINES = 16  # names in a plan's baselines list (there are five, and "all")
 MAX_SURVEYS = 64  # spectrum surveys in one site
@@ -129,7 +130,7 @@ CAPS = (
     ("fixed interferers", MAX_INTERFERERS, "given by hand"),
     ("rejection table rows", MAX_REJECTION_POINTS, "per system"),
     ("coupling entries", MAX_COUPLING_ENTRIES, "one per ordered pair of systems"),
-    ("hops in a given sequence", MAX_SEQUENCE_HOPS, "one period; channels may repeat"),
+    ("hops in a given sequence", MAX_SEQUENCE_HOPS, "one period; pair analysis is quadratic in it"),
     ("characters in a name or label", MAX_TEXT_CHARS, ""),
     ("baseline names", MAX_BASELINES, "five baselines and 'all'"),
     ("surveys", MAX_SURVEYS, "per site"),

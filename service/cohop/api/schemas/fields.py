@@ -31,7 +31,10 @@ def _as_list(checks) -> list:
 class Number(fields.Float):
     """A finite JSON number. Rejects strings, booleans, NaN and infinity. `bound` gives its range."""
 
+    json_types = (int, float)
+
     def __init__(self, bound: limits.Bound | None = None, **kwargs):
+        self.plain_bound = bound if bound is not None and kwargs.get("validate") is None else None
         super().__init__(allow_nan=False, **_described(kwargs, bound))
 
     def _deserialize(self, value, attr, data, **kwargs):
@@ -47,7 +50,10 @@ class Number(fields.Float):
 class Count(fields.Integer):
     """A JSON integer (not a float, string or boolean). `bound` gives its range."""
 
+    json_types = (int,)
+
     def __init__(self, bound: limits.Bound | None = None, **kwargs):
+        self.plain_bound = bound if bound is not None and kwargs.get("validate") is None else None
         super().__init__(strict=True, **_described(kwargs, bound))
 
     def _deserialize(self, value, attr, data, **kwargs):
@@ -67,7 +73,10 @@ class Text(fields.String):
 
 class List(fields.List):
     """A JSON array whose length is checked before its elements are, and whose element errors stop at
-    `cohop.limits.MAX_FIELD_ERRORS` (a huge array of bad elements costs one error, not millions)."""
+    `cohop.limits.MAX_FIELD_ERRORS` (a huge array of bad elements costs one error, not millions).
+
+    Arrays of plain bounded numbers (a survey trace, a hop set) are checked in one pass when every element
+    is valid; only an array with a bad element goes element by element, for the messages."""
 
     def __init__(self, inner, *, max_length: int, min_length: int | None = None, **kwargs):
         self.length = validate.Length(min=min_length, max=max_length)
@@ -78,6 +87,9 @@ class List(fields.List):
         if not isinstance(value, list):
             raise self.make_error("invalid")
         self.length(value)
+        fast = _plain_numbers(self.inner, value)
+        if fast is not None:
+            return fast
         result, errors = [], {}
         for idx, each in enumerate(value):
             try:
@@ -91,6 +103,18 @@ class List(fields.List):
         if errors:
             raise ma.ValidationError(errors)
         return result
+
+
+def _plain_numbers(inner, value: list) -> list | None:
+    """The values of an array of valid bounded numbers, or None if `inner` has other checks or any
+    element fails (booleans, strings, NaN and out-of-range values all fail the test below)."""
+    bound = getattr(inner, "plain_bound", None)
+    if bound is None or inner.allow_none:
+        return None
+    types, lo, hi = inner.json_types, bound.minimum, bound.maximum
+    if not all(type(x) in types and lo <= x <= hi for x in value):
+        return None
+    return [float(x) for x in value] if isinstance(inner, Number) else list(value)
 
 
 IDENTIFIER = validate.Regexp(r"^[A-Za-z0-9][A-Za-z0-9_.:-]{0,63}$",

@@ -58,7 +58,7 @@ class StrictSchema(ma.Schema):
 
 
 def channel_index() -> Count:
-    return Count(validate=validate.Range(min=0, max=limits.MAX_CHANNELS - 1))
+    return Count(limits.CHANNEL_INDEX)
 
 
 class BandSchema(StrictSchema):
