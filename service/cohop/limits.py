@@ -193,6 +193,9 @@ FIELDS = (
     (TRIALS_PER_SYSTEM, "simulation trials_per_system"),
     (SEQUENCE_PACKETS, "search sequence_packets"),
     (MAX_CHANGES, "re-plan mode max_changes"),
+    (CHANNEL_INDEX, "hop_set, sequence, excluded_channels, pinned_channels entries (and below grid count)"),
+    (SEED, "search seed"),
+    (SIMULATION_SEED, "simulation seed"),
 )
 
 
