@@ -206,3 +206,83 @@ def test_documented_minimum_capacity_is_accepted(post):
     body = resp.get_json()
     assert len(body["systems"]) == 200
     assert {s["channel_count"] for s in body["systems"]} == {20}
+
+
+# --- bounded work and bounded answers (issue 9) ----------------------------------------------------
+
+def test_a_huge_list_costs_one_error_and_its_elements_are_not_read(post, sample):
+    sample["site"]["systems"][0]["hop_set"] = [["bad"]] * (limits.MAX_CHANNELS + 1)
+    body = assert_pointer(post(sample), f"{SYS0}/hop_set")
+    assert [e["pointer"] for e in body["errors"]] == [f"{SYS0}/hop_set"]
+
+
+def test_an_answer_lists_at_most_the_cap_and_counts_the_rest(post, sample):
+    for s in sample["site"]["systems"]:
+        s["hop_set"] = ["x"] * 120  # 120 bad elements each: validation of a list stops at the cap
+    body = assert_problem(post(sample), 422)
+    per_system = limits.MAX_FIELD_ERRORS + 1  # the first MAX_FIELD_ERRORS elements and the "stopped" note
+    total = per_system * len(sample["site"]["systems"])
+    assert len(body["errors"]) == limits.MAX_FIELD_ERRORS
+    assert body["errors_omitted"] == total - limits.MAX_FIELD_ERRORS
+    assert str(total) in body["detail"]
+    assert [e["pointer"] for e in body["errors"]] == sorted(e["pointer"] for e in body["errors"])
+
+
+def test_a_flood_of_unknown_fields_is_cut_short(post, sample):
+    sample["site"]["systems"][0].update({f"k{i}": i for i in range(5000)})
+    body = assert_pointer(post(sample), f"{SYS0}/k0")
+    assert len(body["errors"]) == limits.MAX_FIELD_ERRORS
+    assert any("5000 unknown fields" in e["detail"] for e in body["errors"]) or body["errors_omitted"] >= 1
+
+
+def test_a_megabyte_key_is_not_echoed_back(post, sample):
+    sample["site"]["x" * 1_000_000] = 1
+    resp = post(sample)
+    body = assert_problem(resp, 422)
+    assert len(resp.get_data()) < 5000 and body["errors"][0]["pointer"].endswith("(cut)")
+
+
+@pytest.mark.parametrize("field, value", [("dwell_s", 5e-324), ("packet_airtime_s", 5e-324), ("dwell_s", 1e-5),
+                                          ("bandwidth_hz", 5e-324), ("link_distance_m", 1e-3)])
+def test_denormal_and_unphysical_values_are_refused(post, sample, field, value):
+    sample["site"]["systems"][0][field] = value
+    assert_pointer(post(sample), f"{SYS0}/{field}")
+
+
+@pytest.mark.parametrize("spread, ok", [(5e-324, False), (1e-15, False), (9.99e-9, False), (1e-8, True),
+                                        (1e-5, True), (1.01e-5, False)])
+def test_delay_spread_has_a_physical_range(post, sample, spread, ok):
+    sample["site"]["rms_delay_spread_s"] = spread
+    resp = post(sample)
+    if ok:
+        assert resp.status_code == 200
+    else:
+        assert_pointer(resp, "/site/rms_delay_spread_s")
+
+
+def test_more_overlapped_bursts_than_modelled_is_refused_with_the_reason(post, sample):
+    sample["site"]["systems"][0].update(dwell_s=0.4, packet_airtime_s=0.4)
+    sample["site"]["systems"][1].update(dwell_s=2e-4, packet_airtime_s=1e-4)  # (0.4 + 1e-4) / 2e-4 = 2001
+    body = assert_pointer(post(sample), "/site/systems/1/dwell_s")
+    assert "2001" in body["errors"][0]["detail"] and "scada-backbone" in body["errors"][0]["detail"]
+
+
+def test_a_fast_pulsing_interferer_is_told_to_be_continuous(post, sample):
+    sample["site"]["interferers"][1].update(burst_s=1e-6, period_s=1e-5, activity_fraction=0.5)
+    body = assert_pointer(post(sample), "/site/interferers/1/period_s")
+    assert "continuous" in body["errors"][0]["detail"] and "0.05" in body["errors"][0]["detail"]
+
+
+def test_a_non_finite_answer_is_a_logged_500_problem(caplog):
+    app = create_app({"TESTING": True})
+
+    @app.get("/nan")
+    def _nan():  # serialised inside the view, as flask-smorest's response decorator does
+        import flask
+
+        return flask.jsonify({"x": float("nan")})
+
+    resp = app.test_client().get("/nan")
+    assert_problem(resp, 500)
+    assert "NaN" not in resp.get_data(as_text=True)
+    assert any("non-finite number" in r.getMessage() for r in caplog.records)

@@ -85,11 +85,12 @@ def rejection_rows(n: int) -> dict:
     return {"site": site}
 
 
-def survey(points: int, surveys: int = 1) -> dict:
+def survey(points: int, surveys: int = 1, spike_every: int = 997) -> dict:
+    """Traces over 2400-2483 MHz at -100 dBm with a -70 dBm spike every `spike_every` points."""
     site = small_site()
     step = 83e6 / points
     freqs = [2400e6 + k * step for k in range(points)]
-    levels = [-70.0 if k % 997 == 0 else -100.0 for k in range(points)]
+    levels = [-70.0 if k % spike_every == 0 else -100.0 for k in range(points)]
     site["surveys"] = [{"id": f"sv{j}", "applies_to": ["s0"], "frequencies_hz": freqs, "levels_dbm": levels,
                         "resolution_bandwidth_hz": 1e3} for j in range(surveys)]
     return {"site": site}
