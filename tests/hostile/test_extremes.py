@@ -26,7 +26,7 @@ def _post(body):
     return CLIENT.post("/v1/assessments", data=json.dumps(body, allow_nan=False), content_type="application/json")
 
 
-@settings(max_examples=120, deadline=None, suppress_health_check=list(HealthCheck))
+@settings(max_examples=60, deadline=None, suppress_health_check=list(HealthCheck))
 @given(extremes.assessment())
 def test_extreme_admitted_values_answer_strict_json_and_no_5xx(body):
     resp = _post(body)
