@@ -57,7 +57,7 @@ def options(settings: Settings) -> dict:
         "proc_name": "cohop",
         "control_socket_disable": True,  # its shutdown command would skip the drain; nothing here uses it
         "on_starting": on_starting,
-        "post_worker_init": post_worker_init,
+        "post_worker_init": warm_solver_fork_server if settings.isolate_solves else no_warm_up,
         "child_exit": child_exit,
     }
 
@@ -73,11 +73,15 @@ def on_starting(server):
         os.makedirs(path, exist_ok=True)
 
 
-def post_worker_init(worker):
-    if _settings.isolate_solves:
-        from cohop.isolation import warm
+def warm_solver_fork_server(worker):
+    """The solver fork server starts with the worker, so memory is steady from the first request."""
+    from cohop.isolation import warm
 
-        warm()  # the solver fork server starts with the worker, so memory is steady from the first request
+    warm()
+
+
+def no_warm_up(worker):
+    """Solves run in the worker itself (COHOP_ISOLATE_SOLVES=false): nothing to start."""
 
 
 def child_exit(server, worker):
