@@ -23,7 +23,7 @@ def _ready_status(url: str) -> int | None:
 
 def test_sigterm_drains_then_finishes_the_solve_in_flight_then_exits():
     plan = copy.deepcopy(samples.load("water_works_us915"))
-    plan["search"] = {"time_limit_s": 3, "sequence_packets": 1000}
+    plan["search"] = {"time_limit_s": 2, "sequence_packets": 1000}
     with Server(COHOP_DRAIN_S=3) as s:
         answers = []
         solving = threading.Thread(target=lambda: answers.append(
