@@ -21,7 +21,9 @@ PROBLEM_JSON = "application/problem+json"
 @pytest.fixture(scope="module")
 def server():
     # Fewer threads than slow clients: only the client timeout can free them for health and evaluations.
-    with Server(COHOP_THREADS=4, COHOP_CLIENT_TIMEOUT_S=CLIENT_TIMEOUT_S, COHOP_MAX_BODY_BYTES=CAP) as s:
+    # No solve here, so no solver fork server to start.
+    with Server(COHOP_THREADS=4, COHOP_CLIENT_TIMEOUT_S=CLIENT_TIMEOUT_S, COHOP_MAX_BODY_BYTES=CAP,
+                COHOP_ISOLATE_SOLVES="false") as s:
         yield s
 
 
