@@ -228,14 +228,11 @@ def _cmd_serve(args) -> int:
         print(f"cohop development server on http://{args.host}:{args.port} (not for production)", file=sys.stderr)
         create_app().run(host=args.host, port=args.port)
         return 0
-    os.environ["COHOP_BIND"] = f"{args.host}:{args.port}"
     try:
-        from gunicorn.app.wsgiapp import run
+        from cohop.server import main as serve
     except ImportError as err:
         return _service_missing(err)
-    sys.argv = ["gunicorn", "-c", "python:cohop.gunicorn_conf"]
-    run()
-    return 0
+    return serve(bind=f"{args.host}:{args.port}")
 
 
 def _outputs(p: argparse.ArgumentParser) -> None:

@@ -14,6 +14,8 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
 PREFIX = "COHOP_"
+MAX_DRAIN_S = 300.0  # a longer drain only delays every rollout
+MAX_CLIENT_TIMEOUT_S = 600.0
 
 
 class ConfigError(ValueError):
@@ -67,6 +69,8 @@ class Settings:
     log_level: str = "INFO"
     bind: str = "0.0.0.0:8080"
     graceful_timeout_s: float = 90.0
+    drain_s: float = 5.0  # from SIGTERM: readiness answers 503 while the server keeps serving, then it stops
+    client_timeout_s: float = 10.0  # a request's headers must arrive within it; each body read and write too
     max_requests: int = 2000
     max_requests_jitter: int = 200
 
@@ -82,6 +86,11 @@ class Settings:
         if self.max_solve_s <= 0 or self.graceful_timeout_s <= self.max_solve_s:
             raise ConfigError(f"{PREFIX}GRACEFUL_TIMEOUT_S ({self.graceful_timeout_s:g}) must exceed "
                               f"{PREFIX}MAX_SOLVE_S ({self.max_solve_s:g}) so in-flight solves can finish")
+        if not 0 <= self.drain_s <= MAX_DRAIN_S:
+            raise ConfigError(f"{PREFIX}DRAIN_S must be between 0 and {MAX_DRAIN_S:g} seconds, not {self.drain_s:g}")
+        if not 0 < self.client_timeout_s <= MAX_CLIENT_TIMEOUT_S:
+            raise ConfigError(f"{PREFIX}CLIENT_TIMEOUT_S must be above 0 and at most {MAX_CLIENT_TIMEOUT_S:g} "
+                              f"seconds, not {self.client_timeout_s:g}")
         if self.log_level.upper() not in ("DEBUG", "INFO", "WARNING", "ERROR"):
             raise ConfigError(f"{PREFIX}LOG_LEVEL must be DEBUG, INFO, WARNING or ERROR, not {self.log_level!r}")
         if any(len(t) < 16 for t in self.tokens):
@@ -139,7 +148,8 @@ def in_process_config() -> dict:
 _TYPES = {"cpus": int, "solver_threads": int, "workers": int, "threads": int, "max_concurrent_solves": int,
           "isolate_solves": bool, "max_solve_s": float, "max_body_bytes": int, "max_simulated_attempts": int,
           "max_products": int, "deterministic": bool, "retry_after_s": int, "metrics_public": bool, "log_level": str,
-          "bind": str, "graceful_timeout_s": float, "max_requests": int, "max_requests_jitter": int}
+          "bind": str, "graceful_timeout_s": float, "drain_s": float, "client_timeout_s": float, "max_requests": int,
+          "max_requests_jitter": int}
 _POSITIVE = {"cpus", "workers", "threads", "max_concurrent_solves", "max_body_bytes", "max_simulated_attempts",
              "max_products", "retry_after_s", "max_requests"}
 

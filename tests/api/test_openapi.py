@@ -90,8 +90,9 @@ def test_every_operation_documents_responses(path, method):
     for status in success:
         resolved = _resolve(responses[status])
         assert resolved.get("description")
-        assert "application/json" in resolved["content"]
-        assert "schema" in resolved["content"]["application/json"]
+        media = "text/plain" if path == "/metrics" else "application/json"  # Prometheus exposition format
+        assert media in resolved["content"]
+        assert "schema" in resolved["content"][media]
     assert "default" in responses or any(int(s) >= 400 for s in responses if s != "default"), \
         f"{method.upper()} {path} documents no error response"
     assert op.get("summary")

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import os
 import socket
 import subprocess
@@ -68,13 +69,16 @@ def free_port() -> int:
 
 
 class Server:
-    """The real server (gunicorn via `cohop serve`) on loopback."""
+    """The real server (`cohop serve`: cohop.server's gunicorn application) on loopback.
+
+    COHOP_DRAIN_S is 0 unless given, so that stopping a test server does not wait for a drain."""
 
     def __init__(self, **env):
         self.port = free_port()
         self.url = f"http://127.0.0.1:{self.port}"
         full = {**os.environ, "COHOP_CPUS": "2", "COHOP_SOLVER_THREADS": "1", "COHOP_WORKERS": "1",
-                "COHOP_MAX_SOLVE_S": "10", "COHOP_GRACEFUL_TIMEOUT_S": "30", **{k: str(v) for k, v in env.items()}}
+                "COHOP_MAX_SOLVE_S": "10", "COHOP_GRACEFUL_TIMEOUT_S": "30", "COHOP_DRAIN_S": "0",
+                **{k: str(v) for k, v in env.items()}}
         full.pop("PROMETHEUS_MULTIPROC_DIR", None)
         self.proc = subprocess.Popen([sys.executable, "-m", "cohop", "serve", "--port", str(self.port)], env=full,
                                      stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
@@ -102,3 +106,38 @@ class Server:
 
     def __exit__(self, *exc):
         self.stop()
+
+
+class RawAnswer:
+    """An HTTP/1.1 answer read off a raw socket: status, headers (lower-case names) and body."""
+
+    def __init__(self, data: bytes):
+        head, _, self.body = data.partition(b"\r\n\r\n")
+        lines = head.decode("latin-1").split("\r\n")
+        self.status = int(lines[0].split()[1]) if lines[0].startswith("HTTP/") else None
+        self.headers = {k.strip().lower(): v.strip() for k, _, v in (line.partition(":") for line in lines[1:])}
+
+    def json(self):
+        return json.loads(self.body)
+
+
+def read_answer(sock: socket.socket) -> RawAnswer | None:
+    """Everything the server sends until it closes the connection (None if it sent nothing)."""
+    data = b""
+    while True:
+        try:
+            piece = sock.recv(65536)
+        except ConnectionResetError:
+            break
+        if not piece:
+            break
+        data += piece
+    return RawAnswer(data) if data else None
+
+
+def send_raw(url: str, data: bytes, timeout_s: float = 30.0) -> RawAnswer | None:
+    """Send raw bytes on a fresh connection and read the answer until the server closes it."""
+    host, port = url.removeprefix("http://").split(":")
+    with socket.create_connection((host, int(port)), timeout=timeout_s) as sock:
+        sock.sendall(data)
+        return read_answer(sock)

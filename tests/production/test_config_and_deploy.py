@@ -28,6 +28,10 @@ def test_defaults_size_workers_by_cores():
     ({"COHOP_MAX_SOLVE_SECONDS": "5"}, "unknown setting"),
     ({"COHOP_LOG_LEVEL": "LOUD"}, "LOG_LEVEL"),
     ({"COHOP_CPUS": "0"}, "must be positive"),
+    ({"COHOP_DRAIN_S": "-1"}, "COHOP_DRAIN_S must be between 0 and 300"),
+    ({"COHOP_DRAIN_S": "nan"}, "COHOP_DRAIN_S"),
+    ({"COHOP_CLIENT_TIMEOUT_S": "0"}, "COHOP_CLIENT_TIMEOUT_S must be above 0"),
+    ({"COHOP_CLIENT_TIMEOUT_S": "inf"}, "COHOP_CLIENT_TIMEOUT_S"),
 ])
 def test_bad_settings_are_named(env, words):
     with pytest.raises(ConfigError, match=words):
@@ -71,7 +75,19 @@ def test_gunicorn_config_values():
     s = Settings()
     assert conf.workers * s.solver_threads <= s.cpus
     assert conf.timeout > s.max_solve_s and conf.graceful_timeout > s.max_solve_s
-    assert conf.max_requests > 0 and conf.max_requests_jitter > 0 and conf.worker_class == "gthread"
+    assert conf.max_requests > 0 and conf.max_requests_jitter > 0 and conf.worker_class == "cohop.server.CohopWorker"
+    assert conf.threads == s.threads == 16 and conf.control_socket_disable
+    # gunicorn's own limits, set on purpose (and what `cohop.server` loads is the same)
+    assert (conf.limit_request_line, conf.limit_request_fields, conf.limit_request_field_size) == (4094, 100, 8190)
+    assert conf.options(s)["limit_request_field_size"] == conf.limit_request_field_size
+
+
+def test_the_server_application_loads_the_same_settings():
+    from cohop.server import CohopServer
+
+    cfg = CohopServer(from_env({"COHOP_CPUS": "4", "COHOP_DRAIN_S": "7", "COHOP_BIND": "127.0.0.1:9"})).cfg
+    assert cfg.workers == 2 and cfg.threads == 16 and cfg.address == [("127.0.0.1", 9)]
+    assert cfg.worker_class_str == "cohop.server.CohopWorker" and cfg.limit_request_fields == 100
 
 
 def test_kubernetes_manifests_validate_offline():
@@ -95,6 +111,19 @@ def test_deployment_requests_equal_limits_and_probes():
     assert int(env["COHOP_CPUS"]) == int(c["resources"]["limits"]["cpu"])
 
 
+def test_deployment_grace_period_covers_prestop_drain_and_graceful_stop():
+    import yaml
+
+    pod = yaml.safe_load((ROOT / "deploy" / "k8s" / "deployment.yaml").read_text())["spec"]["template"]["spec"]
+    c = pod["containers"][0]
+    command = c["lifecycle"]["preStop"]["exec"]["command"]
+    assert command[0] == "sleep"
+    env = {e["name"]: e["value"] for e in c["env"] if e["name"] != "COHOP_TOKENS_FILE"}
+    s = from_env(env)  # the manifest's settings are valid ones (graceful timeout above the longest solve)
+    assert s.drain_s > 0
+    assert pod["terminationGracePeriodSeconds"] >= float(command[1]) + s.drain_s + s.graceful_timeout_s
+
+
 def test_dockerfile_lints_clean_and_matches_the_version():
     from shutil import which
 
@@ -105,3 +134,4 @@ def test_dockerfile_lints_clean_and_matches_the_version():
     version = tomllib.loads((ROOT / "pyproject.toml").read_text())["project"]["version"]
     assert f"cohop-{version}-py3-none-any.whl" in text
     assert "USER 10001" in text and "HEALTHCHECK" in text and text.count("FROM ") == 2
+    assert 'ENTRYPOINT ["python", "-m", "cohop.server"]' in text  # the draining server, not plain gunicorn

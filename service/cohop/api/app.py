@@ -5,6 +5,7 @@ from __future__ import annotations
 import http
 
 import flask
+from apispec import BasePlugin
 from flask_smorest import Api
 
 from cohop import __version__
@@ -28,8 +29,28 @@ API_SETTINGS = {
 }
 
 
+#: The security scheme every operation outside `auth.OPEN_PATHS` declares.
+BEARER = "bearerAuth"
+BEARER_REQUIRED = "BEARER_REQUIRED"
+
+
+class BearerSecurityPlugin(BasePlugin):
+    """Declares bearer authentication on every operation that needs a token, with its 401 answer."""
+
+    def __init__(self, open_paths):
+        self.open_paths = set(open_paths)
+
+    def operation_helper(self, path=None, operations=None, **kwargs):
+        if path in self.open_paths:
+            return
+        for operation in (operations or {}).values():
+            operation.setdefault("security", [{BEARER: []}])
+            if operation["security"]:
+                operation.setdefault("responses", {}).setdefault("401", BEARER_REQUIRED)
+
+
 class CohopApi(Api):
-    """flask-smorest's Api with RFC 9457 problem details as the documented error body."""
+    """flask-smorest's Api with RFC 9457 problem details as the documented error body, and bearer auth."""
 
     ERROR_SCHEMA = ProblemSchema
 
@@ -42,6 +63,29 @@ class CohopApi(Api):
         self.spec.components.response(
             "DEFAULT_ERROR", {"description": "Problem details (RFC 9457)",
                               "content": {problems.PROBLEM_JSON: {"schema": self.ERROR_SCHEMA}}}, lazy=True)
+        self.spec.components.security_scheme(BEARER, {
+            "type": "http", "scheme": "bearer",
+            "description": "Required when the server has tokens (COHOP_TOKENS or COHOP_TOKENS_FILE); "
+                           "/v1/health, /v1/ready and /openapi.json are always open."})
+        self.spec.components.response(BEARER_REQUIRED, {
+            "description": "Missing or wrong bearer token (when the server has tokens)",
+            "headers": {"WWW-Authenticate": {"description": 'Bearer realm="cohop" with the error code',
+                                             "schema": {"type": "string"}}},
+            "content": {problems.PROBLEM_JSON: {"schema": self.ERROR_SCHEMA}}}, lazy=True)
+
+    def document_metrics(self, public: bool) -> None:
+        """GET /metrics (served by `api/metrics.py`, outside the blueprints) in the document."""
+        rule = next(r for r in self._app.url_map.iter_rules() if r.rule == "/metrics")
+        self.spec.path(rule=rule, operations={"get": {
+            "summary": "Prometheus metrics (text exposition format)",
+            "description": "Request counts and latency by route, solve time and status, solves in progress, "
+                           "rejections. Needs a bearer token when the server has tokens, unless "
+                           "COHOP_METRICS_PUBLIC is true.",
+            "tags": ["meta"],
+            **({"security": []} if public else {}),
+            "responses": {"200": {"description": "OK", "content": {"text/plain": {"schema": {
+                "type": "string", "description": "Prometheus text exposition format 0.0.4"}}}},
+                "default": "DEFAULT_ERROR"}}})
 
     def _register_error_handlers(self):
         problems.register(self._app)
@@ -63,18 +107,20 @@ def create_app(config: dict | None = None) -> flask.Flask:
     app.config["MAX_CONTENT_LENGTH"] = app.config["COHOP_MAX_BODY_BYTES"]  # Flask's name for the same cap
     app.json = problems.StrictJSONProvider(app)  # answers are strict JSON: no NaN or infinity
     app.json.sort_keys = False
-    from cohop.api import auth, logs, metrics, solving
+    from cohop.api import auth, body, logs, metrics, solving
 
     logs.register(app)
     metrics.register(app)
     auth.register(app)
     app.before_request(_require_json)
-    api = CohopApi(app)
+    body.register(app)  # the body is read once, capped, after the checks above and before any parsing
+    api = CohopApi(app, spec_kwargs={"extra_plugins": [BearerSecurityPlugin(auth.OPEN_PATHS)]})
     solving.register(app)
     from cohop.api.views import assessments, meta, plans, profiles, replans
 
     for blp in (assessments.blp, plans.blp, replans.blp, profiles.blp, meta.blp):
         api.register_blueprint(blp)
+    api.document_metrics(public=bool(app.config.get("COHOP_METRICS_PUBLIC")))
     return app
 
 

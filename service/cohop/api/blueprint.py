@@ -1,4 +1,5 @@
-"""flask-smorest Blueprint whose body parser turns every unparseable body into a 400."""
+"""flask-smorest Blueprint whose body parser reads the body through `cohop.api.body` (once, capped) and
+turns every unparseable body into a 400."""
 
 from __future__ import annotations
 
@@ -9,18 +10,20 @@ from flask_smorest import abort
 from webargs import core
 from webargs.flaskparser import FlaskParser, is_json_request
 
+from cohop.api import body
 from cohop.api.schemas.plan import InfeasibleProblemSchema
 
 
 class BodyParser(FlaskParser):
-    """webargs' parser, also catching what json.loads raises besides JSONDecodeError
-    (too deep nesting, integers beyond Python's digit limit)."""
+    """webargs' parser on the body `cohop.api.body` read (413 over the cap, 408 for a stalled client, before
+    any parsing), also catching what json.loads raises besides JSONDecodeError (too deep nesting, integers
+    beyond Python's digit limit)."""
 
     def _raw_load_json(self, req):
         if not is_json_request(req):
             return core.missing
         try:
-            return core.parse_json(req.get_data(cache=True))
+            return core.parse_json(body.current())
         except json.JSONDecodeError:
             raise
         except (RecursionError, ValueError) as err:
@@ -37,6 +40,7 @@ class Blueprint(flask_smorest.Blueprint):
         """The answers every endpoint taking a JSON body may give besides its own."""
         def decorate(func):
             func = self.alt_response(415, response="UNSUPPORTED_MEDIA_TYPE")(func)
+            func = self.alt_response(408, response="REQUEST_TIMEOUT")(func)
             func = self.alt_response(413, response="REQUEST_ENTITY_TOO_LARGE")(func)
             return self.alt_response(400, response="BAD_REQUEST")(func)
         return decorate

@@ -2,7 +2,7 @@
 
 Each app has its own registry (tests build many apps). Under gunicorn,
 PROMETHEUS_MULTIPROC_DIR makes the client write values to shared files and
-the endpoint aggregates every worker's (deploy/gunicorn.conf.py sets it up).
+the endpoint aggregates every worker's (`cohop.gunicorn_conf.on_starting` sets it up).
 """
 
 from __future__ import annotations

@@ -4,14 +4,17 @@ from __future__ import annotations
 
 from flask import current_app
 from flask.views import MethodView
-from marshmallow import fields
+from marshmallow import fields, validate
 
 from cohop import __version__
-from cohop.api import lifecycle
+from cohop.api import lifecycle, problems
 from cohop.api.blueprint import Blueprint
+from cohop.api.schemas.problem import ProblemSchema
 from cohop.api.schemas.site import StrictSchema
 
 blp = Blueprint("meta", __name__, url_prefix="/v1", description="Service health")
+
+DRAINING = "urn:cohop:problem:draining"
 
 
 class HealthSchema(StrictSchema):
@@ -20,13 +23,29 @@ class HealthSchema(StrictSchema):
 
 
 class ReadySchema(StrictSchema):
-    status = fields.String(metadata={"description": "ready, or draining (shutting down)"})
+    status = fields.String(metadata={"description": "ready"})
     solves_running = fields.Integer()
     solve_slots = fields.Integer()
 
 
+class DrainingProblemSchema(ProblemSchema):
+    state = fields.String(validate=validate.OneOf(["draining"]), metadata={
+        "description": "draining: the server received SIGTERM; it still answers requests for COHOP_DRAIN_S "
+                       "seconds, then lets in-flight ones finish and exits"})
+    solves_running = fields.Integer()
+    solve_slots = fields.Integer()
+
+
+def _slots() -> dict:
+    from cohop.api.solving import slots
+
+    return {"solves_running": slots(current_app).active,
+            "solve_slots": current_app.config["COHOP_MAX_CONCURRENT_SOLVES"]}
+
+
 @blp.route("/health")
 class Health(MethodView):
+    @blp.doc(security=[])
     @blp.response(200, HealthSchema)
     def get(self):
         """Liveness: the process answers."""
@@ -35,15 +54,14 @@ class Health(MethodView):
 
 @blp.route("/ready")
 class Ready(MethodView):
+    @blp.doc(security=[])
     @blp.response(200, ReadySchema)
-    @blp.alt_response(503, response="SERVICE_UNAVAILABLE")
+    @blp.alt_response(503, schema=DrainingProblemSchema, content_type=problems.PROBLEM_JSON,
+                      description="Shutting down: send new work elsewhere (problem details with state draining)")
     def get(self):
-        """Readiness: fails while the process is shutting down and cannot take work."""
-        from cohop.api.solving import slots
-
-        if lifecycle.DRAINING.is_set():
-            from flask_smorest import abort
-
-            abort(503, message="shutting down: send new work elsewhere")
-        return {"status": "ready", "solves_running": slots(current_app).active,
-                "solve_slots": current_app.config["COHOP_MAX_CONCURRENT_SOLVES"]}
+        """Readiness: 503 from SIGTERM on, while the server drains and then finishes in-flight requests."""
+        if lifecycle.is_draining():
+            return problems.problem(503, "Shutting down", "this server received SIGTERM: send new work elsewhere; "
+                                    "requests already sent are still answered", DRAINING, state="draining",
+                                    **_slots())
+        return {"status": "ready", **_slots()}
