@@ -22,8 +22,6 @@ from tests.hostile import bodies as b
 JSON = "application/json"
 A, P, R = "/v1/assessments", "/v1/plans", "/v1/replans"
 
-GUNICORN = "owned by: gunicorn limits and their problem-details answers (server helper)"
-BODY_READING = "owned by: body reading / 413 for chunked bodies (body-reading helper)"
 LCM = "owned by: sequences (analysis walks lcm(L_x, L_y) hops: exhausts memory for coprime lengths)"
 HORIZON = ("owned by: sequences (longest_run's horizon grows as L_a x dwell_a / dwell_v: 76 s and 12 GB for "
            "dwells 1e-4 s and 2 s)")
@@ -87,11 +85,10 @@ ROUTES = [
     _get("dot-dot-path", "/v1/../../etc/passwd", (404,)),
     _get("percent-nul-path", "/v1/profiles/%00", (404,)),
     _get("unicode-path", "/v1/profiles/" + "%C3%BF" * 100, (404,)),
-    _get("long-path", "/v1/profiles/" + "x" * 10_000, (404, 414), owners={"server": GUNICORN}),
+    _get("long-path", "/v1/profiles/" + "x" * 10_000, (404, 414)),
     _get("query-on-health", "/v1/health?x=" + "y" * 1000 + "&__proto__=1"),
-    _get("huge-header", "/v1/health", (200, 431), headers=(("X-Junk", "j" * 65_536),), owners={"server": GUNICORN}),
-    _get("many-headers", "/v1/health", (200, 431), headers=tuple((f"X-H{i}", "v") for i in range(200)),
-         owners={"server": GUNICORN}),
+    _get("huge-header", "/v1/health", (200, 431), headers=(("X-Junk", "j" * 65_536),)),
+    _get("many-headers", "/v1/health", (200, 431), headers=tuple((f"X-H{i}", "v") for i in range(200))),
 ]
 
 CONTENT = [
@@ -254,7 +251,7 @@ CAPS = [
     _post("body-over-size-cap", A, lambda: b.padded(16 * 1024 * 1024 + 1), (413,)),
     _post("chunked-body", A, lambda: b.encode(b.assessment()), (200,), chunked=True, where=("server",)),
     _post("chunked-body-over-size-cap", A, lambda: b.padded(17 * 1024 * 1024), (413,), chunked=True,
-          where=("server",), owners={"server": BODY_READING}),
+          where=("server",)),
     _get("health-beside-slow-clients", "/v1/health", slow_clients=5, where=("server",)),
     _post("assessment-beside-slow-clients", A, lambda: b.encode(b.assessment()), (200,), slow_clients=5,
           where=("server",)),
