@@ -13,7 +13,7 @@ from cohop.embedded import EMBEDDED_URL, embedded_session
 from cohop_client import (Assessment, Client, CohopError, Conflict, InvalidRequest, NoFeasiblePlan, Plan,
                           PlannedSystem, SolverReport)
 
-from .conftest import BASELINE_NAMES, IDS, INFEASIBLE, SIZES, plan_ok, requirement, small_request, without_time
+from .conftest import BASELINE_NAMES, IDS, INFEASIBLE, SIZES, assert_repeats, plan_ok, requirement, small_request
 
 
 @pytest.fixture(scope="module")
@@ -80,7 +80,7 @@ def test_client_answer_equals_the_http_answer(typed_plan):
     """The embedded transport changes nothing: same request, same answer as the test client's."""
     body, plan = typed_plan
     direct = plan_ok(create_app({"TESTING": True}).test_client(), body)
-    assert without_time(plan.raw) == without_time(direct)
+    assert_repeats(plan.raw, direct)
 
 
 def test_client_no_feasible_plan(api):
