@@ -19,6 +19,7 @@ from __future__ import annotations
 import argparse
 import copy
 import json
+import os
 import statistics
 import time
 
@@ -80,7 +81,8 @@ def _row(name: str, limit: float, walls: list[float], status: int, answer: dict)
 
 
 def run_table(send, limits, repeat: int, label: str) -> None:
-    print(f"\n== {label}: wall time / T (median of {repeat}) ==")
+    load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
+    print(f"\n== {label}: wall time / T (median of {repeat}; load average before: {load}) ==")
     for name in SITES:
         for limit in limits:
             walls, status, answer = [], 0, {}
@@ -98,8 +100,10 @@ def run_table(send, limits, repeat: int, label: str) -> None:
 
 def in_process_sender():
     from cohop.api import create_app
+    from cohop.isolation import warm
 
     app = create_app({"TESTING": True, "COHOP_ISOLATE_SOLVES": True})
+    warm()  # as a production worker does when it starts: the fork server loads the solver modules once
     client = app.test_client()
 
     def send(path, body):

@@ -21,7 +21,7 @@ from cohop.planning.solve import SHARES, SHARES_WITHOUT_CP_SAT, SolveSettings, p
 from cohop.prepare import prepare_site
 from cohop.sequences.construct import _respace, build_sequences, required_spacing_channels, spacing_ceiling
 from tests import sites
-from tests.planning.helpers import instance, tiny_site
+from tests.planning.helpers import instance, roomy, tiny_site
 
 TWO = SolveSettings(solver_threads=2, max_solve_s=60.0)
 #: CP-SAT checks its deterministic limit between tasks: it may pass it by a little (measured about 6 %).
@@ -31,12 +31,6 @@ CP_SAT_OVERSHOOT = 1.3
 @pytest.fixture(scope="module")
 def water():
     return prepare_site(sites.load(samples.load("water_works_us915")["site"]))
-
-
-def roomy(seconds: float, wall_s: float = 300.0):
-    """A budget of `seconds` of work whose wall-clock end is far away: no wall-clock stop can intervene."""
-    deadline = Deadline.of(wall_s, wall_s)
-    return deadline.budget(seconds, deadline.end)
 
 
 def test_work_follows_the_budget(water):

@@ -241,15 +241,19 @@ def _sequences(prep: PreparedSite, hop_sets, current: dict[str, CurrentSystem], 
 
 
 def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[CurrentSystem], mode: ReplanMode,
-                settings: SolveSettings = SolveSettings(), deadline: Deadline | None = None) -> ReplanResult:
-    deadline = deadline or Deadline.of(req.time_limit_s, settings.max_solve_s)
+                settings: SolveSettings = SolveSettings(), deadline: Deadline | None = None,
+                budget: Budget | None = None) -> ReplanResult:
+    """`deadline`: the request's (made here if not given); `budget`, if given, is the search's own (else what
+    the deadline leaves after the closing phases' reserve)."""
+    deadline = deadline or (budget.deadline if budget is not None else
+                            Deadline.of(req.time_limit_s, settings.max_solve_s))
     cur = {c.id: c for c in current}
     ids = [s.id for s in prep.site.systems]
     removed = sorted(set(cur) - set(ids))
     notes = []
     full = build_instance(prep, req)
     seq_work = sequence_work(prep, full.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s)
-    budget = search_budget(deadline, full, costs.replan_after_search_s(full, seq_work))
+    budget = budget or search_budget(deadline, full, costs.replan_after_search_s(full, seq_work))
     fresh_budget, moves_budget, cp_budget = budget.split([RE_SHARES["fresh"], RE_SHARES["moves"], RE_SHARES["cp_sat"]])
     fresh_req = PlanRequirements(**{**req.__dict__, "baselines": ()})
     fresh = plan_site(prep, fresh_req, settings, detail="system", with_sequences=False, budget=fresh_budget)
