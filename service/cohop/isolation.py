@@ -12,7 +12,10 @@ hands every byte back to the system when the solve ends.
 
 While it waits, the parent kills the child
 - at `kill_at`, a hard wall-clock cap a little after the request's time limit
-  (the solver keeps its own deadline; this only stops a runaway): SolverCrashed;
+  (the solver keeps its own deadline; this only stops a runaway): SolverCrashed.
+  A solve whose closing phases alone cost more than its limit (a very large
+  site) tells the parent when it expects to end (`Deadline.expect`), and the
+  cap moves to that time plus the same grace, up to `latest`;
 - when the client has closed its connection (`client`, the request's socket):
   SolveAbandoned, so an abandoned request frees its solve slot at once.
 
@@ -38,6 +41,7 @@ import traceback
 from typing import Any, Callable
 
 from cohop.errors import DomainError, SolveAbandoned, SolverCrashed
+from cohop.planning import deadline as deadlines
 
 log = logging.getLogger("cohop.solver")
 
@@ -67,6 +71,7 @@ def warm() -> None:
 
 
 def _child(conn, func, args):
+    deadlines.listen_for_expected_end(lambda end: conn.send(("expect", end)))
     try:
         message = ("ok", func(*args))
     except DomainError as err:
@@ -121,11 +126,13 @@ def _watch(client) -> ClientWatch | None:
         return None
 
 
-def run_isolated(func: Callable[..., Any], *args, kill_at: float, client=None) -> Any:
+def run_isolated(func: Callable[..., Any], *args, kill_at: float, client=None, grace_s: float = 0.0,
+                 latest: float | None = None) -> Any:
     """func(*args) in a fresh process: its result, or its domain error re-raised here.
 
-    `kill_at` (time.monotonic()) kills it (SolverCrashed); `client`, a connected socket, kills it when the
-    client has gone (SolveAbandoned)."""
+    `kill_at` (time.monotonic()) kills it (SolverCrashed), or the solve's own expected end plus `grace_s`
+    if later, never after `latest`; `client`, a connected socket, kills it when the client has gone
+    (SolveAbandoned)."""
     ctx = _ctx()
     receiver, sender = ctx.Pipe(duplex=False)
     proc = ctx.Process(target=_child, args=(sender, func, args), daemon=True)
@@ -133,6 +140,7 @@ def run_isolated(func: Callable[..., Any], *args, kill_at: float, client=None) -
     proc.start()  # the first start also launches the fork server, which loads the solver modules first
     started = time.monotonic()
     kill_at += started - before  # that start-up is not the solve's time
+    latest = float("inf") if latest is None else max(kill_at, latest + started - before)
     sender.close()
     watch = _watch(client)
     try:
@@ -145,19 +153,22 @@ def run_isolated(func: Callable[..., Any], *args, kill_at: float, client=None) -
                           time.monotonic() - started)
                 raise SolverCrashed(proc.exitcode)
             if receiver.poll(min(left, WATCH_INTERVAL_S)):
-                break
+                try:
+                    kind, value = receiver.recv()
+                except EOFError:
+                    proc.join(5)
+                    log.error("solver process %s ended without an answer (exit code %s)", proc.pid, proc.exitcode)
+                    raise SolverCrashed(proc.exitcode) from None
+                if kind != "expect":
+                    break
+                kill_at = min(latest, max(kill_at, value + grace_s))
+                continue
             if watch is not None and watch.gone():
                 proc.kill()
                 proc.join(5)
                 after = time.monotonic() - started
                 log.warning("client closed the connection: solver process %s stopped after %.1f s", proc.pid, after)
                 raise SolveAbandoned(after)
-        try:
-            kind, value = receiver.recv()
-        except EOFError:
-            proc.join(5)
-            log.error("solver process %s ended without an answer (exit code %s)", proc.pid, proc.exitcode)
-            raise SolverCrashed(proc.exitcode) from None
     finally:
         receiver.close()
         if proc.is_alive():

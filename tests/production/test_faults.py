@@ -45,6 +45,18 @@ def test_a_runaway_solver_is_killed_at_its_hard_cap():
     assert solver_processes(os.getpid()) == []
 
 
+def _announces_a_late_end() -> str:
+    from cohop.planning.deadline import Deadline
+
+    Deadline.of(1.0, 1.0).expect(time.monotonic() + 20.0)  # a site whose closing phases outlast its limit
+    time.sleep(3.0)
+    return "answered"
+
+
+def test_a_solve_that_announces_a_later_end_is_not_killed_before_it():
+    assert run_isolated(_announces_a_late_end, kill_at=time.monotonic() + 2.0, grace_s=1.0) == "answered"
+
+
 def test_a_killed_solver_fails_the_request_cleanly_in_process():
     import os
 

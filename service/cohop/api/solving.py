@@ -25,13 +25,24 @@ from cohop.planning.solve import SolveSettings
 log = logging.getLogger("cohop.solver")
 
 #: The solver process is killed this long after the request's effective limit (a runaway stop; the
-#: solver keeps the limit itself): HARD_CAP_GRACE_S plus HARD_CAP_GRACE_SHARE of the limit.
+#: solver keeps the limit itself): HARD_CAP_GRACE_S plus HARD_CAP_GRACE_SHARE of the limit. A site whose
+#: closing phases alone outlast the limit moves the cap to its expected end plus the same grace, up to
+#: HARD_CAP_LATEST_S after the request arrived (below gunicorn's worker timeout).
 HARD_CAP_GRACE_S = 3.0
 HARD_CAP_GRACE_SHARE = 0.25
 
 
+def grace_s(limit_s: float) -> float:
+    return HARD_CAP_GRACE_S + HARD_CAP_GRACE_SHARE * limit_s
+
+
 def hard_cap_s(limit_s: float) -> float:
-    return limit_s + HARD_CAP_GRACE_S + HARD_CAP_GRACE_SHARE * limit_s
+    return limit_s + grace_s(limit_s)
+
+
+def latest_cap_s(max_solve_s: float) -> float:
+    """The latest a solve may run: gunicorn's worker timeout (`Settings.request_timeout_s`) less 10 s."""
+    return 2 * max_solve_s + 20
 
 
 def solve_settings(config) -> SolveSettings:
@@ -77,7 +88,8 @@ def run(kind: str, job, time_limit_s: float, *args):
             metrics.solves_in_progress.inc()
         if app.config["COHOP_ISOLATE_SOLVES"]:
             result = run_isolated(job, deadline, *args, kill_at=deadline.started + hard_cap_s(deadline.limit_s),
-                                  client=request.environ.get("gunicorn.socket"))
+                                  client=request.environ.get("gunicorn.socket"), grace_s=grace_s(deadline.limit_s),
+                                  latest=deadline.started + latest_cap_s(app.config["COHOP_MAX_SOLVE_S"]))
         else:
             result = job(deadline, *args)
         status = result["solver"]["status"] if "solver" in result else "feasible"

@@ -24,6 +24,15 @@ import time
 from dataclasses import dataclass, field
 from typing import Callable
 
+#: Who hears a solve's expected end (`Deadline.expect`): in a solver process, the parent that would
+#: otherwise kill it at the request's hard cap (`cohop.isolation`). None in-process.
+_expected_end_listener: Callable[[float], None] | None = None
+
+
+def listen_for_expected_end(listener: Callable[[float], None] | None) -> None:
+    global _expected_end_listener
+    _expected_end_listener = listener
+
 
 @dataclass
 class Deadline:
@@ -62,6 +71,12 @@ class Deadline:
     @property
     def stopped_by_wall_clock(self) -> bool:
         return bool(self.stops)
+
+    def expect(self, end: float) -> None:
+        """The planner expects to answer at `end` (time.monotonic()): after the limit when the closing phases
+        alone cost more than it (a very large site). Whoever enforces a hard cap is told."""
+        if _expected_end_listener is not None:
+            _expected_end_listener(end)
 
     def budget(self, seconds: float, end: float) -> "Budget":
         """A budget of `seconds` of calibrated work that the wall clock stops at `end` (monotonic)."""

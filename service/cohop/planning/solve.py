@@ -341,6 +341,7 @@ def search_budget(deadline: Deadline, inst: PlanningInstance, after_s: float) ->
     floor = max(MIN_SEARCH_SHARE * limit, min(MIN_SEARCH_S, limit))
     window = max(floor, limit - after_s)
     work = WORK_MARGIN * max(floor, limit - after_s - costs.before_search_s(inst))
+    deadline.expect(deadline.started + window + after_s)
     return deadline.budget(seconds=work, end=deadline.started + window)
 
 
