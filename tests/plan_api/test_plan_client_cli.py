@@ -60,7 +60,8 @@ def test_client_plan_is_typed(typed_plan):
 def test_client_solver_and_assessment_match_raw(typed_plan):
     _, plan = typed_plan
     raw = plan.raw
-    for name in ("status", "objective", "bound", "gap", "time_s", "method", "evaluated_objective"):
+    for name in ("status", "objective", "bound", "gap", "time_s", "method", "evaluated_objective", "time_limit_s",
+                 "requested_time_limit_s", "stopped_by_wall_clock"):
         assert getattr(plan.solver, name) == raw["solver"][name], name
     assert plan.solver.binding == tuple(raw["solver"]["binding"])
     assert plan.solver.notes == tuple(raw["solver"]["notes"])
