@@ -16,6 +16,13 @@ A phase gets two things from a `Budget` (the search's share of the limit):
   window. Only a phase that reaches it is cut short; the cut is recorded
   (`Deadline.stops`), because the plan may then differ between runs, and the
   answer says so.
+
+The window ends where the closing phases' reserve begins. On a busy machine
+everything runs slower than calibrated, the closing phases too, so the search
+measures how fast its own calibrated work really runs (`observe`) and moves
+the end earlier by the same factor applied to the reserve. Only the wall
+clock's stop moves; the work budgets (and so the plan, when no stop
+intervenes) stay as they were.
 """
 
 from __future__ import annotations
@@ -27,6 +34,8 @@ from typing import Callable
 #: Who hears a solve's expected end (`Deadline.expect`): in a solver process, the parent that would
 #: otherwise kill it at the request's hard cap (`cohop.isolation`). None in-process.
 _expected_end_listener: Callable[[float], None] | None = None
+#: Observations of less work than this say little about the machine's speed.
+MIN_OBSERVED_WORK_S = 0.05
 
 
 def listen_for_expected_end(listener: Callable[[float], None] | None) -> None:
@@ -78,9 +87,10 @@ class Deadline:
         if _expected_end_listener is not None:
             _expected_end_listener(end)
 
-    def budget(self, seconds: float, end: float) -> "Budget":
-        """A budget of `seconds` of calibrated work that the wall clock stops at `end` (monotonic)."""
-        return Budget(seconds=max(0.0, seconds), end=min(end, self.end), deadline=self)
+    def budget(self, seconds: float, end: float, reserve_s: float = 0.0) -> "Budget":
+        """A budget of `seconds` of calibrated work that the wall clock stops at `end` (monotonic), leaving
+        `reserve_s` (calibrated) for the closing phases."""
+        return Budget(seconds=max(0.0, seconds), end=min(end, self.end), deadline=self, reserve_s=reserve_s)
 
     def notes(self) -> list[str]:
         """What the answer says about the limit: clamping, and any wall-clock stop."""
@@ -101,6 +111,16 @@ class Budget:
     seconds: float  # calibrated seconds of work; phases take shares of it
     end: float  # time.monotonic() at which every phase of the group stops
     deadline: Deadline
+    reserve_s: float = 0.0  # the closing phases' calibrated cost, which the window leaves before the limit
+    slowness: float = 1.0  # wall seconds per calibrated second seen so far (at least 1)
+
+    def observe(self, work_s: float, wall_s: float) -> None:
+        """`work_s` calibrated seconds of work took `wall_s`: when that is slower than calibrated, the closing
+        phases will be too, so the window ends earlier (never later)."""
+        if work_s < MIN_OBSERVED_WORK_S or wall_s <= work_s * self.slowness:
+            return
+        self.slowness = wall_s / work_s
+        self.end = min(self.end, self.deadline.end - self.reserve_s * self.slowness)
 
     def work(self, share: float) -> float:
         return share * self.seconds
@@ -126,5 +146,6 @@ class Budget:
         out, cum = [], 0.0
         for s in shares:
             cum += s
-            out.append(Budget(seconds=s * self.seconds, end=now + min(1.0, cum) * window, deadline=self.deadline))
+            out.append(Budget(seconds=s * self.seconds, end=now + min(1.0, cum) * window, deadline=self.deadline,
+                              reserve_s=self.reserve_s))
         return out

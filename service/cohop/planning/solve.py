@@ -14,6 +14,7 @@ a busy machine makes it overrun (the answer then says so).
 from __future__ import annotations
 
 import math
+import time
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -286,8 +287,11 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
             return x, bounds, "greedy construction and local search", scale, start
         local = budget.work(shares["local_search"] - (CEILING_SHARE if ceilings else 0.0))
         proven_at = None if ceilings else max(bounds.values()) / (1 - OPTIMAL_GAP) if bounds else None
+        kicks_before, started = deadline.work_done.get("kicks", 0), time.monotonic()
         x = search.search_plan(inst, x, local, stop=budget.stopper("local search"), counter=deadline,
                                progress=lambda k, v: clock.tell("local search", objective=v), target=proven_at)
+        kicks = deadline.work_done.get("kicks", 0) - kicks_before
+        budget.observe(local * kicks / max(1, search.kick_budget(inst, local)), time.monotonic() - started)
         if ceilings:
             x = _meet_ceilings(inst, x, budget.work(CEILING_SHARE), budget.stopper("local search"), deadline)
         clock.tell("local search", objective=_value(inst, x))
@@ -342,7 +346,7 @@ def search_budget(deadline: Deadline, inst: PlanningInstance, after_s: float) ->
     window = max(floor, limit - after_s)
     work = WORK_MARGIN * max(floor, limit - after_s - costs.before_search_s(inst))
     deadline.expect(deadline.started + window + after_s)
-    return deadline.budget(seconds=work, end=deadline.started + window)
+    return deadline.budget(seconds=work, end=deadline.started + window, reserve_s=after_s)
 
 
 def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings = SolveSettings(),

@@ -45,6 +45,8 @@ from cohop.sequences import theory
 RESPACE_WORK = 100_000
 #: Calibrated seconds of CP-SAT work per slot-aligned group (`cohop.planning.cpsat`): 2 deterministic units.
 GROUP_WORK_S = 4.0
+#: Most spacing clauses a slot-aligned group's model may hold (a tiny delay spread asks for wide spacing).
+GROUP_CLAUSES = 200_000
 
 
 @dataclass(frozen=True)
@@ -169,6 +171,19 @@ def _family_orders(prep: PreparedSite, hop_sets, members: list[int], seed: int, 
     return out
 
 
+def _group_spacing(hop_sets, group: list[int], spacing: int) -> int:
+    """The spacing the group's model asks for: at most what every member's set allows, and small enough that
+    the model's spacing clauses (members x slots x close channel pairs) stay within GROUP_CLAUSES."""
+    spacing = min([spacing] + [max(1, spacing_ceiling(hop_sets[v])) for v in group])
+    n = hop_sets[group[0]].size
+    while spacing > 1:
+        close = sum(int((np.abs(hop_sets[v][:, None] - hop_sets[v][None, :]) < spacing).sum()) - n for v in group)
+        if close * n <= GROUP_CLAUSES:
+            break
+        spacing -= 1
+    return spacing
+
+
 def _orthogonal_group(prep: PreparedSite, hop_sets, group: list[int], name: str, seed: int, spacing: int,
                       component: int, work_s: float, budget: Budget) -> list[Sequence] | None:
     """Members of one slot-aligned group: no shared channel in any slot (None if CP-SAT finds none)."""
@@ -179,6 +194,7 @@ def _orthogonal_group(prep: PreparedSite, hop_sets, group: list[int], name: str,
         base = _family_orders(prep, hop_sets, [group[0]], seed, spacing, component)[0].channels
         return [Sequence(system=v, channels=np.roll(base, -j), construction="cyclic shift", component=component,
                          required_spacing=spacing, group=name) for j, v in enumerate(group)]
+    spacing = _group_spacing(hop_sets, group, spacing)
     m = cp_model.CpModel()
     b = {}
     for v in group:
