@@ -155,9 +155,9 @@ def test_spacing_ceiling_is_never_below_what_an_order_reaches(channels):
 
 
 def test_a_group_under_a_tiny_delay_spread_builds_a_bounded_model():
-    # Three slot-aligned systems on overlapping 20-channel sets: wide spacing is asked for, the group's
+    # Three slot-aligned systems on overlapping 8-channel sets: wide spacing is asked for, the group's
     # model asks for what the sets allow and its clause count stays bounded; the orders are permutations.
-    sets = [list(range(0, 40, 2)), list(range(10, 50, 2)), list(range(5, 45, 2))]
+    sets = [list(range(0, 16, 2)), list(range(6, 22, 2)), list(range(3, 19, 2))]
     systems = [sites.system(f"s{i}", hs, time_base_group="g", dwell_s=0.01, packet_airtime_s=0.002)
                for i, hs in enumerate(sets)]
     prep = prepare_site(sites.load(sites.site(systems, coupling_loss_db=60.0, n_channels=79)))
@@ -168,3 +168,14 @@ def test_a_group_under_a_tiny_delay_spread_builds_a_bounded_model():
     assert close * arrays[0].size <= GROUP_CLAUSES
     seqs, _ = build_sequences(prep, arrays, seed=0, rms_delay_spread_s=1e-15)
     assert [sorted(s.channels.tolist()) for s in seqs] == sets
+
+
+def test_a_wide_group_spacing_is_lowered_until_the_model_fits():
+    sets = [np.arange(79), np.arange(79), np.arange(1, 79).tolist() + [0]]
+    arrays = [np.sort(np.asarray(a)) for a in sets]
+    spacing = _group_spacing(arrays, [0, 1, 2], 79)
+    assert 1 <= spacing < spacing_ceiling(arrays[0])
+    close = sum(int((np.abs(a[:, None] - a[None, :]) < spacing).sum()) - a.size for a in arrays)
+    assert close * arrays[0].size <= GROUP_CLAUSES
+    wider = sum(int((np.abs(a[:, None] - a[None, :]) < spacing + 1).sum()) - a.size for a in arrays)
+    assert wider * arrays[0].size > GROUP_CLAUSES  # lowered no further than needed

@@ -158,9 +158,7 @@ def test_sigterm_during_a_solve_finishes_it_then_exits():
                                                                               json=_plan_body(3), timeout=60)))
         thread.start()
         assert wait_for(lambda: solver_processes(s.proc.pid), 30)
-        started = time.monotonic()
         s.proc.send_signal(signal.SIGTERM)
         thread.join(60)
         assert answers and answers[0].status_code == 200  # in flight: finished and answered
         assert s.proc.wait(40) == 0  # then the server exits by itself
-        assert time.monotonic() - started < 35
