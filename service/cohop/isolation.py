@@ -98,8 +98,11 @@ class ClientWatch:
         self.sock = sock
         self.poller = select.poll()
         self.poller.register(sock.fileno(), select.POLLIN | select.POLLPRI)
+        self.blind = False  # a socket we cannot peek at (TLS): only the hard cap stops its solve
 
     def gone(self) -> bool:
+        if self.blind:
+            return False
         try:
             events = self.poller.poll(0)
         except (OSError, ValueError):
@@ -113,7 +116,10 @@ class ClientWatch:
             return self.sock.recv(1, socket.MSG_PEEK) == b""
         except (BlockingIOError, InterruptedError):
             return False
-        except (OSError, ValueError):  # reset, or a socket that cannot peek (TLS)
+        except ValueError:  # an SSL socket refuses flags
+            self.blind = True
+            return False
+        except OSError:  # reset by the peer
             return True
 
 

@@ -17,7 +17,7 @@ import requests
 from cohop import samples
 from cohop.api import create_app
 from cohop.errors import SolverCrashed
-from cohop.isolation import run_isolated
+from cohop.isolation import ClientWatch, run_isolated
 from cohop_client import Client, ServerError
 from tests.production.procs import Server, solver_processes, wait_for
 
@@ -43,6 +43,18 @@ def test_a_runaway_solver_is_killed_at_its_hard_cap():
     with pytest.raises(SolverCrashed):
         run_isolated(time.sleep, 120, kill_at=time.monotonic() + 1.0)
     assert solver_processes(os.getpid()) == []
+
+
+def test_the_client_watch_tells_an_open_connection_from_a_closed_one():
+    ours, theirs = socket.socketpair()
+    with ours:
+        watch = ClientWatch(ours)
+        assert not watch.gone()  # connected, nothing sent
+        theirs.sendall(b"GET / HTTP/1.1\r\n")  # a pipelined request: still there
+        assert not watch.gone()
+        assert ours.recv(64)
+        theirs.close()
+        assert watch.gone()
 
 
 def _announces_a_late_end() -> str:
