@@ -65,7 +65,8 @@ def after_search_s(inst: PlanningInstance, detail: str, sequences) -> float:
     s, c = inst.n_systems, inst.n_channels
     total = assessment_s(s, _held(inst)) + baselines_s(inst)
     total += (sequences.estimate_s if sequences is not None else 0.0)
-    total += ANSWER_BASE_S + ANSWER_PER_SYSTEM_CHANNEL_S * s * (c if detail == "channel" else float(np.mean(inst.sizes)))
+    per_system = c if detail == "channel" else float(np.mean(inst.sizes))
+    total += ANSWER_BASE_S + ANSWER_PER_SYSTEM_CHANNEL_S * s * per_system
     return SAFETY * total
 
 
@@ -73,5 +74,6 @@ def replan_after_search_s(inst: PlanningInstance, sequences) -> float:
     """The re-plan's closing phases: sequences, the assessments of the fresh plan, the re-plan and the
     current plan, validation and the answer (at channel detail)."""
     s, c = inst.n_systems, inst.n_channels
-    total = 3 * assessment_s(s, _held(inst)) + sequences.estimate_s + ANSWER_BASE_S + ANSWER_PER_SYSTEM_CHANNEL_S * s * c
+    total = 3 * assessment_s(s, _held(inst)) + sequences.estimate_s
+    total += ANSWER_BASE_S + ANSWER_PER_SYSTEM_CHANNEL_S * s * c
     return SAFETY * total

@@ -249,7 +249,8 @@ def _orthogonal_group(prep: PreparedSite, hop_sets, group: list[int], name: str,
 
 def build_sequences(prep: PreparedSite, hop_sets, seed: int = 0,
                     rms_delay_spread_s: float = theory.DEFAULT_RMS_DELAY_SPREAD_S,
-                    group_work_s: float = GROUP_WORK_S, budget: Budget | None = None) -> tuple[list[Sequence], list[str]]:
+                    group_work_s: float = GROUP_WORK_S,
+                    budget: Budget | None = None) -> tuple[list[Sequence], list[str]]:
     """A sequence per system, and notes on what could not be done as asked. `budget` stops the groups'
     CP-SAT calls at the request's deadline (by default, a deadline of the groups' own work)."""
     sets = [np.unique(np.asarray(h, dtype=int)) for h in hop_sets]
