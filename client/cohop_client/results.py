@@ -122,12 +122,17 @@ class SolverReport:
     evaluated_objective: float
     binding: tuple[str, ...]
     notes: tuple[str, ...]
+    time_limit_s: float | None = None  # the effective limit (the server's cap may clamp the request's)
+    requested_time_limit_s: float | None = None
+    stopped_by_wall_clock: bool = False  # a busy server cut a phase short: the plan may not repeat exactly
 
     @classmethod
     def from_json(cls, body: dict) -> "SolverReport":
         return cls(status=body["status"], objective=body["objective"], bound=body["bound"], gap=body["gap"],
                    time_s=body["time_s"], method=body["method"], evaluated_objective=body["evaluated_objective"],
-                   binding=tuple(body["binding"]), notes=tuple(body["notes"]))
+                   binding=tuple(body["binding"]), notes=tuple(body["notes"]),
+                   time_limit_s=body.get("time_limit_s"), requested_time_limit_s=body.get("requested_time_limit_s"),
+                   stopped_by_wall_clock=bool(body.get("stopped_by_wall_clock", False)))
 
 
 @dataclass(frozen=True)

@@ -106,6 +106,16 @@ def without_time(body: dict) -> dict:
     return out
 
 
+def assert_repeats(first: dict, second: dict) -> None:
+    """Two answers to the same request and seed: the same answer unless the wall clock stopped a phase
+    of either (a busy machine); an answer says so exactly when it happened."""
+    for answer in (first, second):
+        said = any("wall clock stopped" in n for n in answer["solver"]["notes"])
+        assert answer["solver"]["stopped_by_wall_clock"] == said
+    if not (first["solver"]["stopped_by_wall_clock"] or second["solver"]["stopped_by_wall_clock"]):
+        assert without_time(first) == without_time(second)
+
+
 def interfered(threshold: float, d_count: int, pins=()) -> dict:
     """The small request with the interferer on d, d needing `d_count` channels."""
     body = small_request(site=small_site(interferers=[interferer()]))

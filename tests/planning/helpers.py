@@ -6,6 +6,7 @@ import itertools
 
 import numpy as np
 
+from cohop.planning.deadline import Deadline
 from cohop.planning.instance import build_instance
 from cohop.planning.linear import objective_value, occupancy, system_estimates
 from cohop.planning.requirements import PlanRequirements, SystemRequirement
@@ -55,3 +56,10 @@ def brute_force(inst) -> tuple[float, np.ndarray]:
         if value < best - 1e-15:
             best, best_x = value, x
     return best, best_x
+
+
+def roomy(seconds: float, wall_s: float = 300.0):
+    """A search budget of `seconds` of work whose wall-clock end is far away: no wall-clock stop can
+    intervene, so the plan depends on the work counts only, however busy the machine."""
+    deadline = Deadline.of(wall_s, wall_s)
+    return deadline.budget(seconds, deadline.end)

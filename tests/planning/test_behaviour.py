@@ -9,6 +9,7 @@ from cohop.planning.requirements import PlanRequirements, SystemRequirement
 from cohop.planning.solve import SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from tests import sites
+from tests.planning.helpers import roomy
 
 FAST = SolveSettings(solver_threads=2, max_solve_s=10.0)
 
@@ -24,15 +25,15 @@ def water():
 
 
 def test_same_request_and_seed_same_plan(water):
-    req = PlanRequirements(time_limit_s=1.0, seed=7)
-    a, b = plan_site(water, req, FAST), plan_site(water, req, FAST)
+    req = PlanRequirements(seed=7)
+    a, b = (plan_site(water, req, FAST, budget=roomy(0.8)) for _ in range(2))
     assert [h.tolist() for h in a.hop_sets] == [h.tolist() for h in b.hop_sets]
     assert a.report.objective == b.report.objective and a.report.bound == b.report.bound
 
 
 def test_independent_mode_ignores_the_other_systems(water):
     # Each system only avoids measured occupancy: its hop set minimises its own interferer exposure.
-    result = plan_site(water, PlanRequirements(time_limit_s=0.5, coordination="independent"), FAST)
+    result = plan_site(water, PlanRequirements(coordination="independent"), FAST, budget=roomy(0.4))
     inst = result.instance
     for v, hs in enumerate(result.hop_sets):
         allowed = np.flatnonzero(inst.allowed[v])
@@ -43,8 +44,8 @@ def test_independent_mode_ignores_the_other_systems(water):
 def test_worst_system_objective_lowers_the_maximum(water):
     # With the same budget, minimising the worst system gives a maximum no higher than the weighted-sum
     # plan's (the min-max search starts from a weighted-sum search of half the budget).
-    total = plan_site(water, PlanRequirements(time_limit_s=2.0), FAST)
-    worst = plan_site(water, PlanRequirements(time_limit_s=2.0, objective="worst_system"), FAST)
+    total = plan_site(water, PlanRequirements(), FAST, budget=roomy(1.5))
+    worst = plan_site(water, PlanRequirements(objective="worst_system"), FAST, budget=roomy(1.5))
     max_total = max(system_estimates(total.instance, np.array([np.isin(np.arange(129), h) for h in total.hop_sets])))
     assert worst.report.objective <= max_total * 1.02
     assert worst.report.evaluated_objective == pytest.approx(
@@ -55,7 +56,7 @@ def test_pins_and_exclusions_are_kept(water):
     req = PlanRequirements(time_limit_s=0.5, systems=(
         SystemRequirement("dosing-link", pinned_channels=(3, 77)),
         SystemRequirement("sludge-crane", excluded_channels=tuple(range(60, 100)))))
-    result = plan_site(water, req, FAST)
+    result = plan_site(water, req, FAST, budget=roomy(0.6))
     ids = [s.id for s in water.site.systems]
     assert {3, 77} <= set(result.hop_sets[ids.index("dosing-link")].tolist())
     assert not set(range(60, 100)) & set(result.hop_sets[ids.index("sludge-crane")].tolist())
@@ -64,13 +65,13 @@ def test_pins_and_exclusions_are_kept(water):
 
 def test_a_loss_ceiling_is_met_on_the_evaluated_figures(water):
     req = PlanRequirements(time_limit_s=1.0, systems=(SystemRequirement("filter-sensors", max_attempt_loss=0.02),))
-    result = plan_site(water, req, FAST)
+    result = plan_site(water, req, FAST, budget=roomy(0.6))
     f = {s.id: s for s in result.assessment.systems}["filter-sensors"]
     assert f.attempt_loss_probability <= 0.02
     assert result.violations == []
 
 
 def test_planner_keeps_the_profile(mine):
-    result = plan_site(mine, PlanRequirements(time_limit_s=0.5), FAST)
+    result = plan_site(mine, PlanRequirements(), FAST, budget=roomy(0.4))
     for f in result.assessment.systems:
         assert all(x.status != "fail" for x in f.compliance), f.id

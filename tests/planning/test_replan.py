@@ -13,7 +13,7 @@ from cohop.planning.requirements import PlanRequirements, SystemRequirement
 from cohop.planning.solve import SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from tests import sites
-from tests.planning.helpers import tiny_site
+from tests.planning.helpers import roomy, tiny_site
 
 FAST = SolveSettings(solver_threads=1, max_solve_s=5.0)
 
@@ -53,10 +53,11 @@ def test_change_count_is_minimal_against_brute_force(tolerance):
     body = tiny_site(3, 7, {(0, 1): 55.0})
     sizes = [2, 2, 2]
     prep0 = prepare_site(sites.load(body))
-    before = plan_site(prep0, _req(sizes), FAST)
+    before = plan_site(prep0, _req(sizes), FAST, budget=roomy(0.6))
     body["interferers"] = [_blocker(2402, 2403, ["s0", "s1", "s2"])]  # channels 0 and 1 now blocked
     prep = prepare_site(sites.load(body))
-    result = replan_site(prep, _req(sizes), _current(prep, before.hop_sets), ReplanMode("tolerance", tolerance), FAST)
+    result = replan_site(prep, _req(sizes), _current(prep, before.hop_sets), ReplanMode("tolerance", tolerance), FAST,
+                         budget=roomy(0.6))
     inst = build_instance(prep, _req(sizes))
     old = occupancy(before.hop_sets, 3, 7)
     minimum = _brute_force_min_changes(inst, old, result.target)
@@ -68,8 +69,9 @@ def test_change_count_is_minimal_against_brute_force(tolerance):
 def test_no_change_when_the_current_plan_still_fits():
     body = tiny_site(3, 10)
     prep = prepare_site(sites.load(body))
-    current = plan_site(prep, _req([3, 3, 3]), FAST)
-    result = replan_site(prep, _req([3, 3, 3]), _current(prep, current.hop_sets), ReplanMode(), FAST)
+    current = plan_site(prep, _req([3, 3, 3]), FAST, budget=roomy(0.6))
+    result = replan_site(prep, _req([3, 3, 3]), _current(prep, current.hop_sets), ReplanMode(), FAST,
+                         budget=roomy(0.6))
     assert result.changes == 0 and result.proven_minimal
     assert all(d.status == "kept" and not d.dropped and not d.added for d in result.diffs)
 
@@ -80,7 +82,8 @@ def test_a_blocked_system_changes_only_what_the_interferer_took():
     current = [np.array([0, 1, 2, 3, 4]), np.array([8, 9, 10, 11, 12]), np.array([15, 16, 17, 18, 19])]
     body["interferers"] = [_blocker(2410, 2411, ["s1"])]  # channels 8 and 9, for s1 only
     prep = prepare_site(sites.load(body))
-    result = replan_site(prep, _req([5, 5, 5]), _current(prep, current), ReplanMode("tolerance", 1.0), FAST)
+    result = replan_site(prep, _req([5, 5, 5]), _current(prep, current), ReplanMode("tolerance", 1.0), FAST,
+                         budget=roomy(0.6))
     diffs = {d.id: d for d in result.diffs}
     assert diffs["s1"].dropped == [8, 9] and len(diffs["s1"].added) == 2
     assert diffs["s0"].status == diffs["s2"].status == "kept"
@@ -95,9 +98,9 @@ def test_budget_mode_respects_the_budget_and_refuses_one_below_the_bound():
     prep = prepare_site(sites.load(body))
     cur = _current(prep, current)
     with pytest.raises(PlanInfeasible) as err:
-        replan_site(prep, _req([4, 4]), cur, ReplanMode("budget", max_changes=1), FAST)
+        replan_site(prep, _req([4, 4]), cur, ReplanMode("budget", max_changes=1), FAST, budget=roomy(0.6))
     assert "change budget" in [c.requirement for c in err.value.conflicts]
-    result = replan_site(prep, _req([4, 4]), cur, ReplanMode("budget", max_changes=3), FAST)
+    result = replan_site(prep, _req([4, 4]), cur, ReplanMode("budget", max_changes=3), FAST, budget=roomy(0.6))
     assert result.lower_bound == 2 <= result.changes <= 3
 
 
@@ -105,7 +108,7 @@ def test_new_and_removed_systems():
     body = tiny_site(3, 15)
     prep = prepare_site(sites.load(body))
     current = [CurrentSystem("s0", (0, 1, 2)), CurrentSystem("gone", (5, 6, 7))]
-    result = replan_site(prep, _req([3, 3, 3]), current, ReplanMode(), FAST)
+    result = replan_site(prep, _req([3, 3, 3]), current, ReplanMode(), FAST, budget=roomy(0.6))
     assert result.removed == ["gone"]
     statuses = {d.id: d.status for d in result.diffs}
     assert statuses["s1"] == statuses["s2"] == "new system"

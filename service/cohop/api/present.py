@@ -136,7 +136,9 @@ def plan_dict(result, detail: str = "channel") -> dict:
               "evaluated_objective": r.evaluated_objective, "linearisation_error": r.linearisation_error,
               "objective_kind": inst.req.objective, "time_s": r.time_s, "time_limit_s": r.time_limit_s,
               "method": r.method, "scale_factor": r.scale_factor, "max_relative_rounding": r.rounding,
-              "workers": r.workers, "deterministic": r.deterministic, "binding": r.binding, "notes": r.notes}
+              "workers": r.workers, "deterministic": r.deterministic,
+              "requested_time_limit_s": r.requested_time_limit_s, "stopped_by_wall_clock": r.stopped_by_wall_clock,
+              "work": dict(r.work), "binding": r.binding, "notes": r.notes}
     caution = prep.profile.coordination_caution and (coordination == "joint" or (
         result.sequences is not None and result.sequences.depends_on_alignment))
     seqs = sequences_dict(result.sequences, result.assessment) if result.sequences is not None else None
@@ -241,4 +243,7 @@ def replan_dict(result, mode) -> dict:
         "sequences": sequences_dict(result.sequences, result.assessment),
         "assessment": assessment_dict(result.assessment, coordination_caution=caution),
         "notes": list(result.notes),
+        "time": {"time_s": result.time_s, "time_limit_s": result.time_limit_s,
+                 "requested_time_limit_s": result.requested_time_limit_s,
+                 "stopped_by_wall_clock": result.stopped_by_wall_clock, "work": dict(result.work)},
     }

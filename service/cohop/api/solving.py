@@ -1,20 +1,48 @@
-"""Running plan and re-plan solves for the views: slots, isolation, metrics, errors.
+"""Running plan and re-plan solves for the views: slots, the deadline, isolation, metrics, errors.
 
 The jobs are module-level functions of plain, picklable arguments that return
 the finished answer dict, so they run the same in-process (tests, command
-line) or in a solver process (`cohop.isolation`, production).
+line) or in a solver process (`cohop.isolation`, production). Each gets the
+request's `Deadline` first: made here, when the effective limit is known
+(the request's, clamped by COHOP_MAX_SOLVE_S), counted from the request's
+arrival. In a solver process the parent also kills the solve at the hard cap
+(`hard_cap_s`) and when the client has gone (SolveAbandoned).
 """
 
 from __future__ import annotations
 
+import logging
 import time
 
-from flask import current_app
+from flask import current_app, g, request
 
 from cohop.api import problems
-from cohop.errors import SolverBusy, SolverCrashed
+from cohop.errors import SolveAbandoned, SolverBusy, SolverCrashed
 from cohop.isolation import SolveSlots, run_isolated
+from cohop.planning.deadline import Deadline
 from cohop.planning.solve import SolveSettings
+
+log = logging.getLogger("cohop.solver")
+
+#: The solver process is killed this long after the request's effective limit (a runaway stop; the
+#: solver keeps the limit itself): HARD_CAP_GRACE_S plus HARD_CAP_GRACE_SHARE of the limit. A site whose
+#: closing phases alone outlast the limit moves the cap to its expected end plus the same grace, up to
+#: HARD_CAP_LATEST_S after the request arrived (below gunicorn's worker timeout).
+HARD_CAP_GRACE_S = 3.0
+HARD_CAP_GRACE_SHARE = 0.25
+
+
+def grace_s(limit_s: float) -> float:
+    return HARD_CAP_GRACE_S + HARD_CAP_GRACE_SHARE * limit_s
+
+
+def hard_cap_s(limit_s: float) -> float:
+    return limit_s + grace_s(limit_s)
+
+
+def latest_cap_s(max_solve_s: float) -> float:
+    """The latest a solve may run: gunicorn's worker timeout (`Settings.request_timeout_s`) less 10 s."""
+    return 2 * max_solve_s + 20
 
 
 def solve_settings(config) -> SolveSettings:
@@ -22,18 +50,18 @@ def solve_settings(config) -> SolveSettings:
                          max_products=config["COHOP_MAX_PRODUCTS"], deterministic=config["COHOP_DETERMINISTIC"])
 
 
-def plan_job(site, requirements, settings, detail, progress=None) -> dict:
+def plan_job(deadline, site, requirements, settings, detail, progress=None) -> dict:
     from cohop.api.present import plan_dict
     from cohop.planning.run import run_plan
 
-    return plan_dict(run_plan(site, requirements, settings, progress, detail))
+    return plan_dict(run_plan(site, requirements, settings, progress, detail, deadline))
 
 
-def replan_job(site, requirements, current, mode, settings) -> dict:
+def replan_job(deadline, site, requirements, current, mode, settings) -> dict:
     from cohop.api.present import replan_dict
     from cohop.planning.run import run_replan
 
-    return replan_dict(run_replan(site, requirements, current, mode, settings), mode)
+    return replan_dict(run_replan(site, requirements, current, mode, settings, deadline), mode)
 
 
 def slots(app) -> SolveSlots:
@@ -43,8 +71,8 @@ def slots(app) -> SolveSlots:
     return ext["slots"]
 
 
-def run(kind: str, job, *args):
-    """Run a solve job under the app's slots; isolated in its own process when configured."""
+def run(kind: str, job, time_limit_s: float, *args):
+    """Run `job(deadline, *args)` under the app's slots; isolated in its own process when configured."""
     app = current_app._get_current_object()
     metrics = app.extensions["cohop"].get("metrics")
     slot = slots(app)
@@ -52,17 +80,23 @@ def run(kind: str, job, *args):
         if metrics:
             metrics.rejections.labels(reason="solver busy").inc()
         raise SolverBusy(app.config["COHOP_MAX_CONCURRENT_SOLVES"])
+    deadline = Deadline.of(time_limit_s, app.config["COHOP_MAX_SOLVE_S"], started=g.get("cohop_request_start"))
     started = time.monotonic()
     status = "error"
     try:
         if metrics:
             metrics.solves_in_progress.inc()
         if app.config["COHOP_ISOLATE_SOLVES"]:
-            result = run_isolated(job, *args, timeout_s=app.config["COHOP_MAX_SOLVE_S"] * 4 + 30)
+            result = run_isolated(job, deadline, *args, kill_at=deadline.started + hard_cap_s(deadline.limit_s),
+                                  client=request.environ.get("gunicorn.socket"), grace_s=grace_s(deadline.limit_s),
+                                  latest=deadline.started + latest_cap_s(app.config["COHOP_MAX_SOLVE_S"]))
         else:
-            result = job(*args)
+            result = job(deadline, *args)
         status = result["solver"]["status"] if "solver" in result else "feasible"
         return result
+    except SolveAbandoned:
+        status = "abandoned"
+        raise
     except SolverCrashed:
         status = "crashed"
         raise
@@ -74,6 +108,10 @@ def run(kind: str, job, *args):
 
 
 def register(app) -> None:
+    @app.before_request
+    def _arrived():
+        g.cohop_request_start = time.monotonic()  # a solve's deadline counts from here
+
     @app.errorhandler(SolverBusy)
     def _busy(err):
         after = str(app.config["COHOP_RETRY_AFTER_S"])
@@ -84,3 +122,8 @@ def register(app) -> None:
     def _crashed(err):
         return problems.problem(500, "Solver failed", f"{err}; the service is still up, send the request again",
                                 "urn:cohop:problem:solver-failed")
+
+    @app.errorhandler(SolveAbandoned)
+    def _abandoned(err):
+        # Nobody reads this answer (the client has gone); 499 is the access log's usual mark for it.
+        return problems.problem(499, "Client closed request", str(err), "urn:cohop:problem:solve-abandoned")

@@ -51,6 +51,7 @@ class BoundResult:
     iterations: int
     columns: int
     converged: bool
+    work: float = 0.0  # pricing operations spent (the deterministic work count)
 
 
 def _channel_types(inst: PlanningInstance) -> list[tuple]:
@@ -342,7 +343,7 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
 
     It stops at convergence, after `iterations`, or when its pricing work exceeds `seconds` worth of
     WORK_PER_SECOND (a count, so runs repeat exactly); a last exact pricing then gives a valid bound.
-    `deadline()`, a wall-clock safety cap, can stop it too (then runs may differ).
+    `deadline()`, the wall clock's stop, can end it too (then runs may differ).
     """
     length = length or window_length(inst)
     classes = _Classes(inst, length)
@@ -446,4 +447,4 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
         if added == 0 or last:
             break
     return BoundResult(bound=max(best, 0.0), lp_value=value, window=length, iterations=it, columns=len(seen),
-                       converged=converged)
+                       converged=converged, work=spent())

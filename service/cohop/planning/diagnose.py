@@ -5,6 +5,9 @@ an assumption literal (see `cohop.planning.model`); CP-SAT's sufficient
 assumptions for infeasibility give a conflicting set, which a deletion
 filter shrinks. Quick arithmetic checks come first and answer the common
 cases (too few allowed channels; a ceiling the interferers alone exceed).
+The work (half for the first solve, half shared by the deletion filter's)
+and the wall clock (the budget's end) bound every CP-SAT call; a filter cut
+short leaves a conflicting set that is valid but may not be minimal.
 """
 
 from __future__ import annotations
@@ -14,9 +17,14 @@ import math
 import numpy as np
 from ortools.sat.python import cp_model
 
-from cohop.planning import model as groups
-from cohop.planning.instance import PlanningInstance, runs
 from cohop.errors import Conflict
+from cohop.planning import cpsat
+from cohop.planning import model as groups
+from cohop.planning.deadline import Budget, Deadline
+from cohop.planning.instance import PlanningInstance, runs
+
+#: Calibrated seconds of CP-SAT work for a diagnosis when the caller gives no budget.
+DEFAULT_WORK_S = 5.0
 
 
 def _count_conflict(inst: PlanningInstance, v: int) -> Conflict:
@@ -115,21 +123,26 @@ class _Registry:
         return lit
 
 
-def _solve(m: cp_model.CpModel, assumptions, work_s: float, workers: int):
+def _solve(m: cp_model.CpModel, assumptions, budget: Budget, work_s: float, seed: int, deterministic: bool):
     m.clear_assumptions()
     m.add_assumptions(assumptions)
-    solver = cp_model.CpSolver()
-    solver.parameters.num_workers = 1  # assumptions cores need a single worker
-    solver.parameters.max_deterministic_time = work_s
-    status = solver.solve(m)
-    return status, solver
+    # assumption cores need a single worker
+    out = cpsat.run(m, budget, "infeasibility diagnosis", work_s, workers=1, seed=seed, deterministic=deterministic)
+    return out.status, out.solver
 
 
-def diagnose(inst: PlanningInstance, work_s: float = 5.0, workers: int = 1) -> tuple[list[Conflict] | None, bool]:
-    """(conflicting requirements, proven) if no plan exists; (None, True) if a plan exists."""
+def diagnose(inst: PlanningInstance, budget: Budget | None = None, work_s: float = DEFAULT_WORK_S, seed: int = 0,
+             deterministic: bool = True) -> tuple[list[Conflict] | None, bool]:
+    """(conflicting requirements, proven) if no plan exists; (None, True) if a plan exists.
+
+    `work_s`: calibrated seconds of CP-SAT work in all; `budget`: the wall-clock stop (by default, a
+    deadline of twice the work)."""
     quick = quick_checks(inst)
     if quick:
         return quick[0], True
+    if budget is None:
+        own = Deadline.of(2 * work_s + 1.0, 2 * work_s + 1.0)
+        budget = own.budget(own.limit_s, own.end)
     m = cp_model.CpModel()
     reg = _Registry(m, inst)
     gs = [groups.ChannelVariables(keep_excluded=True), groups.Exclusions(), groups.ChannelCounts(), groups.Pins(),
@@ -137,7 +150,7 @@ def diagnose(inst: PlanningInstance, work_s: float = 5.0, workers: int = 1) -> t
     mv = groups.ModelVars()
     for g in gs:
         g.add(m, mv, inst, reg)
-    status, solver = _solve(m, reg.literals, work_s, workers)
+    status, solver = _solve(m, reg.literals, budget, 0.5 * work_s, seed, deterministic)
     if status in (cp_model.OPTIMAL, cp_model.FEASIBLE):
         return None, True
     if status != cp_model.INFEASIBLE:
@@ -146,9 +159,12 @@ def diagnose(inst: PlanningInstance, work_s: float = 5.0, workers: int = 1) -> t
     index = {lit.index: i for i, lit in enumerate(reg.literals)}
     core = [index[i] for i in solver.sufficient_assumptions_for_infeasibility() if i in index]
     keep = list(core)
+    each = 0.5 * work_s / max(1, len(core))
     for i in list(core):  # deletion filter: drop what the conflict does not need
+        if budget.expired("infeasibility diagnosis"):
+            break
         trial = [j for j in keep if j != i]
-        st, _ = _solve(m, [reg.literals[j] for j in trial], work_s, workers)
+        st, _ = _solve(m, [reg.literals[j] for j in trial], budget, each, seed, deterministic)
         if st == cp_model.INFEASIBLE:
             keep = trial
     return [reg.conflicts[i] for i in keep], True

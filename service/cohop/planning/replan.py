@@ -17,6 +17,13 @@ channels are not counted; removed systems are simply gone.
    proves the minimum directly (minimise changes subject to the target).
 3. Budget mode: the best objective with at most `max_changes` changes, by the
    same free and paid moves while the budget lasts.
+
+Time: one `Deadline` for the request. After the closing phases' reserve
+(sequences, the assessments of the re-plan and of the current plan, the
+answer), the search budget is split: the fresh plan (RE_SHARES["fresh"]),
+the moves (wall clock only: their count is bounded by the channels), and
+CP-SAT's minimum-change proof (RE_SHARES["cp_sat"]), each stopped by the
+wall clock at the end of its part.
 """
 
 from __future__ import annotations
@@ -25,23 +32,25 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from ortools.sat.python import cp_model
 
 from cohop.assess import Assessment, assess_site
-from cohop.planning import model
+from cohop.errors import Conflict, PlanInfeasible
+from cohop.planning import costs, cpsat, model
+from cohop.planning.deadline import Budget, Deadline
 from cohop.planning.instance import PlanningInstance, build_instance
 from cohop.planning.linear import hop_sets_of, objective_value, system_estimates
-from cohop.errors import Conflict, PlanInfeasible
 from cohop.planning.requirements import PlanRequirements
 from cohop.planning.search import Placement, _best_swap
-from cohop.planning.solve import PlanResult, SolveSettings, _independent, plan_site
+from cohop.planning.solve import PlanResult, SolveSettings, _independent, plan_site, search_budget
 from cohop.planning.validate import Violation, validate_plan
 from cohop.prepare import PreparedSite
 from cohop.sequences.construct import Sequence, build_sequences
-from cohop.sequences.report import SequenceOutcome, delay_spread, outcome
+from cohop.sequences.report import SequenceOutcome, SequenceWork, delay_spread, outcome, sequence_work
 
 MODES = ("tolerance", "budget")
 DEFAULT_TOLERANCE = 0.05
+#: Shares of the re-plan's search budget: the fresh plan, the moves, CP-SAT's minimum-change step.
+RE_SHARES = {"fresh": 0.45, "moves": 0.10, "cp_sat": 0.45}
 
 
 @dataclass(frozen=True)
@@ -84,6 +93,11 @@ class ReplanResult:
     removed: list[str]
     violations: list[Violation]
     notes: list[str] = field(default_factory=list)
+    time_s: float = 0.0  # since the request arrived
+    time_limit_s: float = 0.0  # the effective limit
+    requested_time_limit_s: float = 0.0
+    stopped_by_wall_clock: bool = False
+    work: dict[str, float] = field(default_factory=dict)
 
 
 def _old_masks(inst: PlanningInstance, current: dict[str, CurrentSystem]) -> np.ndarray:
@@ -157,19 +171,22 @@ def _apply(place: Placement, move: tuple) -> None:
     place.add(v, c_in)
 
 
-def _descend_free(place: Placement, old: np.ndarray, limit: int = 10_000) -> None:
+def _descend_free(place: Placement, old: np.ndarray, limit: int = 10_000, stop=None) -> None:
     for _ in range(limit):
+        if stop is not None and stop():
+            return
         move = _free_or_paid_move(place, old, paid=False)
         if move is None:
             return
         _apply(place, move)
 
 
-def _spend(inst, x, old, existing, budget: int | None, target: float | None) -> np.ndarray:
-    """Free moves, then one paid move at a time, until the target is met or the budget is spent."""
+def _spend(inst, x, old, existing, budget: int | None, target: float | None, stop=None) -> np.ndarray:
+    """Free moves, then one paid move at a time, until the target is met or the budget is spent (or the
+    wall clock's `stop()`)."""
     place = Placement(inst, x)
-    _descend_free(place, old)
-    while True:
+    _descend_free(place, old, stop=stop)
+    while stop is None or not stop():
         value = objective_value(inst, system_estimates(inst, place.x))
         if target is not None and value <= target:
             break
@@ -179,30 +196,29 @@ def _spend(inst, x, old, existing, budget: int | None, target: float | None) -> 
         if move is None:
             break
         _apply(place, move)
-        _descend_free(place, old)
+        _descend_free(place, old, stop=stop)
     return place.x.copy()
 
 
-def _cp_sat_minimum(inst, start, old, existing, target, settings: SolveSettings, seconds: float):
-    """Minimise changes subject to the objective target on the full model; (x, proven) or (None, False)."""
+def _cp_sat_minimum(inst, start, old, existing, target, settings: SolveSettings, budget: Budget, lower: int):
+    """Minimise changes subject to the objective target on the full model; (x, proven) or (None, False).
+    It stops as soon as a plan with `lower` changes (the arithmetic lower bound) is found."""
     m, mv, objective, scale = model.full_model(inst, start)
     m.add(model.weighted_sum(mv, objective, scale) <= int(math.floor((target - mv.constant) * scale.factor)))
     # changes = channels newly set on existing systems
     m.minimize(sum(mv.x[v, c] for (v, c) in mv.x if existing[v] and not old[v, c]))
-    solver = cp_model.CpSolver()
-    solver.parameters.num_workers = settings.solver_threads
-    solver.parameters.max_deterministic_time = seconds
-    solver.parameters.interleave_search = settings.solver_threads > 1
-    status = solver.solve(m)
-    if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
+    out = cpsat.run(m, budget, "CP-SAT minimum change", budget.seconds, settings.solver_threads, inst.req.seed,
+                    settings.deterministic, stop_at=lower)
+    if not out.found:
         return None, False
-    return model.solution(solver, mv, inst.allowed.shape), status == cp_model.OPTIMAL
+    x = model.solution(out.solver, mv, inst.allowed.shape)
+    return x, out.status == cpsat.cp_model.OPTIMAL or changes_of(x, old, existing) <= lower
 
 
 def _sequences(prep: PreparedSite, hop_sets, current: dict[str, CurrentSystem], seed: int,
-               packets: int) -> tuple[SequenceOutcome, list[bool]]:
+               packets: int, work: SequenceWork, budget: Budget) -> tuple[SequenceOutcome, list[bool]]:
     """New sequences where hop sets (or a slot-aligned group's sets) changed; the current ones elsewhere."""
-    fresh, notes = build_sequences(prep, hop_sets, seed, delay_spread(prep))
+    fresh, notes = build_sequences(prep, hop_sets, seed, delay_spread(prep), work.group_work_s, budget=budget)
     ids = [s.id for s in prep.site.systems]
     groups_changed = set()
     for v, s in enumerate(prep.site.systems):
@@ -221,18 +237,26 @@ def _sequences(prep: PreparedSite, hop_sets, current: dict[str, CurrentSystem], 
         else:
             out.append(seq)
         changed.append(not keep)
-    return outcome(prep, out, notes, packets, seed), changed
+    return outcome(prep, out, notes, packets, seed, work), changed
 
 
 def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[CurrentSystem], mode: ReplanMode,
-                settings: SolveSettings = SolveSettings()) -> ReplanResult:
+                settings: SolveSettings = SolveSettings(), deadline: Deadline | None = None,
+                budget: Budget | None = None) -> ReplanResult:
+    """`deadline`: the request's (made here if not given); `budget`, if given, is the search's own (else what
+    the deadline leaves after the closing phases' reserve)."""
+    deadline = deadline or (budget.deadline if budget is not None else
+                            Deadline.of(req.time_limit_s, settings.max_solve_s))
     cur = {c.id: c for c in current}
     ids = [s.id for s in prep.site.systems]
     removed = sorted(set(cur) - set(ids))
     notes = []
-    fresh_req = PlanRequirements(**{**req.__dict__, "time_limit_s": 0.3 * req.time_limit_s, "baselines": ()})
-    fresh = plan_site(prep, fresh_req, settings, detail="system", with_sequences=False)
     full = build_instance(prep, req)
+    seq_work = sequence_work(prep, full.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s)
+    budget = budget or search_budget(deadline, full, costs.replan_after_search_s(full, seq_work))
+    fresh_budget, moves_budget, cp_budget = budget.split([RE_SHARES["fresh"], RE_SHARES["moves"], RE_SHARES["cp_sat"]])
+    fresh_req = PlanRequirements(**{**req.__dict__, "baselines": ()})
+    fresh = plan_site(prep, fresh_req, settings, detail="system", with_sequences=False, budget=fresh_budget)
     base = _independent(full) if req.coordination == "independent" else full  # the objective the fresh plan used
     old = _old_masks(base, cur)
     existing = np.array([sid in cur for sid in ids])
@@ -240,16 +264,17 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
     x = repair(inst, old)
     lower = lower_bound_changes(inst, old, existing)
     target = None
+    stop = moves_budget.stopper("re-plan moves")
     if mode.kind == "tolerance":
         target = (1.0 + mode.tolerance) * fresh.report.objective
-        x = _spend(inst, x, old, existing, None, target)
+        x = _spend(inst, x, old, existing, None, target, stop)
     else:
         if mode.max_changes is not None and lower > mode.max_changes:
             raise PlanInfeasible([Conflict("change budget", tuple(ids[v] for v in range(len(ids)) if existing[v]),
                                            f"at least {lower} channels must change (they are now excluded, or the "
                                            f"counts grew), more than max_changes {mode.max_changes}",
                                            relax=f"allow at least {lower} changes")])
-        x = _spend(inst, x, old, existing, mode.max_changes, None)
+        x = _spend(inst, x, old, existing, mode.max_changes, None, stop)
         if mode.max_changes is not None and changes_of(x, old, existing) > mode.max_changes:
             raise PlanInfeasible([Conflict("change budget", tuple(ids[v] for v in range(len(ids)) if existing[v]),
                                            f"no plan within {mode.max_changes} changes was found: keeping the "
@@ -261,14 +286,15 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
     if mode.kind == "tolerance" and value > target * (1 + 1e-12):
         notes.append("the tolerance was not reached by the change-limited search; the plan is the best found")
     if (mode.kind == "tolerance" and not proven and model.product_count(inst) <= settings.max_products):
-        cx, cp_proven = _cp_sat_minimum(inst, x, old, existing, max(value, target), settings, 0.5 * req.time_limit_s)
+        cx, cp_proven = _cp_sat_minimum(inst, x, old, existing, max(value, target), settings, cp_budget, lower)
         if cx is not None and changes_of(cx, old, existing) <= changes:
             x, changes, proven = cx, changes_of(cx, old, existing), cp_proven
             value = objective_value(inst, system_estimates(inst, x))
             if proven:
                 lower = changes  # CP-SAT proved no plan within the target changes fewer
     hop_sets = hop_sets_of(x)
-    seqs, seq_changed = _sequences(prep, hop_sets, cur, req.seed, req.sequence_packets)
+    closing = deadline.budget(deadline.limit_s, deadline.end)
+    seqs, seq_changed = _sequences(prep, hop_sets, cur, req.seed, req.sequence_packets, seq_work, closing)
     assessment = assess_site(prep, hop_sets=hop_sets, origin="plan", sequences=seqs.orders)
     before_sets = [np.array(sorted(cur[sid].hop_set)) if sid in cur else hop_sets[v] for v, sid in enumerate(ids)]
     before = assess_site(prep, hop_sets=before_sets, detail="system", origin="current")
@@ -281,6 +307,10 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
         added = sorted(set(hop_sets[v].tolist()) - set(np.flatnonzero(old[v]).tolist()))
         diffs.append(SystemDiff(sid, "changed" if added or dropped else "kept", dropped, added, seq_changed[v]))
     violations = validate_plan(full, hop_sets, assessment)
+    notes += deadline.notes()
     return ReplanResult(instance=inst, hop_sets=hop_sets, assessment=assessment, before=before, fresh=fresh,
                         sequences=seqs, diffs=diffs, changes=changes, lower_bound=lower, proven_minimal=proven,
-                        objective=value, target=target, removed=removed, violations=violations, notes=notes)
+                        objective=value, target=target, removed=removed, violations=violations, notes=notes,
+                        time_s=deadline.elapsed(), time_limit_s=deadline.limit_s,
+                        requested_time_limit_s=deadline.requested_s,
+                        stopped_by_wall_clock=deadline.stopped_by_wall_clock, work=dict(deadline.work_done))

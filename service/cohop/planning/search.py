@@ -147,18 +147,24 @@ def _undo(place: Placement, journal: list) -> None:
 
 
 def iterated(inst: PlanningInstance, x: np.ndarray, kicks: int, seed: int, weights: np.ndarray | None = None,
-             progress=None, stop=None) -> np.ndarray:
+             progress=None, stop=None, counter=None, target: float | None = None) -> np.ndarray:
     """Iterated local search: kick, descend, keep if not worse, else undo. Deterministic for a seed
-    (`stop()`, a wall-clock safety cap, ends it early and then it is not)."""
+    (`stop()`, the wall clock's stop, ends it early and then it is not). It ends as soon as the (weighted)
+    objective reaches `target` (a proven bound: nothing better exists). `counter.count("kicks", n)`
+    receives the number of kicks made."""
     place = Placement(inst, x, weights)
     _descend(place)
     rng = random.Random(seed)
     w = inst.weights if weights is None else weights
     current = float(w @ system_estimates(inst, place.x))
     best, best_x = current, place.x.copy()
+    done = 0
     for k in range(kicks):
+        if target is not None and best <= target:
+            break
         if stop is not None and stop():
             break
+        done += 1
         journal: list = []
         change = _kick(place, rng, 3, 0.1, journal)
         change += _descend(place, journal)
@@ -170,18 +176,23 @@ def iterated(inst: PlanningInstance, x: np.ndarray, kicks: int, seed: int, weigh
                     progress(k, best)
         else:
             _undo(place, journal)
+    if counter is not None:
+        counter.count("kicks", done)
     return best_x
 
 
 def kick_budget(inst: PlanningInstance, seconds: float) -> int:
     """Kicks for about `seconds` of search, at least 20: a count, so runs stay deterministic.
-    Calibrated on our 2-core machines: a kick costs about 0.28 ms per system plus 0.05 us per
-    system-channel (5 x 50: 0.7 ms; 15 x 260: 4.5 ms; 50 x 1040: 12.5 ms measured)."""
-    per_kick = 2.8e-4 * inst.n_systems + 5e-8 * inst.n_systems * inst.n_channels
+    Calibrated on our 2-core machines: a kick and its descent cost about 0.2 ms per system plus 13 us
+    per channel held by the systems (measured 0.5 to 0.75 ms on 3 systems holding 7 channels, 1.2 to
+    4.6 ms on the samples, 9 to 11 ms on the medium bench site and 23 to 38 ms on the large one;
+    `bench/bench_timelimits.py --phases` prints it)."""
+    per_kick = 2e-4 * inst.n_systems + 1.3e-5 * float(inst.sizes.sum())
     return max(20, int(seconds / per_kick))
 
 
-def search_plan(inst: PlanningInstance, x: np.ndarray, seconds: float, progress=None, stop=None) -> np.ndarray:
+def search_plan(inst: PlanningInstance, x: np.ndarray, seconds: float, progress=None, stop=None,
+                counter=None, target: float | None = None) -> np.ndarray:
     """Local search then iterated local search on the request's objective.
 
     For the worst system: start from the weighted-sum plan (half the budget), then rounds of search on
@@ -189,8 +200,9 @@ def search_plan(inst: PlanningInstance, x: np.ndarray, seconds: float, progress=
     """
     kicks = kick_budget(inst, seconds)
     if inst.req.objective != "worst_system":
-        return iterated(inst, improve(inst, x), kicks, inst.req.seed, progress=progress, stop=stop)
-    best = iterated(inst, improve(inst, x), kicks // 2, inst.req.seed, stop=stop)
+        return iterated(inst, improve(inst, x), kicks, inst.req.seed, progress=progress, stop=stop, counter=counter,
+                        target=target)
+    best = iterated(inst, improve(inst, x), kicks // 2, inst.req.seed, stop=stop, counter=counter)
     best_value = objective_value(inst, system_estimates(inst, best))
     weights = np.ones(inst.n_systems)
     current = best
@@ -199,7 +211,8 @@ def search_plan(inst: PlanningInstance, x: np.ndarray, seconds: float, progress=
         est = system_estimates(inst, current)
         weights = weights * np.exp(2.0 * (est / max(float(est.max()), 1e-300) - 1.0))
         weights = weights / weights.max()
-        current = iterated(inst, current, max(5, kicks // (2 * rounds)), inst.req.seed + 1 + r, weights, stop=stop)
+        current = iterated(inst, current, max(5, kicks // (2 * rounds)), inst.req.seed + 1 + r, weights, stop=stop,
+                           counter=counter)
         value = objective_value(inst, system_estimates(inst, current))
         if value < best_value:
             best, best_value = current, value

@@ -3,6 +3,12 @@
 The figures returned are always those of `cohop.assess` on the returned hop
 sets; the solver's own objective is the linearised estimate (never below
 the evaluated figure), reported beside them with the difference.
+
+Time: one `Deadline` per request. The phases after the search (sequences,
+assessment, baselines, validation, the answer itself) get a reserve from
+their calibrated cost (`cohop.planning.costs`); the search gets the rest as
+deterministic work shares (`SHARES`) and stops at the wall clock only when
+a busy machine makes it overrun (the answer then says so).
 """
 
 from __future__ import annotations
@@ -13,26 +19,39 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
-from ortools.sat.python import cp_model
 
 from cohop.assess import Assessment, assess_site
 from cohop.config import default_of
-from cohop.planning import baselines, bound, model, search
+from cohop.errors import PlanInfeasible
+from cohop.planning import baselines, bound, costs, cpsat, model, search
+from cohop.planning.deadline import Budget, Deadline
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import PlanningInstance, build_instance
 from cohop.planning.linear import hop_sets_of, marginal_costs, objective_value, system_estimates
-from cohop.errors import PlanInfeasible
 from cohop.planning.requirements import PlanRequirements, Progress
 from cohop.planning.validate import Violation, validate_plan
 from cohop.prepare import PreparedSite
-from cohop.sequences.report import SequenceOutcome, plan_sequences
+from cohop.sequences.report import SequenceOutcome, plan_sequences, sequence_work
 
 OPTIMAL, FEASIBLE, INFEASIBLE, NO_PLAN = "optimal", "feasible", "infeasible", "no plan found in time"
 #: Relative gap under which a plan is called optimal: the integer scaling of costs in CP-SAT leaves a
 #: rounding allowance of this order (see SolverReport.rounding).
 OPTIMAL_GAP = 1e-4
-#: CP-SAT deterministic time units per wall second on our 2-core machines (measured: about 0.5).
-DETERMINISTIC_UNITS_PER_SECOND = 0.5
+#: Shares of the search's work budget; each set sums to 1. Loss ceilings take CEILING_SHARE out of the
+#: local search's share, and the infeasibility diagnosis (when there is no start) DIAGNOSIS_SHARE.
+SHARES = {"quick_bound": 0.05, "local_search": 0.45, "cp_sat": 0.25, "column_generation": 0.25}
+SHARES_WITHOUT_CP_SAT = {"quick_bound": 0.05, "local_search": 0.70, "column_generation": 0.25}
+CEILING_SHARE = 0.10
+MIN_CP_SAT_WORK_S = 0.1  # CP-SAT runs only if its share leaves this much work after building the model
+DIAGNOSIS_SHARE = 0.5
+MIN_DIAGNOSIS_WORK_S = 1.0  # calibrated seconds: small diagnoses are proven well within it
+#: The search always gets at least this share of the limit, and at least MIN_SEARCH_S, however costly the
+#: closing phases (a short limit then ends a little late: the target is max(1.1 T, T + 1 s)).
+MIN_SEARCH_SHARE = 0.2
+MIN_SEARCH_S = 0.25
+#: Work budgets are this share of the search's wall-clock window, so that on a quiet machine the work
+#: ends before the wall clock has to stop it (calibration is never exact).
+WORK_MARGIN = 0.85
 
 
 @dataclass(frozen=True)
@@ -51,8 +70,8 @@ class SolverReport:
     objective: float  # linearised objective of the plan
     bound: float  # proven lower bound on it
     gap: float | None
-    time_s: float
-    time_limit_s: float
+    time_s: float  # since the request arrived
+    time_limit_s: float  # the effective limit
     method: str
     bounds: dict[str, float]
     evaluated_objective: float  # the request's objective on the evaluated figures (all systems)
@@ -61,6 +80,9 @@ class SolverReport:
     rounding: float
     workers: int
     deterministic: bool
+    requested_time_limit_s: float = 0.0  # the request's limit (above time_limit_s when the server's cap clamped it)
+    stopped_by_wall_clock: bool = False  # a phase was cut short by the wall clock: the plan may not repeat
+    work: dict[str, float] = field(default_factory=dict)  # work done: kicks, CP-SAT deterministic time, pricing
     binding: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
 
@@ -91,15 +113,16 @@ def evaluated_objective(inst: PlanningInstance, assessment: Assessment) -> float
 
 
 class _Clock:
-    def __init__(self, limit_s: float, progress: Callable[[Progress], None] | None):
-        self.start = time.monotonic()
-        self.limit_s = limit_s
+    """Progress reports: the best objective and bound so far, with the time since the request arrived."""
+
+    def __init__(self, deadline: Deadline, progress: Callable[[Progress], None] | None):
+        self.deadline = deadline
         self.progress = progress
         self.objective: float | None = None
         self.bound: float | None = None
 
     def elapsed(self) -> float:
-        return time.monotonic() - self.start
+        return self.deadline.elapsed()
 
     def tell(self, phase: str, objective=None, bound=None) -> None:
         if objective is not None:
@@ -110,40 +133,29 @@ class _Clock:
             self.progress(Progress(self.elapsed(), self.objective, self.bound, phase))
 
 
-class _Callback(cp_model.CpSolverSolutionCallback):
-    def __init__(self, clock: _Clock, scale: model.Scale, constant: float):
-        super().__init__()
-        self.clock, self.scale, self.constant = clock, scale, constant
+def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget: Budget, work_s: float,
+            settings: SolveSettings, clock: _Clock, proven_bound: float | None):
+    """Solve the full model (improving `start` if given); returns (x, proven bound, status name, scale).
 
-    def on_solution_callback(self) -> None:
-        self.clock.tell("cp-sat", objective=self.objective_value / self.scale.factor + self.constant)
-
-
-def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget_s: float, settings: SolveSettings,
-            clock: _Clock):
-    """Solve the full model (improving `start` if given); returns (x, proven bound, status name)."""
+    It stops at a relative gap of OPTIMAL_GAP / 2 (CP-SAT's own), or as soon as a solution is within
+    OPTIMAL_GAP / 2 of `proven_bound` (a bound another method proved)."""
     m, mv, objective, scale = model.full_model(inst, start)
     worst = inst.req.objective == "worst_system"
     model.minimise(m, mv, inst, objective, scale)
-    solver = cp_model.CpSolver()
-    p = solver.parameters
-    p.num_workers = settings.solver_threads
-    p.random_seed = int(inst.req.seed) % (2**31)
-    if settings.deterministic:
-        p.interleave_search = settings.solver_threads > 1
-        p.max_deterministic_time = budget_s * DETERMINISTIC_UNITS_PER_SECOND
-        p.max_time_in_seconds = settings.max_solve_s  # safety only
-    else:
-        p.max_time_in_seconds = budget_s
     constant = 0.0 if worst else mv.constant
     allowance = _rounding_allowance(objective, scale)
-    solver.best_bound_callback = lambda b: clock.tell("cp-sat", bound=max(0.0, b / scale.factor + constant - allowance))
-    status = solver.solve(m, _Callback(clock, scale, constant))
-    if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
-        return None, None, solver.status_name(status), scale
-    x = model.solution(solver, mv, inst.allowed.shape)
-    proven = solver.best_objective_bound / scale.factor + constant - allowance
-    return x, max(proven, 0.0), solver.status_name(status), scale
+    stop_at = None
+    if proven_bound is not None and proven_bound > 0:
+        stop_at = math.floor((proven_bound * (1 + 0.5 * OPTIMAL_GAP) - constant) * scale.factor)
+    out = cpsat.run(m, budget, "CP-SAT", work_s, settings.solver_threads, inst.req.seed, settings.deterministic,
+                    gap_limit=0.5 * OPTIMAL_GAP, stop_at=stop_at,
+                    on_solution=lambda v: clock.tell("cp-sat", objective=v / scale.factor + constant),
+                    on_bound=lambda b: clock.tell("cp-sat", bound=max(0.0, b / scale.factor + constant - allowance)))
+    if not out.found:
+        return None, None, out.name, scale
+    x = model.solution(out.solver, mv, inst.allowed.shape)
+    proven = out.solver.best_objective_bound / scale.factor + constant - allowance
+    return x, max(proven, 0.0), out.name, scale
 
 
 def _rounding_allowance(objective: model.Objective, scale: model.Scale) -> float:
@@ -184,10 +196,15 @@ def _evaluate(prep: PreparedSite, hop_sets, detail: str = "system", origin: str 
     return assess_site(prep, hop_sets=hop_sets, detail=detail, origin=origin)
 
 
-def _baselines(inst: PlanningInstance) -> list[BaselineResult]:
+def _baselines(inst: PlanningInstance, greedy_start: np.ndarray | None = None) -> list[BaselineResult]:
+    """The practitioners' plans the request asked for; `greedy_start` is the planner's own greedy start on
+    this instance, reused for the greedy baseline (the same construction)."""
     out = []
     for name in inst.req.baselines:
-        sets = baselines.BASELINE_BUILDERS[name](inst)
+        if name == "greedy" and greedy_start is not None:
+            sets = [np.flatnonzero(row) for row in greedy_start]
+        else:
+            sets = baselines.BASELINE_BUILDERS[name](inst)
         if sets is None:
             out.append(BaselineResult(name, None, None, [Violation("construction", (), "no plan built")], None))
             continue
@@ -204,14 +221,19 @@ def _independent(inst: PlanningInstance) -> PlanningInstance:
     return out
 
 
-def _infeasible(inst: PlanningInstance):
-    conflicts, proven = diagnose(inst)
+def _diagnose(inst: PlanningInstance, budget: Budget, settings: SolveSettings):
+    work = max(MIN_DIAGNOSIS_WORK_S, budget.work(DIAGNOSIS_SHARE))
+    return diagnose(inst, budget, work_s=work, seed=inst.req.seed, deterministic=settings.deterministic)
+
+
+def _infeasible(inst: PlanningInstance, budget: Budget, settings: SolveSettings):
+    conflicts, proven = _diagnose(inst, budget, settings)
     if conflicts is None:
         return None
     raise PlanInfeasible(conflicts, proven=proven)
 
 
-def _meet_ceilings(inst: PlanningInstance, x: np.ndarray, seconds: float, stop) -> np.ndarray:
+def _meet_ceilings(inst: PlanningInstance, x: np.ndarray, seconds: float, stop, deadline: Deadline) -> np.ndarray:
     """Raise the weight of systems above their ceiling and search again, a few rounds."""
     weights = inst.weights.astype(float).copy()
     for r in range(5):
@@ -220,7 +242,7 @@ def _meet_ceilings(inst: PlanningInstance, x: np.ndarray, seconds: float, stop) 
             break
         weights[over] *= 10.0
         x = search.iterated(inst, x, search.kick_budget(inst, seconds / 5), inst.req.seed + 101 + r, weights,
-                            stop=stop)
+                            stop=stop, counter=deadline)
     return x
 
 
@@ -228,84 +250,133 @@ def _proven(objective: float, bound_value: float) -> bool:
     return objective <= 0 or (objective - bound_value) / objective <= OPTIMAL_GAP
 
 
-def _search(inst: PlanningInstance, settings: SolveSettings, limit: float, clock: _Clock, notes: list[str]):
-    """The best plan found and the bounds proven on its objective.
+def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget):
+    """The co-channel (one-channel window) bound: cheap, and it proves many sites at once."""
+    work = budget.work(SHARES["quick_bound"])
+    result = bound.lower_bound(inst, x, length=1, iterations=20, seconds=work, deadline=budget.stopper("quick bound"))
+    budget.deadline.count("pricing_operations", result.work)
+    return result.bound
 
-    Budget (deterministic shares of the time limit): a quick co-channel bound on the greedy start (5 %;
-    a proven start ends the search), iterated local search (45 %, or 70 % without CP-SAT), CP-SAT on the
-    full model when it is small enough (25 %), and the column-generation bound (25 %).
+
+def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clock: _Clock, notes: list[str]):
+    """The best plan found, the bounds proven on its objective, the method, the scale, and the greedy start.
+
+    Budget: deterministic shares of the search budget (`SHARES`, summing to 1), every phase stopped by the
+    wall clock at the budget's end; a phase is skipped once the plan is proven optimal.
     """
-    stop = (lambda: clock.elapsed() > settings.max_solve_s)  # wall-clock safety cap only
+    deadline = budget.deadline
     start = search.greedy(inst)
     if start is None:
-        _infeasible(inst)  # raises when no plan exists; otherwise CP-SAT looks for one
+        _infeasible(inst, budget, settings)  # raises when no plan exists; otherwise CP-SAT looks for one
     bounds: dict[str, float] = {}
     products = model.product_count(inst)
-    use_cp_sat = products <= settings.max_products
+    build_s = cpsat.BUILD_S_PER_PRODUCT * products
+    small_enough = products <= settings.max_products
+    use_cp_sat = small_enough and budget.work(SHARES["cp_sat"]) >= build_s + MIN_CP_SAT_WORK_S
+    shares = SHARES if use_cp_sat else SHARES_WITHOUT_CP_SAT
+    ceilings = bool(np.isfinite(inst.ceilings).any())
     scale = model.Scale(1.0, 0.0)
     method = "greedy construction and iterated local search"
     x = None
     if start is not None:
         x = search.improve(inst, start) if inst.req.objective != "worst_system" else search.improve_worst(inst, start)
-        quick = bound.lower_bound(inst, x, length=1, iterations=20, seconds=0.05 * limit)
-        bounds["column_generation"] = quick.bound
-        clock.tell("greedy start", objective=_value(inst, x), bound=quick.bound)
-        if _proven(_value(inst, x), quick.bound) and not np.isfinite(inst.ceilings).any():
+        bounds["column_generation"] = _quick_bound(inst, x, budget)
+        clock.tell("greedy start", objective=_value(inst, x), bound=bounds["column_generation"])
+        if _proven(_value(inst, x), bounds["column_generation"]) and not ceilings:
             notes.append("the greedy start was proven optimal by the co-channel bound")
-            return x, bounds, "greedy construction and local search", scale
-        share = 0.45 if use_cp_sat else 0.7
-        x = search.search_plan(inst, x, share * limit, stop=stop,
-                               progress=lambda k, v: clock.tell("local search", objective=v))
-        if np.isfinite(inst.ceilings).any():
-            x = _meet_ceilings(inst, x, 0.1 * limit, stop)
+            return x, bounds, "greedy construction and local search", scale, start
+        local = budget.work(shares["local_search"] - (CEILING_SHARE if ceilings else 0.0))
+        proven_at = None if ceilings else max(bounds.values()) / (1 - OPTIMAL_GAP) if bounds else None
+        kicks_before, started = deadline.work_done.get("kicks", 0), time.monotonic()
+        x = search.search_plan(inst, x, local, stop=budget.stopper("local search"), counter=deadline,
+                               progress=lambda k, v: clock.tell("local search", objective=v), target=proven_at)
+        kicks = deadline.work_done.get("kicks", 0) - kicks_before
+        budget.observe(local * kicks / max(1, search.kick_budget(inst, local)), time.monotonic() - started)
+        if ceilings:
+            x = _meet_ceilings(inst, x, budget.work(CEILING_SHARE), budget.stopper("local search"), deadline)
         clock.tell("local search", objective=_value(inst, x))
+        if _proven(_value(inst, x), max(bounds.values())) and not ceilings:
+            notes.append("the local-search plan was proven optimal by the co-channel bound")
+            return x, bounds, method, scale, start
     if use_cp_sat or x is None:
-        cx, cb, status, scale = _cp_sat(inst, x, 0.25 * limit if x is not None else limit, settings, clock)
+        work = max(MIN_CP_SAT_WORK_S, budget.work(shares.get("cp_sat", 0.0) if x is not None else 1.0) - build_s)
+        known = max(bounds.values()) if bounds else None
+        # without a start there is no plan at all yet: CP-SAT may then run up to the limit itself
+        cp_budget = budget if x is not None else deadline.budget(budget.seconds, deadline.end)
+        cx, cb, status, scale = _cp_sat(inst, x, cp_budget, work, settings, clock, known)
         if cb is not None:
             bounds["cp_sat"] = cb
         if status == "INFEASIBLE":
-            _infeasible(inst)
+            _infeasible(inst, budget, settings)
         if cx is not None and (x is None or _value(inst, cx) < _value(inst, x)):
             x = search.polish(inst, cx)
             method = "CP-SAT on the full model, from the local-search plan"
         else:
             method += ", then CP-SAT on the full model (no better plan)"
-    else:
+    elif not small_enough:
         notes.append(f"CP-SAT on the full model skipped: it would need {products} pair booleans (cap "
                      f"{settings.max_products})")
+    else:
+        notes.append(f"CP-SAT on the full model skipped: building its {products} pair booleans would take most "
+                     "of its share of this time limit")
     if x is None:
-        raise PlanInfeasible(diagnose(inst)[0] or [], proven=False)
+        raise PlanInfeasible(_diagnose(inst, budget, settings)[0] or [], proven=False)
     if not _proven(_value(inst, x), max(bounds.values())):
-        cg = bound.lower_bound(inst, x, length=bound.window_length(inst), iterations=400, seconds=0.3 * limit,
-                               deadline=stop)
+        cg = bound.lower_bound(inst, x, length=bound.window_length(inst), iterations=400,
+                               seconds=budget.work(shares["column_generation"]),
+                               deadline=budget.stopper("column generation"))
+        deadline.count("pricing_operations", cg.work)
         bounds["column_generation"] = max(cg.bound, bounds.get("column_generation", 0.0))
         clock.tell("column generation", bound=cg.bound)
         notes.append(f"column generation: windows of {cg.window} channel(s), {cg.iterations} iteration(s), "
                      f"{cg.columns} columns, {'converged' if cg.converged else 'stopped at its work budget'}")
-    if clock.elapsed() > settings.max_solve_s:
-        notes.append("the wall-clock safety cap stopped the search: this run may not repeat exactly")
-    return x, bounds, method, scale
+    return x, bounds, method, scale, start
 
 
 def _value(inst: PlanningInstance, x: np.ndarray) -> float:
     return objective_value(inst, system_estimates(inst, x))
 
 
+def search_budget(deadline: Deadline, inst: PlanningInstance, after_s: float) -> Budget:
+    """The search's budget: the limit less the estimated cost of what runs before the search (preparing,
+    the greedy start) and after it (`after_s`), never below MIN_SEARCH_SHARE of the limit. The work is
+    WORK_MARGIN of that; the wall clock stops the search where the closing phases' reserve begins."""
+    limit = deadline.limit_s
+    floor = max(MIN_SEARCH_SHARE * limit, min(MIN_SEARCH_S, limit))
+    window = max(floor, limit - after_s)
+    work = WORK_MARGIN * max(floor, limit - after_s - costs.before_search_s(inst))
+    deadline.expect(deadline.started + window + after_s)
+    return deadline.budget(seconds=work, end=deadline.started + window, reserve_s=after_s)
+
+
 def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings = SolveSettings(),
               progress: Callable[[Progress], None] | None = None, detail: str = "channel",
-              with_sequences: bool = True) -> PlanResult:
-    limit = min(req.time_limit_s, settings.max_solve_s)
-    clock = _Clock(limit, progress)
+              with_sequences: bool = True, deadline: Deadline | None = None,
+              budget: Budget | None = None) -> PlanResult:
+    """Plan, then build sequences, assess, validate and evaluate the baselines.
+
+    `deadline` is the request's (made here from the request and the server's cap if not given); `budget`,
+    when given, is the search's own (the re-plan's fresh plan), else it is what the deadline leaves
+    after the closing phases' reserve."""
+    deadline = deadline or (budget.deadline if budget is not None else
+                            Deadline.of(req.time_limit_s, settings.max_solve_s))
+    clock = _Clock(deadline, progress)
     full = build_instance(prep, req)
     inst = _independent(full) if req.coordination == "independent" else full
+    seq_work = sequence_work(prep, full.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s) \
+        if with_sequences else None
+    if budget is None:
+        budget = search_budget(deadline, inst, costs.after_search_s(full, detail, seq_work))
     notes: list[str] = []
-    x, bounds, method, scale = _search(inst, settings, limit, clock, notes)
+    x, bounds, method, scale, start = _search(inst, settings, budget, clock, notes)
     estimates = system_estimates(inst, x)
     objective = objective_value(inst, estimates)
     best_bound = min(max(bounds.values()), objective)
     gap = 0.0 if objective <= 0 else max(0.0, (objective - best_bound) / objective)
     hop_sets = hop_sets_of(x)
-    sequences = plan_sequences(prep, hop_sets, req.seed, req.sequence_packets) if with_sequences else None
+    closing = deadline.budget(deadline.limit_s, deadline.end)  # the slot-aligned groups' CP-SAT stops at the limit
+    sequences = plan_sequences(prep, hop_sets, req.seed, req.sequence_packets, seq_work, closing) \
+        if with_sequences else None
     assessment = assess_site(prep, hop_sets=hop_sets, detail=detail, origin="plan",
                              sequences=sequences.orders if sequences is not None else None)
     violations = validate_plan(full, hop_sets, assessment)
@@ -314,11 +385,15 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
     if req.coordination == "independent":
         notes.append("independent coordination: the solver's objective, bound and gap are each system's own "
                      "exposure to the fixed interferers; the evaluated objective counts every system")
-    report = SolverReport(status=status, objective=objective, bound=best_bound, gap=gap, time_s=clock.elapsed(),
-                          time_limit_s=limit, method=method, bounds=bounds, evaluated_objective=evaluated,
+    baseline_results = _baselines(full, start if inst is full else None)
+    notes += deadline.notes()
+    report = SolverReport(status=status, objective=objective, bound=best_bound, gap=gap, time_s=deadline.elapsed(),
+                          time_limit_s=deadline.limit_s, method=method, bounds=bounds, evaluated_objective=evaluated,
                           linearisation_error=objective_value(full, system_estimates(full, x)) - evaluated,
                           scale_factor=scale.factor,
                           rounding=scale.max_relative_rounding, workers=settings.solver_threads,
-                          deterministic=settings.deterministic, binding=_binding(inst, x, estimates), notes=notes)
+                          deterministic=settings.deterministic, requested_time_limit_s=deadline.requested_s,
+                          stopped_by_wall_clock=deadline.stopped_by_wall_clock, work=dict(deadline.work_done),
+                          binding=_binding(inst, x, estimates), notes=notes)
     return PlanResult(instance=inst, hop_sets=hop_sets, assessment=assessment, report=report,
-                      baselines=_baselines(full), violations=violations, sequences=sequences)
+                      baselines=baseline_results, violations=violations, sequences=sequences)

@@ -142,7 +142,7 @@ def _aligned_rate(prep: PreparedSite, v: int, a: int, x: np.ndarray, y: np.ndarr
     return float(prep.site.systems[a].activity_fraction * hits.mean())
 
 
-def pair_figures(prep: PreparedSite, sv: Sequence, sa: Sequence) -> PairFigures:
+def pair_figures(prep: PreparedSite, sv: Sequence, sa: Sequence, run_phases: int = RUN_PHASES) -> PairFigures:
     v, a = sv.system, sa.system
     x, y = sv.channels, sa.channels
     shared = int(np.intersect1d(x, y).size)
@@ -152,7 +152,8 @@ def pair_figures(prep: PreparedSite, sv: Sequence, sa: Sequence) -> PairFigures:
         coinc, period = 0, math.lcm(x.size, y.size)
     aligned = prep.links[v][a].aligned
     return PairFigures(a=v, b=a, shared_channels=shared, coincidences_max=coinc, common_period_hops=period,
-                       longest_run=longest_run(prep, v, a, x, y) if prep.window[v, a] >= 0 else 0, aligned=aligned,
+                       longest_run=longest_run(prep, v, a, x, y, run_phases) if prep.window[v, a] >= 0 else 0,
+                       aligned=aligned,
                        aligned_hit_rate=_aligned_rate(prep, v, a, x, y) if aligned else None,
                        unaligned_hit_rate=_unaligned_rate(prep, v, a, x, y) if prep.window[v, a] >= 0 else 0.0)
 
@@ -168,7 +169,8 @@ def family_bounds(sequences: list[Sequence]) -> dict[int, dict]:
 
 
 def analyse(prep: PreparedSite, sequences: list[Sequence], rms_delay_spread_s: float,
-            notes: list[str] | None = None) -> SequenceReport:
+            notes: list[str] | None = None, run_phases: int = RUN_PHASES) -> SequenceReport:
+    """`run_phases`: time offsets tried for each pair's longest run (fewer when the time limit is short)."""
     orders = [order_figures(prep, s, rms_delay_spread_s) for s in sequences]
     pairs = []
     for i, sv in enumerate(sequences):
@@ -177,6 +179,6 @@ def analyse(prep: PreparedSite, sequences: list[Sequence], rms_delay_spread_s: f
                 continue
             if prep.window[sv.system, sa.system] < 0 and not np.intersect1d(sv.channels, sa.channels).size:
                 continue
-            pairs.append(pair_figures(prep, sv, sa))
+            pairs.append(pair_figures(prep, sv, sa, run_phases))
     return SequenceReport(sequences=sequences, orders=orders, pairs=pairs, family_bounds=family_bounds(sequences),
                           notes=list(notes or []))

@@ -15,7 +15,9 @@ Spacing (`_respace`): consecutive hops (cyclically) should be at least the
 coherence bandwidth apart, so that a retry on the next hop fades
 independently. A deterministic repair swaps hops until no consecutive pair
 is too close; where the hop set is too narrow for that, the largest spacing
-reached is kept and reported.
+reached is kept and reported. The repair's work is bounded whatever the
+delay spread: it starts at the most any order of the hop set can keep
+(`spacing_ceiling`) and makes at most RESPACE_WORK swap trials in all.
 
 Slot-aligned time-base groups (`_orthogonal_group`): equal hop-set sizes N;
 CP-SAT assigns each member a permutation of its hop set such that no two
@@ -34,8 +36,17 @@ from dataclasses import dataclass
 import numpy as np
 from ortools.sat.python import cp_model
 
+from cohop.planning import cpsat
+from cohop.planning.deadline import Budget, Deadline
 from cohop.prepare import PreparedSite
 from cohop.sequences import theory
+
+#: Swap trials the spacing repair makes at most per sequence (a count, so the result is deterministic).
+RESPACE_WORK = 100_000
+#: Calibrated seconds of CP-SAT work per slot-aligned group (`cohop.planning.cpsat`): 2 deterministic units.
+GROUP_WORK_S = 4.0
+#: Most spacing clauses a slot-aligned group's model may hold (a tiny delay spread asks for wide spacing).
+GROUP_CLAUSES = 200_000
 
 
 @dataclass(frozen=True)
@@ -51,8 +62,28 @@ class Sequence:
 
 
 def required_spacing_channels(prep: PreparedSite, rms_delay_spread_s: float) -> int:
-    """Coherence bandwidth (envelope correlation 0.5) in grid steps, at least one step."""
-    return max(1, math.ceil(theory.coherence_bandwidth_hz(rms_delay_spread_s) / prep.spacing_hz - 1e-9))
+    """Coherence bandwidth (envelope correlation 0.5) in grid steps, at least one step and at most the grid
+    (a tiny delay spread asks for more than any band holds)."""
+    with np.errstate(over="ignore", divide="ignore"):
+        steps = theory.coherence_bandwidth_hz(rms_delay_spread_s) / prep.spacing_hz
+    if not math.isfinite(steps) or steps > prep.n_channels:
+        return max(1, int(prep.n_channels))
+    return max(1, math.ceil(steps - 1e-9))
+
+
+def spacing_ceiling(channels: np.ndarray) -> int:
+    """The most any cyclic order of `channels` can keep between consecutive hops: each channel has two
+    different neighbours, so the spacing is at most its second-largest distance to another channel,
+    for every channel. Only the two lowest and two highest channels can be that far from any channel."""
+    c = np.sort(np.asarray(channels, dtype=np.int64))
+    n = c.size
+    if n < 3:
+        return int(c[-1] - c[0]) if n == 2 else 0
+    idx = np.arange(n)
+    cand = np.stack([c - c[0], c - c[1], c[-1] - c, c[-2] - c]).astype(float)
+    cand[0, idx == 0] = cand[1, idx == 1] = cand[2, idx == n - 1] = cand[3, idx == n - 2] = -1.0  # not itself
+    cand.sort(axis=0)
+    return int(cand[-2].min())
 
 
 def _components(hop_sets: list[np.ndarray], members: list[int]) -> list[list[int]]:
@@ -83,13 +114,20 @@ def _gaps_ok(order: np.ndarray, k: int, spacing: int) -> bool:
     return all(abs(int(order[(k + d) % n]) - int(order[(k + d + 1) % n])) >= spacing for d in (-1, 0))
 
 
-def _respace(order: np.ndarray, spacing: int, rng: random.Random) -> tuple[np.ndarray, int]:
+def _min_gap(order: np.ndarray) -> int:
+    return int(np.abs(np.diff(np.concatenate([order, order[:1]]))).min())
+
+
+def _respace(order: np.ndarray, spacing: int, rng: random.Random,
+             work: int = RESPACE_WORK) -> tuple[np.ndarray, int]:
     """Swap hops until every consecutive pair (cyclically) is at least `spacing` apart; if that
-    fails, try one step less. Returns the order and the spacing reached."""
+    fails, try one step less, from at most `spacing_ceiling`. At most `work` swap trials in all; when they
+    run out, the order as built is kept. Returns the order and the spacing it keeps."""
     n = order.size
     if n < 3:
         return order.copy(), int(abs(order[0] - order[-1])) if n == 2 else spacing
-    for target in range(spacing, 0, -1):
+    trials = 0
+    for target in range(min(spacing, spacing_ceiling(order)), 0, -1):
         out = order.copy()
         for _ in range(20 * n):
             bad = [t for t in range(n) if abs(int(out[t]) - int(out[(t + 1) % n])) < target]
@@ -101,14 +139,17 @@ def _respace(order: np.ndarray, spacing: int, rng: random.Random) -> tuple[np.nd
             for s in rng.sample(range(n), n):
                 if s in (t, k):
                     continue
+                trials += 1
                 out[k], out[s] = out[s], out[k]
                 if _gaps_ok(out, k, target) and _gaps_ok(out, s, target):
                     moved = True
                     break
                 out[k], out[s] = out[s], out[k]
-            if not moved:
+            if not moved or trials >= work:
                 break
-    return order.copy(), 1
+        if trials >= work:
+            break
+    return order.copy(), _min_gap(order)
 
 
 def _family_orders(prep: PreparedSite, hop_sets, members: list[int], seed: int, spacing: int, first_component: int):
@@ -130,8 +171,21 @@ def _family_orders(prep: PreparedSite, hop_sets, members: list[int], seed: int, 
     return out
 
 
+def _group_spacing(hop_sets, group: list[int], spacing: int) -> int:
+    """The spacing the group's model asks for: at most what every member's set allows, and small enough that
+    the model's spacing clauses (members x slots x close channel pairs) stay within GROUP_CLAUSES."""
+    spacing = min([spacing] + [max(1, spacing_ceiling(hop_sets[v])) for v in group])
+    n = hop_sets[group[0]].size
+    while spacing > 1:
+        close = sum(int((np.abs(hop_sets[v][:, None] - hop_sets[v][None, :]) < spacing).sum()) - n for v in group)
+        if close * n <= GROUP_CLAUSES:
+            break
+        spacing -= 1
+    return spacing
+
+
 def _orthogonal_group(prep: PreparedSite, hop_sets, group: list[int], name: str, seed: int, spacing: int,
-                      component: int, work_s: float) -> list[Sequence] | None:
+                      component: int, work_s: float, budget: Budget) -> list[Sequence] | None:
     """Members of one slot-aligned group: no shared channel in any slot (None if CP-SAT finds none)."""
     n = hop_sets[group[0]].size
     if any(hop_sets[v].size != n for v in group) or len(group) > n:
@@ -140,6 +194,7 @@ def _orthogonal_group(prep: PreparedSite, hop_sets, group: list[int], name: str,
         base = _family_orders(prep, hop_sets, [group[0]], seed, spacing, component)[0].channels
         return [Sequence(system=v, channels=np.roll(base, -j), construction="cyclic shift", component=component,
                          required_spacing=spacing, group=name) for j, v in enumerate(group)]
+    spacing = _group_spacing(hop_sets, group, spacing)
     m = cp_model.CpModel()
     b = {}
     for v in group:
@@ -179,12 +234,11 @@ def _orthogonal_group(prep: PreparedSite, hop_sets, group: list[int], name: str,
     rng = random.Random(f"{seed}:{name}")
     ties = [rng.randrange(8) * lit for lit in b.values()]
     m.minimize(1000 * sum(penalties) + sum(ties))
-    solver = cp_model.CpSolver()
-    solver.parameters.num_workers = 1
-    solver.parameters.random_seed = seed % (2**31)
-    solver.parameters.max_deterministic_time = work_s
-    if solver.solve(m) not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
+    result = cpsat.run(m, budget, f"time-base group {name!r} sequences", work_s, workers=1, seed=seed,
+                       deterministic=True)
+    if not result.found:
         return None
+    solver = result.solver
     out = []
     for v in group:
         order = np.array([next(c for c in hop_sets[v].tolist() if solver.value(b[v, t, c])) for t in range(n)])
@@ -195,8 +249,10 @@ def _orthogonal_group(prep: PreparedSite, hop_sets, group: list[int], name: str,
 
 def build_sequences(prep: PreparedSite, hop_sets, seed: int = 0,
                     rms_delay_spread_s: float = theory.DEFAULT_RMS_DELAY_SPREAD_S,
-                    group_work_s: float = 2.0) -> tuple[list[Sequence], list[str]]:
-    """A sequence per system, and notes on what could not be done as asked."""
+                    group_work_s: float = GROUP_WORK_S,
+                    budget: Budget | None = None) -> tuple[list[Sequence], list[str]]:
+    """A sequence per system, and notes on what could not be done as asked. `budget` stops the groups'
+    CP-SAT calls at the request's deadline (by default, a deadline of the groups' own work)."""
     sets = [np.unique(np.asarray(h, dtype=int)) for h in hop_sets]
     spacing = required_spacing_channels(prep, rms_delay_spread_s)
     notes: list[str] = []
@@ -206,10 +262,13 @@ def build_sequences(prep: PreparedSite, hop_sets, seed: int = 0,
             groups.setdefault(s.time_base_group, []).append(v)
     out: dict[int, Sequence] = {}
     component = 0
+    if budget is None and groups:
+        own = Deadline.of(10 * group_work_s * len(groups), 10 * group_work_s * len(groups))
+        budget = own.budget(own.limit_s, own.end)
     for name, members in sorted(groups.items()):
         if len(members) < 2:
             continue
-        seqs = _orthogonal_group(prep, sets, members, name, seed, spacing, component, group_work_s)
+        seqs = _orthogonal_group(prep, sets, members, name, seed, spacing, component, group_work_s, budget)
         if seqs is None:
             notes.append(f"time-base group {name!r}: no orthogonal sequences (they need equal hop-set sizes and at "
                          "most as many members as channels); its members hop unaligned-style instead")

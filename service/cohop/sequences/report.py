@@ -2,14 +2,15 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
 
 from cohop.prepare import PreparedSite
 from cohop.sequences import theory
-from cohop.sequences.analysis import SequenceReport, analyse
-from cohop.sequences.construct import Sequence, build_sequences
+from cohop.sequences.analysis import RUN_PHASES, SequenceReport, analyse
+from cohop.sequences.construct import GROUP_WORK_S, Sequence, build_sequences
 from cohop.sequences.simulate import RetryFigures, simulate_retries
 
 #: Simulated packets per system for the sequence-driven retry figures (default, and the server's cap).
@@ -43,8 +44,74 @@ def packets_for(prep: PreparedSite, requested: int) -> int:
     return max(1000, min(requested, PACKET_BUDGET // max(1, prep.n_systems**2)))
 
 
-def _retries(prep, orders, packets, seed, sigma) -> list[RetryFigures]:
-    n = packets_for(prep, packets)
+#: Calibrated costs of the sequence phases on our 2-core machines (`bench/bench_timelimits.py --phases`
+#: prints them measured): the analysis per ordered pair of systems besides the longest-run search, that
+#: search per (time offset x hop) cell, and one retry simulation per packet and system plus per packet,
+#: system and other system. Three simulations run (planned order, ascending order, common pattern).
+PAIR_S = 5e-4
+RUN_CELL_S = 1.5e-8
+SIM_PACKET_S = 5e-7
+SIM_SOURCE_S = 3e-7
+SIM_RUNS = 3
+#: The least work the sequences do however short the time limit.
+MIN_PACKETS = 200
+MIN_RUN_PHASES = 8
+
+
+@dataclass(frozen=True)
+class SequenceWork:
+    """How much work the sequence phases do: a function of the site and the time they may take."""
+
+    packets: int  # simulated packets per system in each retry simulation
+    run_phases: int  # time offsets tried for each pair's longest run
+    estimate_s: float  # calibrated cost of that work
+    group_work_s: float = GROUP_WORK_S  # CP-SAT work per slot-aligned group (calibrated seconds)
+    notes: tuple[str, ...] = ()
+
+
+def _run_cells(prep: PreparedSite, sizes) -> int:
+    """Hops x offsets per offset of the longest-run search over every pair (`analysis.longest_run`)."""
+    n = np.asarray(sizes, dtype=float)
+    dwell = np.array([s.dwell_s for s in prep.site.systems])
+    horizon = 2 * np.maximum(n[:, None], np.ceil(n[None, :] * dwell[None, :] / dwell[:, None]))
+    harmful = (prep.window >= 0) & ~np.eye(prep.n_systems, dtype=bool)
+    return int(horizon[harmful].sum())
+
+
+def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: float | None = None) -> SequenceWork:
+    """The full work (RUN_PHASES offsets, `packets_for` packets) if it fits in `seconds`; otherwise what
+    is left after the per-pair analysis is split between the longest-run search and the simulation,
+    never below MIN_RUN_PHASES and MIN_PACKETS. Deterministic: the same site and limit, the same work."""
+    s = prep.n_systems
+    members: dict[str, int] = {}
+    for system in prep.site.systems:
+        if system.time_base_group is not None:
+            members[system.time_base_group] = members.get(system.time_base_group, 0) + 1
+    groups = sum(1 for n in members.values() if n > 1)
+    group_work = GROUP_WORK_S if seconds is None or not groups else min(GROUP_WORK_S, 0.5 * seconds / groups)
+    fixed = s * (s - 1) * PAIR_S + groups * group_work
+    per_phase = _run_cells(prep, sizes) * RUN_CELL_S
+    per_packet = SIM_RUNS * s * (SIM_PACKET_S + SIM_SOURCE_S * s)
+    phases, packets = RUN_PHASES, packets_for(prep, requested_packets)
+
+    def cost(ph: int, pk: int) -> float:
+        return fixed + ph * per_phase + pk * per_packet
+
+    notes = []
+    if seconds is not None and cost(phases, packets) > seconds:
+        spare = max(0.0, seconds - fixed)
+        phases = int(np.clip(math.floor(0.5 * spare / max(per_phase, 1e-12)), MIN_RUN_PHASES, RUN_PHASES))
+        packets = int(np.clip(math.floor((spare - phases * per_phase) / per_packet), MIN_PACKETS, packets))
+        notes.append(f"to keep the time limit, each pair's longest run was searched over {phases} time offsets "
+                     f"(not {RUN_PHASES}) and the retry simulations used {packets} packets per system"
+                     if phases < RUN_PHASES else
+                     f"to keep the time limit, the retry simulations used {packets} packets per system")
+    return SequenceWork(packets=packets, run_phases=phases, estimate_s=cost(phases, packets), group_work_s=group_work,
+                        notes=tuple(notes))
+
+
+def _retries(prep, orders, packets, seed, sigma, exact: bool = False) -> list[RetryFigures]:
+    n = packets if exact else packets_for(prep, packets)
     return [simulate_retries(prep, orders, v, n, seed, sigma) for v in range(prep.n_systems)]
 
 
@@ -62,22 +129,30 @@ def common_pattern(orders: list[np.ndarray]) -> list[np.ndarray]:
     return out
 
 
-def outcome(prep: PreparedSite, sequences: list[Sequence], notes: list[str], packets: int, seed: int) -> SequenceOutcome:
+def outcome(prep: PreparedSite, sequences: list[Sequence], notes: list[str], packets: int, seed: int,
+            work: SequenceWork | None = None) -> SequenceOutcome:
+    """Analysis and retry simulations; `work` (if given) sets the packets and the longest-run offsets."""
     sigma = delay_spread(prep)
-    report = analyse(prep, sequences, sigma, notes)
+    notes = list(notes) + (list(work.notes) if work is not None else [])
+    report = analyse(prep, sequences, sigma, notes, work.run_phases if work is not None else RUN_PHASES)
     orders = [s.channels for s in sequences]
     poor = [np.sort(o) for o in orders]
     aligned = any(p.aligned and p.aligned_hit_rate is not None and p.aligned_hit_rate < p.unaligned_hit_rate
                   for p in report.pairs)
-    return SequenceOutcome(report=report, delay_spread_s=sigma, retries=_retries(prep, orders, packets, seed, sigma),
-                           poor_order=_retries(prep, poor, packets, seed, sigma),
-                           common_pattern=_retries(prep, common_pattern(orders), packets, seed, sigma),
+    n, exact = (work.packets, True) if work is not None else (packets, False)
+    return SequenceOutcome(report=report, delay_spread_s=sigma, retries=_retries(prep, orders, n, seed, sigma, exact),
+                           poor_order=_retries(prep, poor, n, seed, sigma, exact),
+                           common_pattern=_retries(prep, common_pattern(orders), n, seed, sigma, exact),
                            depends_on_alignment=aligned)
 
 
-def plan_sequences(prep: PreparedSite, hop_sets, seed: int, packets: int = DEFAULT_PACKETS) -> SequenceOutcome:
-    sequences, notes = build_sequences(prep, hop_sets, seed, delay_spread(prep))
-    return outcome(prep, sequences, notes, packets, seed)
+def plan_sequences(prep: PreparedSite, hop_sets, seed: int, packets: int = DEFAULT_PACKETS,
+                   work: SequenceWork | None = None, budget=None) -> SequenceOutcome:
+    """Sequences for `hop_sets` and what they do; `work` bounds the analysis and simulation, `budget`
+    (a `cohop.planning.deadline.Budget`) the slot-aligned construction's CP-SAT calls."""
+    group_work = work.group_work_s if work is not None else GROUP_WORK_S
+    sequences, notes = build_sequences(prep, hop_sets, seed, delay_spread(prep), group_work, budget=budget)
+    return outcome(prep, sequences, notes, packets, seed, work)
 
 
 def given_sequences(prep: PreparedSite, packets: int, seed: int) -> SequenceOutcome | None:

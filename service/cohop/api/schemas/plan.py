@@ -157,6 +157,13 @@ class SolverReportSchema(StrictSchema):
     max_relative_rounding = fields.Float()
     workers = fields.Integer()
     deterministic = fields.Boolean()
+    requested_time_limit_s = fields.Float(metadata={"description": "The request's time limit; time_limit_s is "
+                                                                   "lower when the server's cap clamped it"})
+    stopped_by_wall_clock = fields.Boolean(metadata={"description": "A phase was cut short by the wall clock "
+                                                                    "(a busy machine): the same request and seed "
+                                                                    "may then give another plan"})
+    work = fields.Dict(keys=fields.String(), values=fields.Float(), metadata={
+        "description": "Work done: kicks (local search), cp_sat_deterministic_time, pricing_operations (bound)"})
     binding = fields.List(fields.String(), metadata={"description": "Requirements the plan presses against"})
     notes = fields.List(fields.String())
 
@@ -312,6 +319,16 @@ class FreshSchema(StrictSchema):
     systems = fields.List(fields.Nested(BaselineSystemSchema))
 
 
+class ReplanTimeSchema(StrictSchema):
+    time_s = fields.Float(metadata={"description": "Time from the request's arrival to the answer's figures"})
+    time_limit_s = fields.Float(metadata={"description": "The effective limit (clamped by the server's cap)"})
+    requested_time_limit_s = fields.Float()
+    stopped_by_wall_clock = fields.Boolean(metadata={"description": "A phase was cut short by the wall clock: "
+                                                                    "the same request may then give another "
+                                                                    "re-plan"})
+    work = fields.Dict(keys=fields.String(), values=fields.Float())
+
+
 class ReplanResponseSchema(StrictSchema):
     cautions = fields.List(fields.String())
     mode = fields.Dict()
@@ -325,3 +342,4 @@ class ReplanResponseSchema(StrictSchema):
     sequences = fields.Nested(SequencesSchema)
     assessment = fields.Nested(AssessmentResponseSchema)
     notes = fields.List(fields.String())
+    time = fields.Nested(ReplanTimeSchema)

@@ -24,4 +24,4 @@ class Plans(MethodView):
         args = (body["site"], body["requirements"], solving.solve_settings(config), body["detail"])
         if not config["COHOP_ISOLATE_SOLVES"]:
             args += (config.get("COHOP_PROGRESS_HOOK"),)
-        return solving.run("plan", solving.plan_job, *args)
+        return solving.run("plan", solving.plan_job, body["requirements"].time_limit_s, *args)

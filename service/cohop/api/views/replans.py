@@ -21,5 +21,5 @@ class Replans(MethodView):
     def post(self, body):
         """Re-plan from the current plan: fewest changes within a tolerance, or best plan within a budget."""
         settings = solving.solve_settings(current_app.config)
-        return solving.run("replan", solving.replan_job, body["site"], body["requirements"], body["current"],
-                           body["mode"], settings)
+        return solving.run("replan", solving.replan_job, body["requirements"].time_limit_s, body["site"],
+                           body["requirements"], body["current"], body["mode"], settings)

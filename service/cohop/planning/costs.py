@@ -1,0 +1,79 @@
+"""What the phases around the search cost, so that the search leaves them their time.
+
+Deterministic estimates (functions of the site's size only), calibrated on
+our 2-core machines against the bench sites and samples
+(`python bench/bench_timelimits.py --phases` prints the measured costs
+beside these estimates). They are deliberately on the high side
+(`SAFETY`): an estimate that is too high costs some search time, one that
+is too low costs the time limit.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from cohop.planning.instance import PlanningInstance
+
+#: Fixed cost of a request around the solve: the solver process, parsing, the answer's schema and JSON.
+BASE_S = 0.05
+#: Preparing the instance, the greedy start and its first descent, per channel handed out (large site:
+#: 2500 channels, 0.6 to 0.8 s).
+BEFORE_PER_CHANNEL_S = 2.5e-4
+#: One assessment (and its validation): a fixed part, per system and per channel held by a system.
+ASSESS_BASE_S = 0.01
+ASSESS_PER_SYSTEM_S = 8e-4
+ASSESS_PER_HELD_CHANNEL_S = 7e-6
+#: The greedy construction (when the greedy baseline cannot reuse the planner's start), per channel.
+GREEDY_PER_CHANNEL_S = 1e-4
+#: The answer (present, pickle from the solver process, schema dump, JSON): a fixed part, and per system
+#: and grid channel at channel detail (the large site's answer, 2 MB: about 0.35 s).
+ANSWER_BASE_S = 0.025
+ANSWER_PER_SYSTEM_CHANNEL_S = 7e-6
+#: Estimates are multiplied by this.
+SAFETY = 1.25
+#: The share of the limit the sequences (construction, analysis, retry simulation) may take at most;
+#: they always do their minimum work (see `cohop.sequences.report.sequence_work`).
+SEQUENCE_SHARE = 0.25
+
+
+def _held(inst: PlanningInstance) -> int:
+    return int(inst.sizes.sum())
+
+
+def assessment_s(n_systems: int, held_channels: int) -> float:
+    return ASSESS_BASE_S + n_systems * ASSESS_PER_SYSTEM_S + held_channels * ASSESS_PER_HELD_CHANNEL_S
+
+
+def before_search_s(inst: PlanningInstance) -> float:
+    return SAFETY * (BASE_S + BEFORE_PER_CHANNEL_S * _held(inst))
+
+
+def baselines_s(inst: PlanningInstance) -> float:
+    s = inst.n_systems
+    total = 0.0
+    for name in inst.req.baselines:
+        held = int(inst.prep.usable.sum()) if name == "whole_band" else _held(inst)
+        total += assessment_s(s, held)
+        if name == "greedy" and inst.req.coordination != "joint":
+            total += GREEDY_PER_CHANNEL_S * _held(inst)
+    return total
+
+
+def after_search_s(inst: PlanningInstance, detail: str, sequences) -> float:
+    """Sequences (`sequences`: their planned work, or None), the plan's assessment and validation, the
+    baselines, the binding-requirement report and the answer."""
+    s, c = inst.n_systems, inst.n_channels
+    total = assessment_s(s, _held(inst)) + baselines_s(inst)
+    total += (sequences.estimate_s if sequences is not None else 0.0)
+    per_system = c if detail == "channel" else float(np.mean(inst.sizes))
+    total += ANSWER_BASE_S + ANSWER_PER_SYSTEM_CHANNEL_S * s * per_system
+    return SAFETY * total
+
+
+def replan_after_search_s(inst: PlanningInstance, sequences) -> float:
+    """The re-plan's closing phases: sequences, the assessments of the fresh plan, the re-plan and the
+    current plan, validation and the answer (at channel detail)."""
+    s, c = inst.n_systems, inst.n_channels
+    total = 3 * assessment_s(s, _held(inst)) + sequences.estimate_s
+    total += ANSWER_BASE_S + ANSWER_PER_SYSTEM_CHANNEL_S * s * c
+    return SAFETY * total

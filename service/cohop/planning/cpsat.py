@@ -1,0 +1,111 @@
+"""The one place that configures and runs CP-SAT, for every caller.
+
+Plan (`solve._cp_sat`), the re-plan's minimum-change step, the infeasibility
+diagnosis and the slot-aligned sequence construction all solve through
+`run`, so each call gets the same rules:
+
+- threads: the server's `COHOP_SOLVER_THREADS` (diagnosis with assumptions
+  asks for one), and the request's seed;
+- work: deterministic time (`work_s` calibrated seconds times
+  `DETERMINISTIC_UNITS_PER_SECOND`), with `interleave_search` when several
+  workers run, so that the same model and seed give the same answer; with
+  `COHOP_DETERMINISTIC=false` the work is wall-clock seconds instead;
+- a wall-clock stop: `max_time_in_seconds` is always what is left of the
+  budget, so no call outlives the request's limit; a call the wall clock
+  stopped is recorded on the deadline (the answer says the run may differ);
+- an early end: optimisation calls stop at a relative gap of `gap_limit`
+  (what the service calls optimal), or as soon as a solution reaches
+  `stop_at`, a bound already proven by another method.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+from ortools.sat.python import cp_model
+
+from cohop.planning.deadline import Budget
+
+#: CP-SAT deterministic time units per calibrated second of work. Measured on our 2-core machines with two
+#: interleaved workers (batches of one task per worker): 0.34 to 0.8 units per wall second on the samples'
+#: full models; one worker does about 0.25 (`bench/bench_timelimits.py --phases` prints it).
+DETERMINISTIC_UNITS_PER_SECOND = 0.35
+#: Building a full plan model in Python costs about this per pair boolean (samples: 3 000 booleans,
+#: 0.15 to 0.3 s; the medium bench site: 52 000, 2.8 s).
+BUILD_S_PER_PRODUCT = 8e-5
+#: Below this many wall seconds left, a call is not started at all.
+MIN_WALL_S = 0.005
+
+
+@dataclass
+class Outcome:
+    status: int
+    solver: cp_model.CpSolver
+    started: bool = True
+
+    @property
+    def name(self) -> str:
+        return self.solver.status_name(self.status)
+
+    @property
+    def found(self) -> bool:
+        return self.status in (cp_model.OPTIMAL, cp_model.FEASIBLE)
+
+
+class _Watcher(cp_model.CpSolverSolutionCallback):
+    def __init__(self, on_solution: Callable[[float], None] | None, stop_at: float | None):
+        super().__init__()
+        self.on_solution, self.stop_at = on_solution, stop_at
+
+    def on_solution_callback(self) -> None:
+        value = self.objective_value
+        if self.on_solution is not None:
+            self.on_solution(value)
+        if self.stop_at is not None and value <= self.stop_at:
+            self.stop_search()
+
+
+def configure(solver: cp_model.CpSolver, budget: Budget, work_s: float, workers: int, seed: int,
+              deterministic: bool, gap_limit: float | None = None) -> None:
+    p = solver.parameters
+    p.num_workers = max(1, int(workers))
+    p.random_seed = int(seed) % (2**31)
+    left = budget.left()
+    if deterministic:
+        p.interleave_search = p.num_workers > 1
+        # one task per worker per batch: with larger batches CP-SAT overshoots its deterministic limit about
+        # twofold (measured), and the work would no longer follow the budget
+        p.interleave_batch_size = p.num_workers
+        p.max_deterministic_time = max(0.0, work_s) * DETERMINISTIC_UNITS_PER_SECOND
+        p.max_time_in_seconds = left
+    else:
+        p.max_time_in_seconds = min(max(0.0, work_s), left)
+    if gap_limit is not None:
+        p.relative_gap_limit = gap_limit
+
+
+def run(m: cp_model.CpModel, budget: Budget, phase: str, work_s: float, workers: int, seed: int,
+        deterministic: bool, gap_limit: float | None = None, stop_at: float | None = None,
+        on_solution: Callable[[float], None] | None = None,
+        on_bound: Callable[[float], None] | None = None) -> Outcome:
+    """Solve `m` within the budget. `stop_at` and the callbacks are in the model's (scaled) objective units."""
+    solver = cp_model.CpSolver()
+    if budget.left() < MIN_WALL_S:
+        budget.expired(phase)
+        return Outcome(cp_model.UNKNOWN, solver, started=False)
+    configure(solver, budget, work_s, workers, seed, deterministic, gap_limit)
+    if on_bound is not None:
+        solver.best_bound_callback = on_bound
+    watcher = _Watcher(on_solution, stop_at) if (on_solution is not None or stop_at is not None) else None
+    status = solver.solve(m, watcher) if watcher is not None else solver.solve(m)
+    p = solver.parameters
+    unfinished = status not in (cp_model.OPTIMAL, cp_model.INFEASIBLE, cp_model.MODEL_INVALID)
+    budget.deadline.count("cp_sat_deterministic_time", solver.deterministic_time)
+    work_left = (solver.deterministic_time < 0.99 * p.max_deterministic_time if deterministic
+                 else p.max_time_in_seconds < work_s)
+    stopped_early = watcher is not None and stop_at is not None and status == cp_model.FEASIBLE \
+        and solver.objective_value <= stop_at
+    if unfinished and work_left and not stopped_early and solver.wall_time >= 0.95 * p.max_time_in_seconds:
+        budget.deadline.record_stop(phase)
+    return Outcome(status, solver)
