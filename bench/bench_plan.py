@@ -40,7 +40,7 @@ def _run_one(kind: str, arg: str, seed: int, limit: float) -> dict:
     from bench import sitegen
     from cohop.api.schemas.site import SiteSchema
     from cohop.planning.requirements import BASELINES, PlanRequirements
-    from cohop.planning.solve import SolveSettings, plan_site
+    from cohop.planning.engine import SolveSettings, plan_site
     from cohop.prepare import prepare_site
 
     if kind == "size":

@@ -17,7 +17,7 @@ from bench import sitegen
 from cohop.api.schemas.site import SiteSchema
 from cohop.planning.replan import CurrentSystem, ReplanMode, replan_site
 from cohop.planning.requirements import PlanRequirements, SystemRequirement
-from cohop.planning.solve import SolveSettings, plan_site
+from cohop.planning.engine import SolveSettings, plan_site
 from cohop.prepare import prepare_site
 
 NEW_INTERFERERS = (

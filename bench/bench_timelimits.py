@@ -136,7 +136,7 @@ def phases() -> None:
     from cohop.planning import costs, cpsat, model, search
     from cohop.planning.instance import build_instance
     from cohop.planning.linear import hop_sets_of
-    from cohop.planning.solve import SolveSettings, _baselines, plan_site
+    from cohop.planning.engine import SolveSettings, _baselines, plan_site
     from cohop.prepare import prepare_site
     from cohop.sequences.report import plan_sequences, sequence_work
 

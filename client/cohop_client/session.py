@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 import json
-import random
 import time
 from typing import Any, Callable, TypeVar
 from urllib.parse import quote
 
 import requests
+from requests.adapters import HTTPAdapter, Retry  # urllib3's Retry, as requests exposes it
 
 from cohop_client.errors import (CohopError, InvalidRequest, NoFeasiblePlan, RequestTimeout, ServerError,
                                  TransportError)
@@ -35,15 +35,18 @@ class Client:
                  max_wait_s: float = 30.0):
         """`retries`: how often to repeat a request that got 503 (service busy) or could not connect;
         every endpoint is a pure computation, so repeating is safe. Waits follow the server's
-        Retry-After, else exponential backoff from `backoff_s` with jitter, each at most `max_wait_s`."""
+        Retry-After, else exponential backoff from `backoff_s` with jitter, each at most `max_wait_s`.
+        The retrying is urllib3's `Retry`, mounted for `base_url` on the session unless the caller's
+        session already has its own transport for it (an in-process one, say)."""
         self.base_url = base_url.rstrip("/")
         self.timeout_s = timeout_s
         self.retries = max(0, retries)
-        self.backoff_s = backoff_s
-        self.max_wait_s = max_wait_s
         self._sleep = time.sleep
         self._own_session = session is None
         self._session = session or requests.Session()
+        if not _has_own_transport(self._session, self.base_url):
+            retry = _retry_policy(self, self.retries, backoff_s, max_wait_s)
+            self._session.mount(self.base_url + "/", HTTPAdapter(max_retries=retry))
         self._headers = {"Accept": "application/json, application/problem+json"}
         if token:
             self._headers["Authorization"] = f"Bearer {token}"
@@ -111,30 +114,8 @@ class Client:
                                  f"({type(err).__name__}: {err}); is this a cohop service of a matching "
                                  "version?", url=self.base_url) from err
 
-    def _wait(self, attempt: int, retry_after: str | None) -> None:
-        try:
-            wait = float(retry_after) if retry_after is not None else None
-        except ValueError:
-            wait = None
-        if wait is None:
-            wait = self.backoff_s * 2**attempt * (0.5 + random.random())
-        self._sleep(min(max(0.0, wait), self.max_wait_s))
-
     def _call(self, method: str, path: str, body: dict | None = None) -> Any:
-        for attempt in range(self.retries + 1):
-            last = attempt == self.retries
-            try:
-                resp = self._send(method, path, body)
-            except TransportError as err:
-                if last or isinstance(err, RequestTimeout):
-                    raise
-                self._wait(attempt, None)
-                continue
-            if resp.status_code == 503 and not last:
-                self._wait(attempt, resp.headers.get("Retry-After"))
-                continue
-            return _decode(resp, self.base_url + path)
-        raise AssertionError("unreachable")
+        return _decode(self._send(method, path, body), self.base_url + path)
 
     def _send(self, method: str, path: str, body: dict | None) -> requests.Response:
         url = self.base_url + path
@@ -147,6 +128,36 @@ class Client:
                 raise RequestTimeout(f"the answer from {url} stalled beyond {self.timeout_s:g} s", url=url) from err
             raise TransportError(f"could not reach {url}: {err}", url=url) from err
         return resp
+
+
+class _Retry(Retry):
+    """urllib3's Retry whose waits go through the client's sleeper (tests replace it) and never exceed
+    the client's `max_wait_s`, Retry-After included."""
+
+    client: "Client | None" = None
+    max_wait_s: float = 30.0
+
+    def sleep(self, response=None) -> None:
+        wait = self.get_retry_after(response) if response is not None and self.respect_retry_after_header else None
+        if wait is None:
+            wait = self.get_backoff_time()
+        sleeper = self.client._sleep if self.client is not None else time.sleep
+        sleeper(min(max(0.0, wait), self.max_wait_s))
+
+
+def _retry_policy(client: "Client", retries: int, backoff_s: float, max_wait_s: float) -> Retry:
+    """503 and connection failures retried on every method (all endpoints are pure computations); a read
+    that times out is not (the server may still be working on it)."""
+    policy = type("ClientRetry", (_Retry,), {"client": client, "max_wait_s": max_wait_s})
+    return policy(total=retries, connect=retries, read=0, status=retries, other=0, allowed_methods=None,
+                  status_forcelist=(503,), backoff_factor=backoff_s, backoff_jitter=backoff_s,
+                  backoff_max=max_wait_s, respect_retry_after_header=True, raise_on_status=False,
+                  raise_on_redirect=False)
+
+
+def _has_own_transport(session: requests.Session, base_url: str) -> bool:
+    """True if the session already routes base_url through an adapter of the caller's (not the default)."""
+    return any(base_url.startswith(prefix) for prefix in session.adapters if prefix not in ("http://", "https://"))
 
 
 def _caused_by_timeout(err: BaseException) -> bool:

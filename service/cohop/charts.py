@@ -137,7 +137,6 @@ def channel_map(site: dict, answer: dict, path: str | Path | None = None, width_
     axes[-1].set_xlabel("frequency [MHz]", fontsize=8)
     fig.subplots_adjust(left=0.16, right=0.78, top=0.94, bottom=0.09, hspace=0.08)
     fig.text(0.01, 0.005, "Planning estimate: confirm with a site survey; local regulations prevail.", fontsize=6)
-    fig.cohop_rows = [r["label"] for r in rows]  # for tests and tools
     if path is not None:
         fig.savefig(path, dpi=dpi)
     return fig

@@ -4,7 +4,7 @@ import math
 
 import pytest
 
-from cohop.physics.rejection import harmful_bound_hz, offset_to_span_hz, rejection_db, window_channels
+from cohop.physics.rejection import harmful_bound_hz, rejection_db, window_channels
 
 # Structure of a receiver C/I table, e.g. the Bluetooth basic-rate receiver (from memory):
 # co-channel 11 dB, first adjacent 0 dB, second -30 dB, third -40 dB at 1 MHz spacing. With a
@@ -47,7 +47,3 @@ def test_window_agrees_with_pointwise_lookup():
             w = window_channels(harmful_bound_hz(excess, OFFSETS, REJECTIONS), spacing, 400)
             for d in range(0, 30):
                 assert (d <= w) == (rejection_db(OFFSETS, REJECTIONS, d * spacing) < excess), (spacing, excess, d)
-
-
-def test_offset_to_span():
-    assert list(offset_to_span_hz([10.0, 15.0, 25.0, 30.0], 12.0, 25.0)) == [2.0, 0.0, 0.0, 5.0]

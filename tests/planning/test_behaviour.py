@@ -6,7 +6,7 @@ import pytest
 from cohop import samples
 from cohop.planning.linear import system_estimates
 from cohop.planning.requirements import PlanRequirements, SystemRequirement
-from cohop.planning.solve import SolveSettings, plan_site
+from cohop.planning.engine import SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from tests import sites
 from tests.planning.helpers import roomy

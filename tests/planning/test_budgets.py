@@ -17,7 +17,7 @@ from cohop.planning.deadline import Deadline
 from cohop.planning.diagnose import diagnose
 from cohop.planning.replan import RE_SHARES, CurrentSystem, ReplanMode, replan_site
 from cohop.planning.requirements import PlanRequirements
-from cohop.planning.solve import SHARES, SHARES_WITHOUT_CP_SAT, SolveSettings, plan_site
+from cohop.planning.engine import SHARES, SHARES_WITHOUT_CP_SAT, SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from cohop.sequences.construct import (GROUP_CLAUSES, _group_spacing, _respace, build_sequences,
                                       required_spacing_channels, spacing_ceiling)

@@ -7,7 +7,7 @@ from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import build_instance
 from cohop.errors import PlanInfeasible
 from cohop.planning.requirements import PlanRequirements, SystemRequirement
-from cohop.planning.solve import SolveSettings, plan_site
+from cohop.planning.engine import SolveSettings, plan_site
 from cohop.planning.validate import validate_plan
 from cohop.prepare import prepare_site
 from tests import sites

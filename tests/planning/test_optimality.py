@@ -8,7 +8,7 @@ import pytest
 from cohop.planning import bound
 from cohop.planning.requirements import PlanRequirements, SystemRequirement
 from cohop.planning.search import greedy
-from cohop.planning.solve import OPTIMAL, SolveSettings, plan_site
+from cohop.planning.engine import OPTIMAL, SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from tests import sites
 from tests.planning.helpers import brute_force, instance, roomy, tiny_site

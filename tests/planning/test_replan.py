@@ -10,7 +10,7 @@ from cohop.planning.linear import objective_value, occupancy, system_estimates
 from cohop.planning.replan import CurrentSystem, ReplanMode, replan_site
 from cohop.errors import PlanInfeasible
 from cohop.planning.requirements import PlanRequirements, SystemRequirement
-from cohop.planning.solve import SolveSettings, plan_site
+from cohop.planning.engine import SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from tests import sites
 from tests.planning.helpers import roomy, tiny_site

@@ -213,7 +213,7 @@ def _figures(f) -> dict:
 
 
 def replan_dict(result, mode) -> dict:
-    from cohop.planning.solve import evaluated_objective
+    from cohop.planning.engine import evaluated_objective
 
     prep = result.assessment.prepared
     before = {f.id: f for f in result.before.systems}

@@ -20,7 +20,7 @@ from cohop.api import problems
 from cohop.errors import SolveAbandoned, SolverBusy, SolverCrashed
 from cohop.isolation import SolveSlots, run_isolated
 from cohop.planning.deadline import Deadline
-from cohop.planning.solve import SolveSettings
+from cohop.planning.engine import SolveSettings
 
 log = logging.getLogger("cohop.solver")
 

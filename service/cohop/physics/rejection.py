@@ -24,7 +24,6 @@ import math
 from bisect import bisect_right
 from typing import Sequence
 
-import numpy as np
 
 #: Offsets closer than this share of the grid spacing to a table offset count
 #: as equal to it (float noise from first + k * spacing).
@@ -62,9 +61,3 @@ def window_channels(bound_hz: float, spacing_hz: float, channel_count: int) -> i
         return channel_count
     w = math.ceil(bound_hz / spacing_hz * (1 - OFFSET_TOLERANCE)) - 1
     return min(w, channel_count)
-
-
-def offset_to_span_hz(centre_hz, low_hz: float, high_hz: float):
-    """Distance from a channel centre to the nearest point of [low, high] (0 inside)."""
-    c = np.asarray(centre_hz, dtype=float)
-    return np.maximum(0.0, np.maximum(low_hz - c, c - high_hz))

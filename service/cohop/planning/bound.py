@@ -46,7 +46,6 @@ Pattern = tuple[frozenset, ...]
 @dataclass
 class BoundResult:
     bound: float  # proven lower bound on the linearised objective
-    lp_value: float  # last restricted-master value
     window: int  # L
     iterations: int
     columns: int
@@ -446,5 +445,5 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
         added = sum(add_column(key, pattern) for key, pattern in found)
         if added == 0 or last:
             break
-    return BoundResult(bound=max(best, 0.0), lp_value=value, window=length, iterations=it, columns=len(seen),
+    return BoundResult(bound=max(best, 0.0), window=length, iterations=it, columns=len(seen),
                        converged=converged, work=spent())

@@ -1,6 +1,6 @@
 """The one place that configures and runs CP-SAT, for every caller.
 
-Plan (`solve._cp_sat`), the re-plan's minimum-change step, the infeasibility
+Plan (`engine._cp_sat`), the re-plan's minimum-change step, the infeasibility
 diagnosis and the slot-aligned sequence construction all solve through
 `run`, so each call gets the same rules:
 

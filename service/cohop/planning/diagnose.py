@@ -145,11 +145,8 @@ def diagnose(inst: PlanningInstance, budget: Budget | None = None, work_s: float
         budget = own.budget(own.limit_s, own.end)
     m = cp_model.CpModel()
     reg = _Registry(m, inst)
-    gs = [groups.ChannelVariables(keep_excluded=True), groups.Exclusions(), groups.ChannelCounts(), groups.Pins(),
-          groups.Separation(), groups.Guards()]
-    mv = groups.ModelVars()
-    for g in gs:
-        g.add(m, mv, inst, reg)
+    m, mv = groups.build(inst, [groups.ChannelVariables(keep_excluded=True), groups.Exclusions(), groups.ChannelCounts(),
+                                groups.Pins(), groups.Separation(), groups.Guards()], reg, model=m)
     status, solver = _solve(m, reg.literals, budget, 0.5 * work_s, seed, deterministic)
     if status in (cp_model.OPTIMAL, cp_model.FEASIBLE):
         return None, True

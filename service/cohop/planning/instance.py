@@ -89,6 +89,15 @@ class PlanningInstance:
         return self.interferer_cost / self.sizes[:, None]
 
 
+
+def without_inter_system_terms(inst: PlanningInstance) -> PlanningInstance:
+    """The same instance with no inter-system terms in the objective and no guards: each system then
+    only avoids what it measures (the fixed interferers and its own exclusions)."""
+    out = inst.with_sizes(inst.sizes)
+    out.beta = np.zeros_like(inst.beta)
+    out.guards = []
+    return out
+
 # --- construction -----------------------------------------------------------
 
 def _synthetic(prep: PreparedSite, v: int, usable: np.ndarray, n: int, gap: int):

@@ -263,11 +263,8 @@ def weighted_sum(mv: ModelVars, objective: Objective, scale: Scale):
 def full_model(inst: PlanningInstance, start: np.ndarray | None = None):
     """Every hard requirement and the objective's pair booleans, with the integer scale of the costs and the
     loss ceilings; the caller sets what to minimise. Returns (model, vars, objective group, scale)."""
-    m = cp_model.CpModel()
-    mv = ModelVars()
     objective = Objective()
-    for g in (ChannelVariables(), ChannelCounts(), Pins(), Separation(), Guards(), objective):
-        g.add(m, mv, inst, lambda kind, key: None)
+    m, mv = build(inst, [ChannelVariables(), ChannelCounts(), Pins(), Separation(), Guards(), objective])
     c = objective.costs
     costs = [w for pair in c.node.values() for w in pair] + [w for _, wc, cv, ca in c.pair for w in (wc, cv, ca)]
     scale = Scale.choose(np.array(costs))
@@ -306,8 +303,10 @@ def _constant_of(inst: PlanningInstance, v: int) -> float:
                      if a != v and inst.window[v, a] >= full))
 
 
-def build(inst: PlanningInstance, groups: list, enforce: Enforce | None = None) -> tuple[cp_model.CpModel, ModelVars]:
-    m = cp_model.CpModel()
+def build(inst: PlanningInstance, groups: list, enforce: Enforce | None = None,
+          model: cp_model.CpModel | None = None) -> tuple[cp_model.CpModel, ModelVars]:
+    """A model of the given constraint groups, each added in turn (the plan's full model, the diagnosis)."""
+    m = model if model is not None else cp_model.CpModel()
     mv = ModelVars()
     for g in groups:
         g.add(m, mv, inst, enforce or (lambda kind, key: None))

@@ -37,11 +37,11 @@ from cohop.assess import Assessment, assess_site
 from cohop.errors import Conflict, PlanInfeasible
 from cohop.planning import costs, cpsat, model
 from cohop.planning.deadline import Budget, Deadline
-from cohop.planning.instance import PlanningInstance, build_instance
+from cohop.planning.instance import PlanningInstance, build_instance, without_inter_system_terms
 from cohop.planning.linear import hop_sets_of, objective_value, system_estimates
 from cohop.planning.requirements import PlanRequirements
-from cohop.planning.search import Placement, _best_swap
-from cohop.planning.solve import PlanResult, SolveSettings, _independent, plan_site, search_budget
+from cohop.planning.search import Placement, best_swap
+from cohop.planning.engine import PlanResult, SolveSettings, plan_site, search_budget
 from cohop.planning.validate import Violation, validate_plan
 from cohop.prepare import PreparedSite
 from cohop.sequences.construct import Sequence, build_sequences
@@ -158,7 +158,7 @@ def _free_or_paid_move(place: Placement, old: np.ndarray, paid: bool) -> tuple[f
     best = None
     for v in range(place.inst.n_systems):
         leaving = old[v] if paid else ~old[v]
-        delta, c_out, c_in = _best_swap(place, v, leaving)
+        delta, c_out, c_in = best_swap(place, v, leaving)
         scale = max(float(np.abs(place.table.m[v]).max()), 1e-300)
         if c_out >= 0 and delta < -1e-12 * scale and (best is None or delta < best[0]):
             best = (delta, v, c_out, c_in)
@@ -257,7 +257,7 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
     fresh_budget, moves_budget, cp_budget = budget.split([RE_SHARES["fresh"], RE_SHARES["moves"], RE_SHARES["cp_sat"]])
     fresh_req = PlanRequirements(**{**req.__dict__, "baselines": ()})
     fresh = plan_site(prep, fresh_req, settings, detail="system", with_sequences=False, budget=fresh_budget)
-    base = _independent(full) if req.coordination == "independent" else full  # the objective the fresh plan used
+    base = without_inter_system_terms(full) if req.coordination == "independent" else full  # the objective the fresh plan used
     old = _old_masks(base, cur)
     existing = np.array([sid in cur for sid in ids])
     inst = base.with_sizes(_sizes(base, old, cur))

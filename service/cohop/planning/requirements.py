@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 #: Default share of hops that fixed interferers may hit on a channel before the
 #: planner excludes that channel for that system.
@@ -53,7 +53,6 @@ class Progress:
     objective: float | None
     bound: float | None
     phase: str = ""
-    extra: dict = field(default_factory=dict)
 
     @property
     def gap(self) -> float | None:

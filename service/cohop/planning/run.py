@@ -7,7 +7,7 @@ from typing import Callable
 from cohop.errors import Conflict, PlanInfeasible, SiteError
 from cohop.planning.deadline import Deadline
 from cohop.planning.requirements import PlanRequirements, Progress
-from cohop.planning.solve import NO_PLAN, PlanResult, SolveSettings, plan_site
+from cohop.planning.engine import NO_PLAN, PlanResult, SolveSettings, plan_site
 from cohop.prepare import prepare_site
 from cohop.site import Site
 

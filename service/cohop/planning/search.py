@@ -72,7 +72,7 @@ def greedy(inst: PlanningInstance, weights: np.ndarray | None = None) -> np.ndar
     return place.x.copy()
 
 
-def _best_swap(place: Placement, v: int, leaving: np.ndarray | None = None) -> tuple[float, int, int]:
+def best_swap(place: Placement, v: int, leaving: np.ndarray | None = None) -> tuple[float, int, int]:
     """(delta, c_out, c_in) of v's best swap; only channels in `leaving` (boolean over the grid) may go."""
     inst = place.inst
     m = place.table.m[v]
@@ -103,7 +103,7 @@ def _descend(place: Placement, journal: list | None = None, max_moves: int = 100
     while moves < max_moves:
         moved = False
         for v in range(place.inst.n_systems):
-            delta, c_out, c_in = _best_swap(place, v)
+            delta, c_out, c_in = best_swap(place, v)
             if c_out >= 0 and delta < -1e-12 * scale:
                 place.remove(v, c_out)
                 place.add(v, c_in)

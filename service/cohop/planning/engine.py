@@ -26,7 +26,7 @@ from cohop.errors import PlanInfeasible
 from cohop.planning import baselines, bound, costs, cpsat, model, search
 from cohop.planning.deadline import Budget, Deadline
 from cohop.planning.diagnose import diagnose
-from cohop.planning.instance import PlanningInstance, build_instance
+from cohop.planning.instance import PlanningInstance, build_instance, without_inter_system_terms
 from cohop.planning.linear import hop_sets_of, marginal_costs, objective_value, system_estimates
 from cohop.planning.requirements import PlanRequirements, Progress
 from cohop.planning.validate import Violation, validate_plan
@@ -213,14 +213,6 @@ def _baselines(inst: PlanningInstance, greedy_start: np.ndarray | None = None) -
     return out
 
 
-def _independent(inst: PlanningInstance) -> PlanningInstance:
-    """Each system only avoids what it measures: no inter-system terms in the objective."""
-    out = inst.with_sizes(inst.sizes)
-    out.beta = np.zeros_like(inst.beta)
-    out.guards = []
-    return out
-
-
 def _diagnose(inst: PlanningInstance, budget: Budget, settings: SolveSettings):
     work = max(MIN_DIAGNOSIS_WORK_S, budget.work(DIAGNOSIS_SHARE))
     return diagnose(inst, budget, work_s=work, seed=inst.req.seed, deterministic=settings.deterministic)
@@ -362,7 +354,7 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
                             Deadline.of(req.time_limit_s, settings.max_solve_s))
     clock = _Clock(deadline, progress)
     full = build_instance(prep, req)
-    inst = _independent(full) if req.coordination == "independent" else full
+    inst = without_inter_system_terms(full) if req.coordination == "independent" else full
     seq_work = sequence_work(prep, full.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s) \
         if with_sequences else None
     if budget is None:
