@@ -39,10 +39,10 @@ def _cautions(cautions) -> list[str]:
 def assessment_table(result: Assessment) -> str:
     out = [f"profile {result.profile_id}; priority-weighted hit/hop sum {result.weighted_collision_probability:.4f}; "
            f"worst system {result.worst_system}", ""] + _systems_table(result)
-    failing = [(s.id, f) for s in result.systems for f in s.findings if f.status == "fail"]
-    if failing:
-        out += ["", "compliance failures:"]
-        out += [f"  {sid}: {f.message} [{f.citation}; {f.certainty}]" for sid, f in failing]
+    flagged = [(s.id, f) for s in result.systems for f in s.findings if f.status in ("fail", "warning")]
+    if flagged:
+        out += ["", "compliance failures and warnings (each with its reason):"]
+        out += [f"  {sid}: {f.status} {f.rule}: {f.message} [{f.citation}; {f.certainty}]" for sid, f in flagged]
     if result.simulation:
         out += ["", _simulation_lines(result)]
     return "\n".join(out + _cautions(result.cautions))

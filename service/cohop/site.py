@@ -78,6 +78,7 @@ class System:
     time_base_group: str | None = None
     hop_set: tuple[int, ...] | None = None
     sequence: tuple[int, ...] | None = None  # hop order over the hop set (one period), if known
+    fixed_point_to_point: bool = False  # used exclusively for fixed point-to-point links (47 CFR 15.247(c)(1))
 
     @property
     def eirp_dbm(self) -> float:

@@ -143,7 +143,7 @@ def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget: Budget, wo
     worst = inst.req.objective == "worst_system"
     model.minimise(m, mv, inst, objective, scale)
     constant = 0.0 if worst else mv.constant
-    allowance = _rounding_allowance(objective, scale)
+    allowance = _rounding_allowance(objective, scale, mv, inst)
     stop_at = None
     if proven_bound is not None and proven_bound > 0:
         stop_at = math.floor((proven_bound * (1 + 0.5 * OPTIMAL_GAP) - constant) * scale.factor)
@@ -158,10 +158,11 @@ def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget: Budget, wo
     return x, max(proven, 0.0), out.name, scale
 
 
-def _rounding_allowance(objective: model.Objective, scale: model.Scale) -> float:
-    """Largest amount by which integer rounding can overstate the scaled objective."""
-    n = len(objective.costs.node) + len(objective.costs.pair)
-    return 0.5 * n / scale.factor
+def _rounding_allowance(objective: model.Objective, scale: model.Scale, mv: model.ModelVars,
+                        inst: PlanningInstance) -> float:
+    """Largest amount by which integer rounding can overstate the objective of any plan (the exact excess of
+    the terms a plan can switch on: `model.rounding_allowance`; zero when every scaled cost is an integer)."""
+    return model.rounding_allowance(objective, mv, inst, scale)
 
 
 def _binding(inst: PlanningInstance, x: np.ndarray, estimates: np.ndarray) -> list[str]:

@@ -11,7 +11,11 @@ every offset cost the same whatever the channels and enter as a constant.
 
 Real-valued costs are scaled to integers by `Scale` (a power of ten chosen
 so the smallest cost keeps at least four significant digits); the relative
-rounding error is reported with the plan.
+rounding error is reported with the plan. `rounding_allowance` bounds how far
+that rounding can raise the objective of any plan (each term's exact excess,
+over the terms a plan can switch on at once), so that CP-SAT's bound less it
+stays a bound on the real objective; it is zero when every scaled cost is an
+integer.
 """
 
 from __future__ import annotations
@@ -56,6 +60,14 @@ class Scale:
 
     def __call__(self, value: float) -> int:
         return int(round(value * self.factor))
+
+    def excess(self, value: float) -> float:
+        """How far rounding raised `value` in scaled units: max(0, self(value) - value x factor), the product
+        taken exactly (rational arithmetic on the two floats), so zero when it is an integer."""
+        vn, vd = float(value).as_integer_ratio()
+        fn, fd = float(self.factor).as_integer_ratio()
+        num = self(value) * vd * fd - vn * fn
+        return math.nextafter(num / (vd * fd), math.inf) if num > 0 else 0.0
 
 
 # --- constraint groups -----------------------------------------------------------
@@ -236,6 +248,7 @@ class Ceilings:
         self.objective, self.scale = objective, scale
 
     def add(self, m, mv, inst, enforce) -> None:
+        _, excess = rounding_excess(self.objective, mv, inst, self.scale)
         terms: dict[int, list] = {v: [] for v in range(inst.n_systems)}
         for (v, c), (_, own) in self.objective.costs.node.items():
             terms[v].append((self.scale(own), mv.x[v, c]))
@@ -247,10 +260,69 @@ class Ceilings:
             if not math.isfinite(inst.ceilings[v]):
                 continue
             lit = enforce("ceiling", (v,))
-            limit = int(math.floor(inst.ceilings[v] * self.scale.factor))
+            # widened by v's rounding excess: no plan within the real ceiling is cut off by rounding
+            limit = int(math.floor(inst.ceilings[v] * self.scale.factor + excess[v]))
             ct = m.add(sum(k * var for k, var in terms[v] if k) <= limit)
             if lit is not None:
                 ct.only_enforce_if(lit)
+
+
+def _top(values: list[float], count: int) -> float:
+    return math.fsum(sorted(values, reverse=True)[:max(0, int(count))])
+
+
+def _active_pairs(inst: PlanningInstance, v: int, a: int, span: int) -> int:
+    """Most pair booleans of systems v and a on at once: each of v's N_v channels meets at most
+    min(2 span + 1, N_a) of a's within `span` channels, and the other way round."""
+    nv, na = int(inst.sizes[v]), int(inst.sizes[a])
+    return min(nv * min(2 * span + 1, na), na * min(2 * span + 1, nv))
+
+
+def rounding_excess(objective: Objective, mv: ModelVars, inst: PlanningInstance, scale: Scale):
+    """(weighted, per_victim): the most by which rounding the costs to integers raises the scaled objective of
+    any plan above its real value times `scale.factor`, for the weighted sum and for each victim's own
+    unweighted share (worst-system objective, loss ceilings). Terms rounded down only lower it, so only the
+    exact excess of terms rounded up counts (`Scale.excess`), and only as many of them as a plan can switch on
+    at once: N_v channel terms per system, and per pair of systems the pair booleans their counts allow."""
+    memo: dict[float, float] = {}
+
+    def up(value: float) -> float:
+        if value not in memo:
+            memo[value] = scale.excess(value)
+        return memo[value]
+
+    n = inst.n_systems
+    node_w: list[list[float]] = [[] for _ in range(n)]
+    node_own: list[list[float]] = [[] for _ in range(n)]
+    for (v, _), (wc, own) in objective.costs.node.items():
+        node_w[v].append(up(wc))
+        node_own[v].append(up(own))
+    groups: dict[tuple[int, int], tuple[list, list, list, list]] = {}
+    for zi, wc, cv, ca in objective.costs.pair:
+        _, v, c, a, k = mv.z[zi]
+        w, to_v, to_a, span = groups.setdefault((v, a), ([], [], [], [0]))
+        w.append(up(wc))
+        to_v.append(up(cv))
+        to_a.append(up(ca))
+        span[0] = max(span[0], abs(c - k))
+    parts = [_top(node_w[v], inst.sizes[v]) for v in range(n)]
+    per_victim = [[_top(node_own[v], inst.sizes[v])] for v in range(n)]
+    for (v, a), (w, to_v, to_a, span) in groups.items():
+        most = _active_pairs(inst, v, a, span[0])
+        parts.append(_top(w, most))
+        per_victim[v].append(_top(to_v, most))
+        per_victim[a].append(_top(to_a, most))
+    return math.fsum(parts), np.array([math.fsum(p) for p in per_victim])
+
+
+def rounding_allowance(objective: Objective, mv: ModelVars, inst: PlanningInstance, scale: Scale) -> float:
+    """What to subtract from CP-SAT's bound (divided by the scale) so that it bounds the real objective: the
+    weighted sum's rounding excess, or for the worst system the largest victim's excess with its constant's."""
+    weighted, per_victim = rounding_excess(objective, mv, inst, scale)
+    if inst.req.objective == "worst_system":
+        own = [per_victim[v] + scale.excess(_constant_of(inst, v)) for v in range(inst.n_systems)]
+        return max(own, default=0.0) / scale.factor
+    return weighted / scale.factor
 
 
 def weighted_sum(mv: ModelVars, objective: Objective, scale: Scale):
@@ -285,7 +357,7 @@ def minimise(m: cp_model.CpModel, mv: ModelVars, inst: PlanningInstance, objecti
             z, v, _, a, _ = mv.z[zi]
             per_victim[v].append(scale(cv) * z)
             per_victim[a].append(scale(ca) * z)
-        worst = m.new_int_var(0, 2**62, "worst")
+        worst = m.new_int_var(0, 2**62 - 1, "worst")  # CP-SAT domains lie within +-(2^63 - 1) / 2
         for v, terms in per_victim.items():
             m.add(worst >= sum(terms) + scale(_constant_of(inst, v)))
         m.minimize(worst)

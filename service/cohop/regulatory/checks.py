@@ -12,6 +12,8 @@ from typing import Callable
 
 import numpy as np
 
+from cohop.regulatory import power
+from cohop.regulatory.power import GainReduction, PowerLimit
 from cohop.regulatory.rules import FAIL, PASS, WARNING, Finding, HopContext, Rule, RuleCheck
 from cohop.sequences.theory import max_visits_in_window, order_statistics
 
@@ -109,56 +111,72 @@ def occupancy(rule: Rule, limit_s: float, window_s: Callable[[HopContext], float
             return _finding(rule, False, base + f"; one visit alone lasts {s.packet_airtime_s * 1e3:.1f} ms",
                             measured=avg, limit=limit_s, unit="s")
         if worst > limit_s * (1 + _EPS):
-            return _finding(rule, False, base + f"; a window catching {visits_max} visits sees "
-                            f"{worst * 1e3:.1f} ms", measured=avg, limit=limit_s, unit="s", warn=True)
+            return _finding(rule, False, base + f"; the average is within the limit, but a {window:.3f} s window "
+                            f"placed to catch {visits_max} visits sees {worst * 1e3:.1f} ms, over it: a warning "
+                            "because the rule may be read per window rather than on average",
+                            measured=avg, limit=limit_s, unit="s", warn=True)
         return _finding(rule, True, base, measured=avg, limit=limit_s, unit="s")
 
     return RuleCheck(rule, check)
 
 
-def conducted_power(rule: Rule, limit_dbm: Callable[[HopContext], float | None],
-                    gain_allowance_dbi: float | None = 6.0) -> RuleCheck:
-    """Conducted output power; above `gain_allowance_dbi` the limit falls dB for dB."""
+def conducted_power(rule: Rule, limit: Callable[[HopContext], PowerLimit | None],
+                    reduction: Callable[[HopContext], GainReduction]) -> RuleCheck:
+    """Conducted output power against a limit stated in watts, lowered by `reduction` for antenna gain
+    (15.247(b)(4) dB for dB, or 15.247(c)(1) for fixed point-to-point systems)."""
 
     def check(ctx: HopContext) -> Finding:
-        base = limit_dbm(ctx)
+        base = limit(ctx)
         p = ctx.system.tx_power_dbm
         if base is None:
-            return _finding(rule, False, "no power allowance for this channel count", measured=p, unit="dBm")
-        cut = 0.0
-        if gain_allowance_dbi is not None:
-            cut = max(0.0, ctx.system.antenna_gain_dbi - gain_allowance_dbi)
-        limit = base - cut
-        note = f" (reduced {cut:.1f} dB for antenna gain above {gain_allowance_dbi:g} dBi)" if cut else ""
-        return _finding(rule, p <= limit + _EPS, f"{p:.1f} dBm conducted, at most {limit:.1f} dBm{note}",
-                        measured=p, limit=limit, unit="dBm")
+            return _finding(rule, False, f"no power allowance for {ctx.count} channels ({rule.summary})",
+                            measured=p, unit="dBm")
+        cut = reduction(ctx)
+        bound = base.dbm - cut.db
+        why = power.limit_source(base, cut)
+        return _finding(rule, power.within(p, bound), power.comparison(p, bound, "conducted", why),
+                        measured=p, limit=bound, unit="dBm")
 
     return RuleCheck(rule, check)
 
 
-def eirp(rule: Rule, limit_dbm: Callable[[HopContext], float | None]) -> RuleCheck:
+def eirp(rule: Rule, limit: Callable[[HopContext], PowerLimit | None]) -> RuleCheck:
+    """e.i.r.p. (conducted power plus antenna gain) against a limit stated in watts."""
+
     def check(ctx: HopContext) -> Finding:
-        limit = limit_dbm(ctx)
+        cap = limit(ctx)
         e = ctx.system.eirp_dbm
-        if limit is None:
-            return _finding(rule, False, "no e.i.r.p. allowance for this channel count", measured=e, unit="dBm")
-        return _finding(rule, e <= limit + _EPS, f"{e:.1f} dBm e.i.r.p., at most {limit:.1f} dBm",
-                        measured=e, limit=limit, unit="dBm")
+        if cap is None:
+            return _finding(rule, False, f"no e.i.r.p. allowance for {ctx.count} channels ({rule.summary})",
+                            measured=e, unit="dBm")
+        msg = power.comparison(e, cap.dbm, "e.i.r.p.", power.limit_source(cap))
+        return _finding(rule, power.within(e, cap.dbm), msg, measured=e, limit=cap.dbm, unit="dBm")
 
     return RuleCheck(rule, check)
 
 
 def medium_utilisation(rule: Rule, limit_fraction: float) -> RuleCheck:
-    """MU = duty cycle x (e.i.r.p. / 100 mW) (from memory of EN 300 328)."""
+    """MU = duty cycle x (e.i.r.p. / 100 mW) (from memory of EN 300 328), computed in milliwatts."""
 
     def check(ctx: HopContext) -> Finding:
-        mu = ctx.duty_fraction * 10 ** (ctx.system.eirp_dbm / 10) / 100.0
-        return _finding(rule, mu <= limit_fraction + _EPS,
-                        f"medium utilisation {mu * 100:.2f} % (duty {ctx.duty_fraction * 100:.2f} % at "
-                        f"{ctx.system.eirp_dbm:.1f} dBm e.i.r.p.), at most {limit_fraction * 100:.0f} %",
+        e = ctx.system.eirp_dbm
+        mu = ctx.duty_fraction * power.mw_of_dbm(e) / (power.EU_MU_REFERENCE.watts * 1e3)
+        ok = mu <= limit_fraction + _EPS
+        share, cap = _percent_pair(mu, limit_fraction, ok)
+        return _finding(rule, ok, f"medium utilisation {share} % (duty {ctx.duty_fraction * 100:.3f} % at "
+                                  f"{power.power_text(e)} e.i.r.p., relative to 100 mW), at most {cap} %",
                         measured=mu, limit=limit_fraction, unit="fraction")
 
     return RuleCheck(rule, check)
+
+
+def _percent_pair(value: float, limit: float, ok: bool) -> tuple[str, str]:
+    """Both as percentages, with enough decimals that a failing value prints above its limit."""
+    for d in range(2, 12):
+        a, b = f"{value * 100:.{d}f}", f"{limit * 100:.{d}f}"
+        if ok or a != b:
+            return a, b
+    return a, b
 
 
 def sequence_order(rule: Rule) -> RuleCheck:
@@ -167,8 +185,8 @@ def sequence_order(rule: Rule) -> RuleCheck:
     def check(ctx: HopContext) -> Finding:
         if ctx.sequence is None:
             return Finding(rule=rule, status=WARNING,
-                           message="not checked: order and equal use need the hopping sequence, "
-                                   "which this request does not carry")
+                           message="not checked: pseudo-random order and equal use cannot be seen from a hop set, "
+                                   "and no sequence was given (give the system's sequence to check them)")
         seq = ctx.sequence
         counts = [int(np.count_nonzero(seq == c)) for c in ctx.channels]
         reversals, distinct, random_like = order_statistics(seq)
@@ -186,5 +204,21 @@ def not_encoded(rule: Rule) -> RuleCheck:
 
     def check(ctx: HopContext) -> Finding:
         return Finding(rule=rule, status=WARNING, message="not checked here: " + rule.summary)
+
+    return RuleCheck(rule, check)
+
+
+def point_to_point(rule: Rule, effect: Callable[[HopContext], tuple[bool, str]]) -> RuleCheck:
+    """What declaring a system fixed point-to-point does under this profile; no finding for other systems.
+
+    `effect` returns (relaxed, words): when the declaration relaxes a limit (47 CFR 15.247(c)(1)) the finding
+    is a warning, because exclusive fixed point-to-point use is the operator's declaration and cannot be
+    checked here; when it changes nothing the finding passes and says why."""
+
+    def check(ctx: HopContext) -> Finding | None:
+        if not ctx.system.fixed_point_to_point:
+            return None
+        relaxed, words = effect(ctx)
+        return Finding(rule=rule, status=WARNING if relaxed else PASS, message=words)
 
     return RuleCheck(rule, check)

@@ -22,4 +22,5 @@ def check_compliance(profile: Profile, system: System, channels, centres_hz, ban
     ctx = HopContext(system=system, channels=np.asarray(channels)[order],
                      centres_hz=np.asarray(centres_hz, dtype=float)[order], band=band,
                      sequence=None if sequence is None else np.asarray(sequence))
-    return [rc.check(ctx) for rc in profile.checks]
+    findings = (rc.check(ctx) for rc in profile.checks)
+    return [f for f in findings if f is not None]  # a check may not apply to this system (point-to-point)

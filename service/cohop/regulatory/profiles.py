@@ -9,8 +9,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Callable
 
-from cohop.regulatory import checks
+from cohop.regulatory import checks, power
+from cohop.regulatory.power import GainReduction, PowerLimit
 from cohop.regulatory.rules import (COMMON_PRACTICE, FAIL, FROM_MEMORY, PARTLY_SEEN, PASS, PUBLISHED, SEEN_QUOTED,
                                     Finding, HopContext, Rule, RuleCheck)
 from cohop.site import Band
@@ -55,21 +57,18 @@ def _us_sequence(pid: str, region: str) -> RuleCheck:
         "channels used in a pseudo-randomly ordered list, each equally on average"))
 
 
-LOW_POWER_DBM = 10 * math.log10(125)  # 0.125 W
-
-
-def _us_separation(pid: str, region: str, two_thirds_below_dbm: float | None = None) -> RuleCheck:
-    """max(25 kHz, 20 dB bandwidth); at 2.4 GHz and <= 125 mW, max(25 kHz, 2/3 BW)."""
+def _us_separation(pid: str, region: str, two_thirds_up_to: PowerLimit | None = None) -> RuleCheck:
+    """max(25 kHz, 20 dB bandwidth); at 2.4 GHz and an output of at most 125 mW, max(25 kHz, 2/3 BW)."""
 
     def required(ctx: HopContext) -> float:
         bw = ctx.system.bandwidth_hz
-        if two_thirds_below_dbm is not None and ctx.system.tx_power_dbm <= two_thirds_below_dbm:
+        if two_thirds_up_to is not None and power.within(ctx.system.tx_power_dbm, two_thirds_up_to.dbm):
             bw = bw * 2 / 3
         return max(25 * KHZ, bw)
 
     summary = "hop channels separated by at least max(25 kHz, 20 dB bandwidth)"
-    if two_thirds_below_dbm is not None:
-        summary += "; max(25 kHz, 2/3 of the 20 dB bandwidth) at 125 mW or less"
+    if two_thirds_up_to is not None:
+        summary += "; max(25 kHz, 2/3 of the 20 dB bandwidth) at an output of 125 mW or less"
     cite, cert = _as_us(region, "47 CFR 15.247(a)(1)", PUBLISHED)
     return checks.min_separation(Rule(f"{pid}.separation", "Channel separation", cite, cert, summary), required)
 
@@ -87,12 +86,83 @@ def _us915_window_s(ctx: HopContext) -> float:
     return 20.0 if ctx.system.bandwidth_hz < 250 * KHZ else 10.0
 
 
-def _us915_power_dbm(ctx: HopContext) -> float | None:
+def _us915_power(ctx: HopContext) -> PowerLimit | None:
     if ctx.count >= 50:
-        return 30.0
+        return power.US_915_50  # 1 W
     if ctx.count >= 25:
-        return 24.0  # 0.25 W
+        return power.US_915_25  # 0.25 W
     return None
+
+
+# --- antenna gain and fixed point-to-point (47 CFR 15.247(b)(4), (c)(1)) ----------------------------------
+
+PTP_TITLE = "Fixed point-to-point antenna gain"
+PTP_SUMMARY = ("systems used exclusively for fixed point-to-point operation: 2400-2483.5 MHz may use antennas above "
+               "6 dBi with 1 dB less conducted power per 3 dB of gain above 6 dBi; 5725-5850 MHz with no reduction; "
+               "no relaxation in 902-928 MHz (seen quoted; check the regulator's current text)")
+#: Why a declared fixed point-to-point system gets no relaxation, per profile family.
+PTP_NO_EFFECT = {
+    "us-915": "47 CFR 15.247(c)(1) relaxes the antenna-gain rule only in 2400-2483.5 and 5725-5850 MHz, so "
+              "above 6 dBi the conducted limit still falls dB for dB (15.247(b)(4))",
+    "CA": "RSS-247's point-to-point provisions were not checked and are not encoded, so the US relaxation of "
+          "47 CFR 15.247(c)(1) is not assumed: the limits apply as to any system",
+    "eu-2400": "the e.i.r.p. limit of EN 300 328 includes the antenna gain and no point-to-point relaxation is "
+               "encoded: it applies as to any system",
+    "eu-868": "the e.r.p. limits of ERC Rec 70-03 include the antenna gain and no point-to-point relaxation is "
+              "encoded: they apply as to any system",
+}
+PTP_OPERATOR = ("exclusive fixed point-to-point use (no point-to-multipoint, omnidirectional or co-located "
+                "transmitters sending the same information; 15.247(c)(1)(iii), from memory) is the operator's "
+                "declaration and cannot be checked here")
+
+
+def _gain_reduction(relaxed: Callable[[float], GainReduction] | None):
+    """The antenna-gain reduction of a conducted limit: dB for dB (15.247(b)(4)), or `relaxed` for a system
+    declared fixed point-to-point where 15.247(c)(1) applies; elsewhere the declaration changes nothing."""
+
+    def reduction(ctx: HopContext) -> GainReduction:
+        gain = ctx.system.antenna_gain_dbi
+        if not ctx.system.fixed_point_to_point:
+            return power.db_for_db(gain)
+        if relaxed is not None:
+            return relaxed(gain)
+        plain = power.db_for_db(gain)
+        note = "fixed point-to-point declared, no relaxation here"
+        return GainReduction(plain.db, f"{plain.note}; {note}" if plain.note else note)
+
+    return reduction
+
+
+def _ptp_effect(relaxed: Callable[[float], GainReduction] | None, no_effect: str):
+    def effect(ctx: HopContext) -> tuple[bool, str]:
+        if relaxed is None:
+            return False, f"declared fixed point-to-point, which changes nothing here: {no_effect}"
+        gain = ctx.system.antenna_gain_dbi
+        cut, plain = relaxed(gain).db, power.db_for_db(gain).db
+        return True, (f"not checked: {PTP_OPERATOR}. On that declaration the conducted limit is lowered "
+                      f"{cut:.3f} dB for the {gain:.3f} dBi antenna, instead of {plain:.3f} dB (dB for dB, 15.247(b)(4))")
+
+    return effect
+
+
+def _ptp_rule(pid: str, citation: str, certainty: str, relaxed: Callable[[float], GainReduction] | None,
+              no_effect: str = "") -> RuleCheck:
+    return checks.point_to_point(Rule(f"{pid}.point-to-point", PTP_TITLE, citation, certainty, PTP_SUMMARY),
+                                 _ptp_effect(relaxed, no_effect))
+
+
+def _us_ptp(pid: str, region: str, relaxed: Callable[[float], GainReduction] | None) -> RuleCheck:
+    if region == "CA":
+        return _ptp_rule(pid, "RSS-247 (point-to-point provisions not encoded)", FROM_MEMORY, None,
+                         PTP_NO_EFFECT["CA"])
+    paragraph = {power.point_to_point_2400: "(c)(1)(i), (iii)", power.point_to_point_5800: "(c)(1)(ii), (iii)",
+                 None: "(c)(1)"}[relaxed]
+    return _ptp_rule(pid, f"47 CFR 15.247{paragraph}", SEEN_QUOTED, relaxed, PTP_NO_EFFECT["us-915"])
+
+
+def _us_gain(region: str, relaxed: Callable[[float], GainReduction] | None):
+    """Canada: the US relaxation is not assumed (RSS-247's own provisions not checked)."""
+    return _gain_reduction(None if region == "CA" else relaxed)
 
 
 def _us_915(pid: str, region: str, certainty_note: str = "") -> list[RuleCheck]:
@@ -123,15 +193,17 @@ def _us_915(pid: str, region: str, certainty_note: str = "") -> list[RuleCheck]:
                                     cite("47 CFR 15.247(b)(2), (b)(4)", "RSS-247 (as 47 CFR 15.247(b)(2))"),
                                     c(SEEN_QUOTED),
                                     "1 W with at least 50 channels, 0.25 W with 25-49; above 6 dBi antenna gain "
-                                    "the limit falls dB for dB" + certainty_note), _us915_power_dbm),
+                                    "the limit falls dB for dB" + certainty_note), _us915_power,
+                               _us_gain(region, None)),
         _us_sequence(pid, region),
+        _us_ptp(pid, region, None),
     ]
 
 
-def _us2400_power_dbm(ctx: HopContext) -> float:
+def _us2400_power(ctx: HopContext) -> PowerLimit:
     sep = ctx.separation_hz
     non_overlapping = sep is None or sep >= ctx.system.bandwidth_hz * (1 - 1e-9)
-    return 30.0 if (ctx.count >= 75 and non_overlapping) else LOW_POWER_DBM  # 1 W / 0.125 W
+    return power.US_2400_75 if (ctx.count >= 75 and non_overlapping) else power.US_2400_OTHER  # 1 W / 0.125 W
 
 
 def _us_2400(pid: str, region: str) -> list[RuleCheck]:
@@ -142,15 +214,19 @@ def _us_2400(pid: str, region: str) -> list[RuleCheck]:
         _band_fit(pid),
         checks.channel_count(Rule(f"{pid}.channels", "Minimum number of hopping channels",
                                   f"{cite}(a)(1)(iii)", cert, "at least 15 channels" + suffix), lambda ctx: 15),
-        _us_separation(pid, region, two_thirds_below_dbm=LOW_POWER_DBM),
+        _us_separation(pid, region, two_thirds_up_to=power.US_2400_TWO_THIRDS),
         checks.occupancy(Rule(f"{pid}.occupancy", "Average time of occupancy", f"{cite}(a)(1)(iii)", cert,
                               "at most 0.4 s on any channel within 0.4 s x number of channels used" + suffix),
                          0.4, lambda ctx: 0.4 * ctx.count),
-        checks.conducted_power(Rule(f"{pid}.power", "Peak conducted output power", f"{cite}(b)(1), (b)(4)",
+        checks.conducted_power(Rule(f"{pid}.power", "Peak conducted output power",
+                                    f"{cite}(b)(1), (b)(4)" + ("" if region == "CA" else ", (c)(1)(i)"),
                                     FROM_MEMORY,
                                     "1 W with at least 75 non-overlapping channels, else 0.125 W; above 6 dBi "
-                                    "antenna gain the limit falls dB for dB" + suffix), _us2400_power_dbm),
+                                    "antenna gain the limit falls dB for dB, or 1 dB per 3 dB for fixed "
+                                    "point-to-point systems" + (suffix or " (seen quoted; check)")),
+                               _us2400_power, _us_gain(region, power.point_to_point_2400)),
         _us_sequence(pid, region),
+        _us_ptp(pid, region, power.point_to_point_2400),
     ]
 
 
@@ -166,18 +242,21 @@ def _us_5800(pid: str, region: str) -> list[RuleCheck]:
         _us_separation(pid, region),
         checks.occupancy(Rule(f"{pid}.occupancy", "Average time of occupancy", f"{cite}(a)(1)(ii)", FROM_MEMORY,
                               "at most 0.4 s on any channel within 30 s" + suffix), 0.4, lambda ctx: 30.0),
-        checks.conducted_power(Rule(f"{pid}.power", "Peak conducted output power", f"{cite}(b)(1), (b)(4)",
-                                    FROM_MEMORY, "1 W; above 6 dBi antenna gain the limit falls dB for dB" + suffix),
-                               lambda ctx: 30.0),
+        checks.conducted_power(Rule(f"{pid}.power", "Peak conducted output power",
+                                    f"{cite}(b)(1), (b)(4)" + ("" if region == "CA" else ", (c)(1)(ii)"),
+                                    FROM_MEMORY, "1 W; above 6 dBi antenna gain the limit falls dB for dB, except "
+                                    "for fixed point-to-point systems" + (suffix or " (seen quoted; check)")),
+                               lambda ctx: power.US_5800, _us_gain(region, power.point_to_point_5800)),
         _us_sequence(pid, region),
+        _us_ptp(pid, region, power.point_to_point_5800),
     ]
 
 
-def _ca915_eirp_dbm(ctx: HopContext) -> float | None:
+def _ca915_eirp(ctx: HopContext) -> PowerLimit | None:
     if ctx.count >= 50:
-        return 36.0  # 4 W
+        return power.CA_915_EIRP_50  # 4 W
     if ctx.count >= 25:
-        return 30.0  # 1 W
+        return power.CA_915_EIRP_25  # 1 W
     return None
 
 
@@ -213,8 +292,9 @@ def _en300328(pid: str, adaptive: bool) -> list[RuleCheck]:
             "hop separation at least the occupied bandwidth and at least 100 kHz"),
             lambda ctx: max(100 * KHZ, ctx.system.bandwidth_hz)),
         dwell_rule,
-        checks.eirp(Rule(f"{pid}.eirp", "Maximum e.i.r.p.", cite, PARTLY_SEEN, "at most 20 dBm e.i.r.p."),
-                    lambda ctx: 20.0),
+        checks.eirp(Rule(f"{pid}.eirp", "Maximum e.i.r.p.", cite, PARTLY_SEEN, "at most 20 dBm (100 mW) e.i.r.p."),
+                    lambda ctx: power.EU_2400_EIRP),
+        _ptp_rule(pid, cite, PARTLY_SEEN, None, PTP_NO_EFFECT["eu-2400"]),
     ]
     if not adaptive:
         out.append(checks.medium_utilisation(Rule(
@@ -227,29 +307,36 @@ def _en300328(pid: str, adaptive: bool) -> list[RuleCheck]:
 class SubBand:
     low_hz: float
     high_hz: float
-    max_erp_dbm: float
+    max_erp_w: float  # e.r.p. limit in watts, as Rec 70-03 states it
     max_duty_fraction: float | None  # None: no duty-cycle limit
     certainty: str
     name: str
 
+    @property
+    def max_erp_dbm(self) -> float:
+        """The e.r.p. limit in dBm, computed exactly from its watts (25 mW = 13.979 dBm)."""
+        return power.dbm_of_watts(self.max_erp_w)
+
 
 # CEPT ERC Rec 70-03 Annex 1 (non-specific short-range devices). ERP = EIRP - 2.15 dB.
 EU868_SUBBANDS = (
-    SubBand(863.0 * MHZ, 870.0 * MHZ, 10 * math.log10(25), 0.001, FROM_MEMORY, "863-870 MHz"),
-    SubBand(868.0 * MHZ, 868.6 * MHZ, 10 * math.log10(25), 0.01, PARTLY_SEEN, "868.0-868.6 MHz"),
-    SubBand(868.7 * MHZ, 869.2 * MHZ, 10 * math.log10(25), 0.001, FROM_MEMORY, "868.7-869.2 MHz"),
-    SubBand(869.4 * MHZ, 869.65 * MHZ, 10 * math.log10(500), 0.10, PARTLY_SEEN, "869.4-869.65 MHz"),
-    SubBand(869.7 * MHZ, 870.0 * MHZ, 10 * math.log10(5), None, FROM_MEMORY, "869.7-870.0 MHz"),
+    SubBand(863.0 * MHZ, 870.0 * MHZ, 0.025, 0.001, FROM_MEMORY, "863-870 MHz"),
+    SubBand(868.0 * MHZ, 868.6 * MHZ, 0.025, 0.01, PARTLY_SEEN, "868.0-868.6 MHz"),
+    SubBand(868.7 * MHZ, 869.2 * MHZ, 0.025, 0.001, FROM_MEMORY, "868.7-869.2 MHz"),
+    SubBand(869.4 * MHZ, 869.65 * MHZ, 0.5, 0.10, PARTLY_SEEN, "869.4-869.65 MHz"),
+    SubBand(869.7 * MHZ, 870.0 * MHZ, 0.005, None, FROM_MEMORY, "869.7-870.0 MHz"),
 )
+#: e.r.p. = e.i.r.p. - 2.15 dB: the gain of a half-wave dipole over an isotropic antenna (ERC Rec 70-03).
+DIPOLE_GAIN_DBI = 2.15
 
 
 def _erp_dbm(ctx: HopContext) -> float:
-    return ctx.system.eirp_dbm - 2.15  # e.r.p. = e.i.r.p. - 2.15 dB (half-wave dipole gain)
+    return ctx.system.eirp_dbm - DIPOLE_GAIN_DBI
 
 
 def _meets(band: SubBand, ctx: HopContext) -> bool:
     duty_ok = band.max_duty_fraction is None or ctx.duty_fraction <= band.max_duty_fraction + 1e-12
-    return duty_ok and _erp_dbm(ctx) <= band.max_erp_dbm + 1e-9
+    return duty_ok and power.within(_erp_dbm(ctx), band.max_erp_dbm)
 
 
 def eu868_subband(ctx: HopContext) -> SubBand | None:
@@ -272,9 +359,10 @@ def _eu868_power(rule: Rule) -> RuleCheck:
         erp = _erp_dbm(ctx)
         if band is None:
             return Finding(rule, FAIL, "hop set does not fit one sub-band encoded here", measured=erp, unit="dBm")
-        ok = erp <= band.max_erp_dbm + 1e-9
+        ok = power.within(erp, band.max_erp_dbm)
         return Finding(rule, PASS if ok else FAIL,
-                       f"{erp:.1f} dBm e.r.p. in {band.name} ({band.certainty}), at most {band.max_erp_dbm:.1f} dBm",
+                       power.comparison(erp, band.max_erp_dbm, "e.r.p.", f"{band.max_erp_w:g} W in {band.name}, "
+                                        f"{band.certainty}") + f"; e.r.p. is the e.i.r.p. less {DIPOLE_GAIN_DBI} dB",
                        measured=erp, limit=band.max_erp_dbm, unit="dBm")
 
     return RuleCheck(rule, check)
@@ -311,6 +399,7 @@ def _eu868(pid: str) -> list[RuleCheck]:
         checks.not_encoded(Rule(f"{pid}.fhss", "FHSS limits of EN 300 220-2", "ETSI EN 300 220-2 4.3.10",
                                 FROM_MEMORY, "the FHSS limits of EN 300 220-2 (4.3.10) were not checked against "
                                 "the standard and are deliberately not encoded; check them yourself")),
+        _ptp_rule(pid, cite, PARTLY_SEEN, None, PTP_NO_EFFECT["eu-868"]),
     ]
 
 
@@ -327,7 +416,7 @@ def _build() -> dict[str, Profile]:
         Profile("ca-915", "Canada 902-928 MHz FHSS (RSS-247)", "CA", Band(902 * MHZ, 928 * MHZ),
                 tuple(_us_915("ca-915", "CA", ca_note) + [checks.eirp(Rule(
                     "ca-915.eirp", "Maximum e.i.r.p.", "RSS-247", FROM_MEMORY,
-                    "4 W e.i.r.p. with at least 50 channels, 1 W with 25-49"), _ca915_eirp_dbm)]),
+                    "4 W e.i.r.p. with at least 50 channels, 1 W with 25-49"), _ca915_eirp)]),
                 coordination_caution=True),
         Profile("ca-2400", "Canada 2400-2483.5 MHz FHSS (RSS-247)", "CA", Band(2400 * MHZ, 2483.5 * MHZ),
                 tuple(_us_2400("ca-2400", "CA")), coordination_caution=True),

@@ -68,5 +68,7 @@ class HopContext:
 
 @dataclass(frozen=True)
 class RuleCheck:
+    """A rule and its test; the test returns None when the rule does not concern this system."""
+
     rule: Rule
-    check: Callable[[HopContext], Finding]
+    check: Callable[[HopContext], Finding | None]

@@ -164,6 +164,10 @@ class SystemSchema(StrictSchema):
     sequence = List(channel_index(), load_default=None, min_length=1, max_length=limits.MAX_SEQUENCE_HOPS,
                            metadata={"description": "The hop order its radios use (one period of channel "
                                                     "indices); the hop set is its channels."})
+    fixed_point_to_point = fields.Boolean(load_default=False, truthy={True}, falsy={False}, metadata={"description": (
+        "Used exclusively for fixed point-to-point links: 47 CFR 15.247(c)(1) then relaxes the antenna-gain "
+        "reduction (2400-2483.5 MHz: 1 dB per 3 dB above 6 dBi; 5725-5850 MHz: none); elsewhere a finding says "
+        "it changes nothing.")})
 
     @validates_schema
     def _consistent(self, data, **kwargs):
