@@ -79,16 +79,21 @@ def test_coordination_caution(pid):
 
 
 # Which rules each profile encodes, per the rule table.
+# Every regulated profile says what a fixed point-to-point declaration does ("point-to-point"); the finding
+# appears only for systems that make it (tests/regulatory/test_point_to_point.py).
+P2P = "point-to-point"
+
+
 @pytest.mark.parametrize("pid, expected", [
-    ("us-915", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence"}),
-    ("ca-915", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", "eirp"}),
-    ("us-2400", {"band-fit", "channels", "separation", "occupancy", "power", "sequence"}),
-    ("ca-2400", {"band-fit", "channels", "separation", "occupancy", "power", "sequence"}),
-    ("us-5800", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence"}),
-    ("ca-5800", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence"}),
-    ("eu-2400-nonadaptive", {"band-fit", "channels", "separation", "occupancy", "eirp", "medium-utilisation"}),
-    ("eu-2400-adaptive", {"band-fit", "channels", "separation", "occupancy", "eirp"}),
-    ("eu-868", {"band-fit", "erp", "duty-cycle", "fhss"}),
+    ("us-915", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", P2P}),
+    ("ca-915", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", "eirp", P2P}),
+    ("us-2400", {"band-fit", "channels", "separation", "occupancy", "power", "sequence", P2P}),
+    ("ca-2400", {"band-fit", "channels", "separation", "occupancy", "power", "sequence", P2P}),
+    ("us-5800", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", P2P}),
+    ("ca-5800", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", P2P}),
+    ("eu-2400-nonadaptive", {"band-fit", "channels", "separation", "occupancy", "eirp", "medium-utilisation", P2P}),
+    ("eu-2400-adaptive", {"band-fit", "channels", "separation", "occupancy", "eirp", P2P}),
+    ("eu-868", {"band-fit", "erp", "duty-cycle", "fhss", P2P}),
     ("custom", {"band-fit"}),
 ])
 def test_rule_sets(pid, expected):
@@ -102,6 +107,8 @@ def test_rule_sets(pid, expected):
     ("us-915", "power", "15.247(b)(2)"), ("us-915", "power", "(b)(4)"), ("us-915", "sequence", "15.247(a)(1)"),
     ("us-2400", "channels", "15.247(a)(1)(iii)"), ("us-2400", "occupancy", "15.247(a)(1)(iii)"),
     ("us-2400", "power", "15.247(b)(1)"), ("us-2400", "power", "(b)(4)"), ("us-5800", "power", "(b)(4)"),
+    ("us-2400", "power", "(c)(1)(i)"), ("us-5800", "power", "(c)(1)(ii)"),
+    ("us-915", P2P, "15.247(c)(1)"), ("us-2400", P2P, "15.247(c)(1)(i)"), ("us-5800", P2P, "15.247(c)(1)(ii)"),
 ])
 def test_us_citations(pid, suffix, paragraph):
     assert paragraph in rule(pid, suffix).citation
@@ -116,6 +123,8 @@ def test_us_citations(pid, suffix, paragraph):
     ("us-2400", "separation", "published"), ("us-2400", "power", "from memory"),
     ("us-5800", "channels", "from memory"), ("us-5800", "bandwidth", "from memory"),
     ("us-5800", "occupancy", "from memory"), ("us-5800", "power", "from memory"),
+    # 15.247(c)(1) fixed point-to-point [mem, seen quoted; check]
+    ("us-915", P2P, "seen quoted"), ("us-2400", P2P, "seen quoted"), ("us-5800", P2P, "seen quoted"),
 ])
 def test_us_certainties(pid, suffix, certainty):
     assert rule(pid, suffix).certainty == certainty
