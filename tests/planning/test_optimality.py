@@ -148,14 +148,14 @@ def test_scale_excess_is_the_exact_upward_rounding():
 
 
 def _random_tiny(seed: int, objective: str):
-    """Three systems, 8 channel uses on six channels (overlaps forced), random couplings, weights and
+    """Three systems, 7 channel uses on five channels (overlaps forced), random couplings, weights and
     activities: costs that do not scale to integers."""
     rng = random.Random(300 + seed)
     losses = {(i, j): rng.choice([40.0, 50.0, 60.0]) for i in range(3) for j in range(i + 1, 3)}
-    body = tiny_site(3, 6, losses)
+    body = tiny_site(3, 5, losses)
     for s in body["systems"]:
         s["priority_weight"], s["activity_fraction"] = rng.uniform(0.5, 3.0), rng.uniform(0.2, 1.0)
-    return instance(body, [3, 3, 2], objective=objective)
+    return instance(body, [3, 2, 2], objective=objective)
 
 
 def _cp_sat_bound(inst, factor: float):

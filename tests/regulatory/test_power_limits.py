@@ -161,3 +161,20 @@ def test_medium_utilisation_boundary_in_milliwatts(ratio, expected):
                     dwell_s=0.005, packet_airtime_s=0.005)  # 50 mW at 20 %: 10 %
     f = run("eu-2400-nonadaptive", s, centres(*G2400, 15))["medium-utilisation"]
     assert f.status == expected, f.message
+
+
+# README's table of limits states every encoded limit with its watts and exact dBm (documentation matches code).
+def test_readme_table_states_every_encoded_limit():
+    from pathlib import Path
+
+    from cohop.regulatory import power
+    from cohop.regulatory.profiles import EU868_SUBBANDS
+
+    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text()
+    rows = [ln for ln in readme.splitlines() if ln.startswith("| ") and " | " in ln]
+    stated = [(w, c) for w, c in ((p.watts, p.citation) for p in vars(power).values()
+                                  if isinstance(p, power.PowerLimit) and p is not power.EU_MU_REFERENCE)]
+    stated += [(b.max_erp_w, "ERC Rec 70-03 Annex 1") for b in EU868_SUBBANDS]
+    for watts, citation in stated:
+        cells = f"| {watts:g} | {dbm(watts):.3f} | {citation} |"
+        assert any(cells in row for row in rows), cells
