@@ -248,6 +248,8 @@ class Ceilings:
         self.objective, self.scale = objective, scale
 
     def add(self, m, mv, inst, enforce) -> None:
+        if not np.isfinite(inst.ceilings).any():
+            return
         _, excess = rounding_excess(self.objective, mv, inst, self.scale)
         terms: dict[int, list] = {v: [] for v in range(inst.n_systems)}
         for (v, c), (_, own) in self.objective.costs.node.items():

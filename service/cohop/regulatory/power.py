@@ -20,7 +20,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from cohop.regulatory.rules import FROM_MEMORY, PARTLY_SEEN, SEEN_QUOTED
+from cohop.regulatory.rules import FROM_MEMORY, PARTLY_SEEN, PUBLISHED, SEEN_QUOTED
 
 #: Floating-point noise allowance when comparing a level with a limit, in dB (not a rounding allowance).
 TOLERANCE_DB = 1e-9
@@ -69,7 +69,7 @@ US_2400_OTHER = PowerLimit(0.125, "conducted", "47 CFR 15.247(b)(1)", FROM_MEMOR
 # 47 CFR 15.247(b)(1) [mem, seen quoted]: 5725-5850 MHz, 1 W.
 US_5800 = PowerLimit(1.0, "conducted", "47 CFR 15.247(b)(1)", FROM_MEMORY, "5725-5850 MHz")
 # 47 CFR 15.247(a)(1) [pub]: the 2/3-bandwidth separation at 2400-2483.5 MHz needs an output of at most 125 mW.
-US_2400_TWO_THIRDS = PowerLimit(0.125, "conducted", "47 CFR 15.247(a)(1)", "published",
+US_2400_TWO_THIRDS = PowerLimit(0.125, "conducted", "47 CFR 15.247(a)(1)", PUBLISHED,
                                 "2400-2483.5 MHz separation of 2/3 of the 20 dB bandwidth")
 # RSS-247 [mem]: 902-928 MHz e.i.r.p. caps, 4 W with at least 50 channels, 1 W with 25-49.
 CA_915_EIRP_50 = PowerLimit(4.0, "e.i.r.p.", "RSS-247", FROM_MEMORY, "902-928 MHz, at least 50 channels")

@@ -140,14 +140,18 @@ def _ptp_effect(relaxed: Callable[[float], GainReduction] | None, no_effect: str
         gain = ctx.system.antenna_gain_dbi
         cut, plain = relaxed(gain).db, power.db_for_db(gain).db
         return True, (f"not checked: {PTP_OPERATOR}. On that declaration the conducted limit is lowered "
-                      f"{cut:.3f} dB for the {gain:.3f} dBi antenna, instead of {plain:.3f} dB (dB for dB, 15.247(b)(4))")
+                      f"{cut:.3f} dB for the {gain:.3f} dBi antenna, instead of {plain:.3f} dB "
+                      "(dB for dB, 15.247(b)(4))")
 
     return effect
 
 
 def _ptp_rule(pid: str, citation: str, certainty: str, relaxed: Callable[[float], GainReduction] | None,
-              no_effect: str = "") -> RuleCheck:
-    return checks.point_to_point(Rule(f"{pid}.point-to-point", PTP_TITLE, citation, certainty, PTP_SUMMARY),
+              no_effect: str, summary: str = "") -> RuleCheck:
+    """The finding of a fixed point-to-point declaration (none for other systems); `summary` defaults to
+    saying the declaration changes nothing here, and why."""
+    summary = summary or f"a fixed point-to-point declaration changes nothing here: {no_effect}"
+    return checks.point_to_point(Rule(f"{pid}.point-to-point", PTP_TITLE, citation, certainty, summary),
                                  _ptp_effect(relaxed, no_effect))
 
 
@@ -157,7 +161,7 @@ def _us_ptp(pid: str, region: str, relaxed: Callable[[float], GainReduction] | N
                          PTP_NO_EFFECT["CA"])
     paragraph = {power.point_to_point_2400: "(c)(1)(i), (iii)", power.point_to_point_5800: "(c)(1)(ii), (iii)",
                  None: "(c)(1)"}[relaxed]
-    return _ptp_rule(pid, f"47 CFR 15.247{paragraph}", SEEN_QUOTED, relaxed, PTP_NO_EFFECT["us-915"])
+    return _ptp_rule(pid, f"47 CFR 15.247{paragraph}", SEEN_QUOTED, relaxed, PTP_NO_EFFECT["us-915"], PTP_SUMMARY)
 
 
 def _us_gain(region: str, relaxed: Callable[[float], GainReduction] | None):
