@@ -258,8 +258,9 @@ def _coupling_references(coupling: Coupling, ids: set[str]) -> list[Problem]:
 def _link_distances(systems, coupling: Coupling) -> list[Problem]:
     if coupling.propagation is not None:
         return []
-    return [(("systems", i, "link_distance_m"), "A link distance needs coupling.propagation to compute the wanted "
-                                                "signal.") for i, s in enumerate(systems) if s.link_distance_m is not None]
+    message = "A link distance needs coupling.propagation to compute the wanted signal."
+    return [(("systems", i, "link_distance_m"), message)
+            for i, s in enumerate(systems) if s.link_distance_m is not None]
 
 
 def _interferer_references(interferers, ids: set[str]) -> list[Problem]:

@@ -16,6 +16,7 @@ import numpy as np
 from cohop.assess import Assessment, SystemFigures
 from cohop.cautions import MODEL_ASSUMPTIONS, cautions_for
 from cohop.errors import SiteError
+from cohop.jobs.sequence_answers import SequencesAnswer
 from cohop.montecarlo import SimulatedRate, SiteSimulation
 from cohop.prepare import PreparedSite, prepare_site
 from cohop.regulatory.profiles import Profile
@@ -101,7 +102,7 @@ class AssessmentAnswer:
     cautions: tuple[str, ...]
     systems: tuple[SystemResult, ...]
     simulation: SimulationCheck | None = None
-    sequences: object | None = None  # cohop.jobs.sequence_answers.SequencesAnswer
+    sequences: SequencesAnswer | None = None  # the request's own sequences, when it gives any
     assumptions: tuple[str, ...] = MODEL_ASSUMPTIONS
 
 

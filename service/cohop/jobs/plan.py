@@ -6,6 +6,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Callable
 
+from cohop.assess import SystemFigures
 from cohop.errors import Conflict, PlanInfeasible
 from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, assessment_answer, coordination_caution,
                                 planned_systems, prepared)
@@ -15,7 +16,6 @@ from cohop.planning.deadline import Deadline
 from cohop.planning.engine import NO_PLAN, BaselineResult, PlanResult, SolveSettings, plan_site
 from cohop.planning.requirements import Progress
 from cohop.planning.validate import Violation
-from cohop.assess import SystemFigures
 
 
 @dataclass(frozen=True)

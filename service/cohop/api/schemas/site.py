@@ -153,7 +153,8 @@ class PropagationSchema(StrictSchema):
     reference_loss_db = Number(limits.REFERENCE_LOSS_DB,
                                metadata={"description": "log_distance: loss at the reference distance "
                                                         "(default: free-space loss there)."})
-    reference_distance_m = Number(limits.REFERENCE_DISTANCE_M, load_default=default(Propagation, "reference_distance_m"))
+    reference_distance_m = Number(limits.REFERENCE_DISTANCE_M,
+                                  load_default=default(Propagation, "reference_distance_m"))
     environment = Text(validate=validate.OneOf(P1238_ENVIRONMENTS), metadata={"description": "p1238 table row."})
     power_loss_coefficient = Number(limits.POWER_LOSS_COEFFICIENT,
                                     metadata={"description": "p1238: N, overriding the table."})
@@ -235,10 +236,13 @@ class SurveySchema(StrictSchema):
     detector = Text(load_default=default(Survey, "detector"), validate=validate.OneOf(DETECTORS))
     occupancy_fraction = List(Number(limits.FRACTION), load_default=None, max_length=limits.MAX_SURVEY_POINTS,
                                      metadata={"description": "Share of sweeps above threshold, per point"})
-    detection_margin_db = Number(limits.DETECTION_MARGIN_DB, load_default=default(Survey, "detection_margin_db"), metadata={
-        "description": "A channel counts as occupied this far above the trace's own floor (its median)"})
-    noise_bandwidth_factor = Number(limits.NOISE_BANDWIDTH_FACTOR, load_default=default(Survey, "noise_bandwidth_factor"), metadata={
-        "description": "Equivalent noise bandwidth of the resolution filter, as a multiple of it"})
+    detection_margin_db = Number(limits.DETECTION_MARGIN_DB, load_default=default(Survey, "detection_margin_db"),
+                                 metadata={"description": "A channel counts as occupied this far above the "
+                                                          "trace's own floor (its median)"})
+    noise_bandwidth_factor = Number(limits.NOISE_BANDWIDTH_FACTOR,
+                                    load_default=default(Survey, "noise_bandwidth_factor"),
+                                    metadata={"description": "Equivalent noise bandwidth of the resolution filter, "
+                                                             "as a multiple of it"})
 
     @validates_schema
     def _rules(self, data, **kwargs):
