@@ -19,7 +19,9 @@ order (a later kind may assume the earlier ones hold):
 
 Field types and ranges are not checked here: they are the request schemas'
 job. `load_site` (for tests, benchmarks and tools without the HTTP layer)
-trusts them and runs every rule above.
+trusts them, runs the object rules, builds the Site (`cohop.site_form`) and
+runs the site rules and completeness on it; `SiteSchema` does the same after
+its field checks.
 """
 
 from __future__ import annotations
