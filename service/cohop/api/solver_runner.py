@@ -1,6 +1,6 @@
 """Running plan and re-plan solves for the views: slots, the deadline, isolation, metrics, errors.
 
-`plan_answer` and `replan_answer` run the job and dump its answer with the
+`dumped_plan` and `dumped_replan` run the job and dump its answer with the
 response schema, returning plain JSON data: module-level functions of plain,
 picklable arguments (the request dataclasses), so they run the same in-process
 (tests, command line) or in a solver process (`cohop.isolation`, production).
@@ -60,12 +60,12 @@ def solve_settings(config) -> SolveSettings:
                          max_products=config["COHOP_MAX_PRODUCTS"], deterministic=config["COHOP_DETERMINISTIC"])
 
 
-def plan_answer(deadline: Deadline, req: PlanRequest, settings: SolveSettings, progress=None) -> dict:
+def dumped_plan(deadline: Deadline, req: PlanRequest, settings: SolveSettings, progress=None) -> dict:
     """The plan job's answer, dumped by its response schema."""
     return PlanResponseSchema().dump(run_plan(req, settings, progress, deadline))
 
 
-def replan_answer(deadline: Deadline, req: ReplanRequest, settings: SolveSettings) -> dict:
+def dumped_replan(deadline: Deadline, req: ReplanRequest, settings: SolveSettings) -> dict:
     """The re-plan job's answer, dumped by its response schema."""
     return ReplanResponseSchema().dump(run_replan(req, settings, deadline))
 

@@ -25,4 +25,4 @@ class Plans(MethodView):
         args = (req, solver_runner.solve_settings(config))
         if not config["COHOP_ISOLATE_SOLVES"]:
             args += (config.get("COHOP_PROGRESS_HOOK"),)
-        return solver_runner.run("plan", solver_runner.plan_answer, req.requirements.time_limit_s, *args)
+        return solver_runner.run("plan", solver_runner.dumped_plan, req.requirements.time_limit_s, *args)

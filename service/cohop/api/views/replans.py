@@ -22,4 +22,4 @@ class Replans(MethodView):
     def post(self, req: ReplanRequest):
         """Re-plan from the current plan: fewest changes within a tolerance, or best plan within a budget."""
         settings = solver_runner.solve_settings(current_app.config)
-        return solver_runner.run("replan", solver_runner.replan_answer, req.requirements.time_limit_s, req, settings)
+        return solver_runner.run("replan", solver_runner.dumped_replan, req.requirements.time_limit_s, req, settings)
