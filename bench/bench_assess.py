@@ -11,21 +11,22 @@ import _common  # noqa: F401  (sets sys.path)
 from _common import machine, median_time
 
 from bench import sitegen
-from cohop.api.present import assessment_dict
-from cohop.api.schemas.site import SiteSchema
+from cohop.api.schemas.assessment import AssessmentResponseSchema
 from cohop.assess import assess_site
+from cohop.jobs.answers import assessment_answer
 from cohop.prepare import prepare_site
+from cohop.site_rules import load_site
 from tests import recompute
 
 
 def main() -> None:
     print(f"machine: {machine()}")
     for size in ("medium", "large"):
-        site = SiteSchema().load(sitegen.generate(size, seed=1))
+        site = load_site(sitegen.generate(size, seed=1))
         prep = prepare_site(site)
         t_prepare = median_time(lambda: prepare_site(site), 5)
         t_assess = median_time(lambda: assess_site(prep, detail="channel"), 7)
-        response = assessment_dict(assess_site(prep, detail="channel"))
+        response = AssessmentResponseSchema().dump(assessment_answer(assess_site(prep, detail="channel"), False))
         t_reference = median_time(lambda: recompute.check_assessment(response), 1)
         n_sys, n_ch = len(site.systems), site.grid.count
         print(f"{size:6s} {n_sys} systems x {n_ch} channels: prepare {t_prepare * 1e3:.1f} ms + evaluate "

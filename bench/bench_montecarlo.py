@@ -19,7 +19,7 @@ from _common import machine
 import numpy as np
 
 from bench import sitegen
-from cohop.api.schemas.site import SiteSchema
+from cohop.site_rules import load_site
 from cohop.assess import resolve_hop_sets
 from cohop.montecarlo import simulate_site
 from cohop.prepare import prepare_site
@@ -51,7 +51,7 @@ def main() -> None:
     if hasattr(os, "sched_setaffinity"):
         os.sched_setaffinity(0, {sorted(os.sched_getaffinity(0))[0]})  # one core
     print(f"machine: {machine()}; pinned to one core")
-    site = SiteSchema().load(sitegen.scaled(20, 260, seed=2, per_system=50))
+    site = load_site(sitegen.scaled(20, 260, seed=2, per_system=50))
     prep = prepare_site(site)
     sets, _ = resolve_hop_sets(prep)
     trials = 500_000

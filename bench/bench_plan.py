@@ -38,10 +38,10 @@ def _run_one(kind: str, arg: str, seed: int, limit: float) -> dict:
     import numpy as np
 
     from bench import sitegen
-    from cohop.api.schemas.site import SiteSchema
-    from cohop.planning.requirements import BASELINES, PlanRequirements
     from cohop.planning.engine import SolveSettings, plan_site
+    from cohop.planning.requirements import BASELINES, PlanRequirements
     from cohop.prepare import prepare_site
+    from cohop.site_rules import load_site
 
     if kind == "size":
         body = sitegen.generate(arg, seed=seed, with_hop_sets=False)
@@ -54,7 +54,7 @@ def _run_one(kind: str, arg: str, seed: int, limit: float) -> dict:
         per = max(1, n_ch // 5)
         for s in body["systems"]:
             s.pop("hop_set", None)
-    site = SiteSchema().load(body)
+    site = load_site(body)
     req = PlanRequirements(systems=_requirements(body, per), time_limit_s=limit, seed=seed,
                            baselines=BASELINES if kind == "size" else ())
     t = time.perf_counter()

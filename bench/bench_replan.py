@@ -14,7 +14,7 @@ import _common  # noqa: F401
 from _common import machine
 
 from bench import sitegen
-from cohop.api.schemas.site import SiteSchema
+from cohop.site_rules import load_site
 from cohop.planning.replan import CurrentSystem, ReplanMode, replan_site
 from cohop.planning.requirements import PlanRequirements, SystemRequirement
 from cohop.planning.engine import SolveSettings, plan_site
@@ -35,14 +35,14 @@ def main() -> None:
         body = sitegen.generate("medium", seed=seed, with_hop_sets=False)
         req = PlanRequirements(systems=tuple(SystemRequirement(s["id"], min_channels=50, max_channels=50)
                                              for s in body["systems"]), time_limit_s=2.0, seed=seed)
-        site = SiteSchema().load(body)
+        site = load_site(body)
         plan = plan_site(prepare_site(site), req, settings)
         current = [CurrentSystem(s.id, tuple(h.tolist()), tuple(q.channels.tolist()))
                    for s, h, q in zip(site.systems, plan.hop_sets, plan.sequences.report.sequences)]
         for itf in NEW_INTERFERERS:
             changed = copy.deepcopy(body)
             changed["interferers"].append(itf)
-            prep = prepare_site(SiteSchema().load(changed))
+            prep = prepare_site(load_site(changed))
             t = time.perf_counter()
             r = replan_site(prep, req, current, ReplanMode("tolerance", 0.05), settings)
             wall = time.perf_counter() - t

@@ -14,7 +14,7 @@ from _common import machine, median_time
 import numpy as np
 
 from bench import sitegen
-from cohop.api.schemas.site import SiteSchema
+from cohop.site_rules import load_site
 from cohop.prepare import prepare_site
 from cohop.sequences.analysis import aligned_channel_hits, analyse
 from cohop.sequences.construct import build_sequences
@@ -36,7 +36,7 @@ def main() -> None:
     from cohop.sequences.theory import prime_at_least
 
     print(f"machine: {machine()}")
-    site = SiteSchema().load(sitegen.generate("large", seed=1))
+    site = load_site(sitegen.generate("large", seed=1))
     prep = prepare_site(site)
     hop_sets = [np.array(s.hop_set) for s in site.systems]
     t_build = median_time(lambda: build_sequences(prep, hop_sets, seed=1), 5)
@@ -70,7 +70,7 @@ def order_costs(packets: int = 20_000) -> None:
     from cohop.planning.requirements import PlanRequirements, SystemRequirement
     from cohop.sequences.report import common_pattern
 
-    site = SiteSchema().load(sitegen.generate("medium", seed=1))
+    site = load_site(sitegen.generate("medium", seed=1))
     prep = prepare_site(site)
     req = PlanRequirements(systems=tuple(SystemRequirement(s.id, min_channels=50, max_channels=50)
                                          for s in site.systems))

@@ -130,8 +130,9 @@ def phases() -> None:
 
     import numpy as np
 
-    from cohop.api.present import plan_dict
-    from cohop.api.schemas.plan import PlanRequestSchema, PlanResponseSchema
+    from cohop.api.schemas.plan import PlanResponseSchema
+    from cohop.jobs.plan import plan_answer
+    from cohop.jobs.requests import load_plan_request
     from cohop.assess import assess_site
     from cohop.planning import costs, cpsat, model, search
     from cohop.planning.instance import build_instance
@@ -152,9 +153,9 @@ def phases() -> None:
     for name in SITES:
         body = plan_body(name, 10.0)
         t = time.perf_counter()
-        data = PlanRequestSchema().load(copy.deepcopy(body))
-        prep = prepare_site(data["site"])
-        inst = build_instance(prep, data["requirements"])
+        req = load_plan_request(copy.deepcopy(body))
+        prep = prepare_site(req.site)
+        inst = build_instance(prep, req.requirements)
         x = search.improve(inst, search.greedy(inst))
         before = time.perf_counter() - t
         hop_sets = hop_sets_of(x)
@@ -172,9 +173,8 @@ def phases() -> None:
         lines.append(f"assessment {t_assess:.3f} / {costs.assessment_s(inst.n_systems, int(inst.sizes.sum())):.3f}")
         _, t_base = best(lambda: _baselines(inst, x))
         lines.append(f"baselines {t_base:.3f} / {costs.baselines_s(inst):.3f}")
-        result = plan_site(prep, data["requirements"], SolveSettings(), detail="channel")
-        answer = plan_dict(result, "channel")
-        _, t_answer = best(lambda: json.dumps(PlanResponseSchema().dump(pickle.loads(pickle.dumps(answer)))))
+        answer = plan_answer(plan_site(prep, req.requirements, SolveSettings(), detail="channel"))
+        _, t_answer = best(lambda: json.dumps(pickle.loads(pickle.dumps(PlanResponseSchema().dump(answer)))))
         est_answer = costs.ANSWER_PER_SYSTEM_CHANNEL_S * inst.n_systems * inst.n_channels
         lines.append(f"answer {t_answer:.3f} / {est_answer:.3f}")
         products = model.product_count(inst)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import copy
 
-from cohop.api.schemas.site import SiteSchema
+from cohop.site_rules import load_site
 
 # A Bluetooth-like receiver (from memory): co-channel SIR 11 dB, rejection 11/41/51 dB at 1/2/3 MHz.
 BT_REJECTION = [{"offset_hz": 1e6, "rejection_db": 11.0}, {"offset_hz": 2e6, "rejection_db": 41.0},
@@ -37,4 +37,4 @@ def site(systems: list[dict], coupling_loss_db: float | None = 60.0, interferers
 
 
 def load(body: dict):
-    return SiteSchema().load(body)
+    return load_site(body)

@@ -245,20 +245,27 @@ def assess_site(prep: PreparedSite, hop_sets: list | None = None, detail: str = 
 
     `sequences` (one hop order per system, or None) make slot-aligned figures exact and let the profile
     checks see the order; by default the request's own sequences are used when hop sets are too."""
-    if detail not in DETAIL_LEVELS:
-        raise ValueError(f"detail must be one of {DETAIL_LEVELS}")
-    sets, origin = resolve_hop_sets(prep, hop_sets, origin)
+    sets, origins = resolve_hop_sets(prep, hop_sets, origin)
     if sequences is None and hop_sets is None:
         sequences = site_sequences(prep)
+    return assess_hop_sets(prep, sets, origins, detail, sequences)
+
+
+def assess_hop_sets(prep: PreparedSite, sets: list[np.ndarray], origins: list[str], detail: str = "channel",
+                    sequences: list | None = None) -> Assessment:
+    """Evaluate every system on hop sets already resolved (`resolve_hop_sets`: sorted arrays, with where each
+    came from)."""
+    if detail not in DETAIL_LEVELS:
+        raise ValueError(f"detail must be one of {DETAIL_LEVELS}")
     prefix = channel_prefix_counts(prep, sets)
     sizes = np.array([s.size for s in sets])
-    figures = tuple(assess_system(prep, v, sets, origin[v], prefix, sizes, detail, sequences)
+    figures = tuple(assess_system(prep, v, sets, origins[v], prefix, sizes, detail, sequences)
                     for v in range(prep.n_systems))
     weights = np.array([s.priority_weight for s in prep.site.systems])
     rates = np.array([f.collision_probability for f in figures])
     worst = int(np.argmax(rates))
     notes = []
-    if any(o == "whole band" for o in origin):
+    if any(o == "whole band" for o in origins):
         notes.append("systems without a hop set were evaluated on every channel that fits their bandwidth")
     return Assessment(prepared=prep, systems=figures, detail=detail, weighted_collision=float(weights @ rates),
                       worst_collision=float(rates[worst]), worst_system=figures[worst].id, notes=tuple(notes))

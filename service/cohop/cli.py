@@ -99,7 +99,7 @@ def _load_request(args) -> dict:
 
 
 def _cmd_assess(args) -> int:
-    from cohop.render import assessment_table
+    from cohop.cli_text import assessment_table
 
     body = _load_request(args)
     simulation = body.get("simulation")
@@ -131,7 +131,7 @@ def _emit(args, raw: dict, table: str) -> int:
 
 
 def _cmd_plan(args) -> int:
-    from cohop.render import ProgressLine, plan_table
+    from cohop.cli_text import ProgressLine, plan_table
 
     body = _load_request(args)
     search = dict(body.get("search") or {})
@@ -173,7 +173,7 @@ def _current_from(path: str) -> dict:
 
 
 def _cmd_replan(args) -> int:
-    from cohop.render import replan_table
+    from cohop.cli_text import replan_table
 
     body = _load_request(args)
     current = _current_from(args.current) if args.current else body.get("current")
@@ -203,7 +203,7 @@ def _cmd_chart(args) -> int:
 
 
 def _cmd_profiles(args) -> int:
-    from cohop.render import profiles_table
+    from cohop.cli_text import profiles_table
 
     with _client(args) as api:
         profiles = api.profiles()

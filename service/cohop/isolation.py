@@ -45,7 +45,7 @@ from cohop.planning import deadline as deadlines
 
 log = logging.getLogger("cohop.solver")
 
-_PRELOAD = ["cohop.planning.engine", "cohop.planning.replan", "cohop.api.present"]
+_PRELOAD = ["cohop.api.solver_runner"]  # the jobs, the engine and the response schemas
 _lock = threading.Lock()
 _context = None
 #: How often the parent looks at the client's connection while the solve runs.

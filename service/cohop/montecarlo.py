@@ -216,9 +216,10 @@ def _simulate_system(prep: PreparedSite, v: int, hop_sets, trials: int, bitgen) 
 
 
 def simulate_site(prep: PreparedSite, trials_per_system: int, seed: int = 0,
-                  hop_sets: list | None = None) -> SiteSimulation:
-    """Simulate every system's per-hop collision probability."""
-    sets, _ = resolve_hop_sets(prep, hop_sets)
+                  hop_sets: list[np.ndarray] | None = None) -> SiteSimulation:
+    """Simulate every system's per-hop collision probability on `hop_sets`, resolved
+    (`cohop.assess.resolve_hop_sets`: sorted arrays); None: the site's own, resolved here."""
+    sets = hop_sets if hop_sets is not None else resolve_hop_sets(prep)[0]
     bitgen = np.random.SFC64(seed)
     systems = tuple(_simulate_system(prep, v, sets, trials_per_system, bitgen) for v in range(prep.n_systems))
     return SiteSimulation(seed=seed, trials_per_system=trials_per_system, systems=systems)

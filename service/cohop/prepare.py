@@ -19,6 +19,7 @@ from cohop.physics.rejection import OFFSET_TOLERANCE, harmful_bound_hz, window_c
 from cohop.regulatory import get_profile
 from cohop.regulatory.profiles import Profile
 from cohop.site import Band, Interferer, Position, Propagation, Site, System
+from cohop.site_rules import effective_band
 from cohop.stats.overlap import ALIGNED, OverlapCount, random_phase_overlap
 
 #: Float noise allowance when fitting channels into band edges [Hz].
@@ -72,15 +73,6 @@ class PreparedSite:
 
     def usable_channels(self, v: int) -> np.ndarray:
         return np.flatnonzero(self.usable[v])
-
-
-def effective_band(site: Site, profile: Profile) -> Band:
-    """The request's band if given (it must lie inside the profile's), else the profile's."""
-    if site.band is not None:
-        return site.band
-    if profile.band is None:
-        raise SiteError([("/band", f"profile {profile.id!r} has no band: give low_hz and high_hz")])
-    return profile.band
 
 
 def _usable(site: Site, band: Band, centres: np.ndarray) -> np.ndarray:
@@ -140,10 +132,7 @@ def _wanted_and_margin(site: Site, f_hz: float) -> tuple[np.ndarray, np.ndarray]
     for i, s in enumerate(site.systems):
         if s.wanted_signal_dbm is not None:
             w = s.wanted_signal_dbm
-        else:  # S = P_tx + G_tx + G_rx - L(link); same antennas at both ends
-            if prop is None:
-                raise SiteError([(f"/systems/{i}/link_distance_m",
-                                  "a link distance needs coupling.propagation to compute the wanted signal")])
+        else:  # S = P_tx + G_tx + G_rx - L(link); same antennas at both ends (a propagation model: site_rules)
             here = Position(0.0, 0.0)
             loss = _link_loss(prop, f_hz, here, Position(s.link_distance_m, 0.0), f"/systems/{i}")
             w = s.tx_power_dbm + 2 * s.antenna_gain_dbi - loss - prop.margin_db
@@ -165,23 +154,13 @@ def _coupling(site: Site, f_hz: float) -> tuple[np.ndarray, np.ndarray]:
         if not explicit[a, v] and np.isnan(loss[a, v]):
             loss[a, v] = e.loss_db
     prop = site.coupling.propagation
-    missing = []
     for a in range(n):
         for v in range(n):
             if a == v or not np.isnan(loss[a, v]):
-                continue
-            pa, pv = site.systems[a].position, site.systems[v].position
-            if prop is None or pa is None or pv is None:
-                missing.append((a, v))
-                continue
-            path = _link_loss(prop, f_hz, pa, pv, "/coupling/propagation")
+                continue  # the rest come from positions (every pair has one or the other: site_rules)
+            path = _link_loss(prop, f_hz, site.systems[a].position, site.systems[v].position, "/coupling/propagation")
             loss[a, v] = (path - site.systems[a].antenna_gain_dbi - site.systems[v].antenna_gain_dbi
                           - prop.margin_db)
-    if missing:
-        pairs = ", ".join(f"{site.systems[a].id}->{site.systems[v].id}" for a, v in missing[:10])
-        more = f" and {len(missing) - 10} more" if len(missing) > 10 else ""
-        raise SiteError([("/coupling", f"no coupling loss for {pairs}{more}: give an entry, or positions for "
-                                       "both systems and a propagation model")])
     explicit_any = explicit | explicit.T
     np.fill_diagonal(explicit_any, False)
     return loss, explicit_any
@@ -216,15 +195,12 @@ def _system_links(site: Site, wanted: np.ndarray, loss: np.ndarray):
     return tuple(links), window
 
 
-def _interferer_level(site: Site, k: int, itf: Interferer, v: int, f_hz: float) -> float:
+def _interferer_level(site: Site, itf: Interferer, v: int, f_hz: float) -> float:
     given = {lv.system: lv.level_dbm for lv in itf.levels}
     victim = site.systems[v]
     if victim.id in given:
         return given[victim.id]
-    prop = site.coupling.propagation
-    if itf.eirp_dbm is None or itf.position is None or victim.position is None or prop is None:
-        raise SiteError([(f"/interferers/{k}", f"no level for system {victim.id!r}: give levels, or eirp_dbm and "
-                                               "positions with a propagation model")])
+    prop = site.coupling.propagation  # given levels or eirp, positions and propagation: site_rules
     path = _link_loss(prop, f_hz, itf.position, victim.position, "/coupling/propagation")
     # the planning margin lowers the computed loss, as for coupling between systems
     return itf.eirp_dbm - (path - prop.margin_db) + victim.antenna_gain_dbi
@@ -235,7 +211,7 @@ def _interferer_links(site: Site, wanted: np.ndarray, centres: np.ndarray, f_hz:
     for v, victim in enumerate(site.systems):
         row = []
         for k, itf in enumerate(site.interferers):
-            total = _interferer_level(site, k, itf, v, f_hz)
+            total = _interferer_level(site, itf, v, f_hz)
             # share of a wideband emitter's power inside the victim's channel (flat spectrum)
             width = itf.width_hz
             share_db = 10 * math.log10(min(1.0, victim.bandwidth_hz / width)) if width > 0 else 0.0
@@ -260,10 +236,13 @@ def _span_range(centres: np.ndarray, low_hz: float, high_hz: float, bound_hz: fl
 
 
 def prepare_site(site: Site) -> PreparedSite:
+    """The arrays of a site that keeps every rule of `cohop.site_rules` (the request schemas and `load_site`
+    check them). SiteError only for what the physics tables lack (an ITU-R P.1238 coefficient) and for
+    surveys that yield too many interferers."""
     from cohop.surveys import with_survey_interferers
 
     profile = get_profile(site.profile)
-    band = effective_band(site, profile)
+    band = effective_band(site)
     grid = site.grid
     centres = grid.first_centre_hz + grid.spacing_hz * np.arange(grid.count)
     site, derived = with_survey_interferers(site, centres)

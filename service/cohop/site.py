@@ -1,6 +1,7 @@
 """A validated site description as frozen dataclasses.
 
-The request schemas (`cohop.api.schemas`) build these; the domain reads them.
+`cohop.site_rules.load_site` builds these from a request's plain dict (the request schemas
+(`cohop.api.schemas`) delegate to it); the domain reads them. Defaults are defined here once.
 Units are SI and are part of every field name. Nothing here computes physics.
 """
 
@@ -57,7 +58,6 @@ class Position:
 class System:
     id: str
     tx_power_dbm: float
-    antenna_gain_dbi: float
     bandwidth_hz: float
     dwell_s: float
     packet_airtime_s: float
@@ -65,6 +65,7 @@ class System:
     required_sir_db: float
     rejection: tuple[RejectionPoint, ...]
     retry_limit: int
+    antenna_gain_dbi: float = 0.0
     label: str = ""
     wanted_signal_dbm: float | None = None
     link_distance_m: float | None = None
@@ -97,7 +98,7 @@ class Propagation:
     model: str
     exponent: float | None = None
     reference_loss_db: float | None = None
-    reference_distance_m: float | None = None
+    reference_distance_m: float = 1.0
     environment: str | None = None
     power_loss_coefficient: float | None = None
     floor_loss_db: float | None = None

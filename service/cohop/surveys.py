@@ -23,7 +23,6 @@ are capped at `limits.MAX_DERIVED_INTERFERERS` (a 422 names the surveys).
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -31,7 +30,8 @@ import numpy as np
 from cohop import limits
 from cohop.errors import SiteError
 from cohop.physics.spectrum import channel_powers_mw, mw_to_dbm, shares_occupied
-from cohop.site import Interferer, InterfererLevel, Site, Survey, System
+from cohop.site import Interferer, InterfererLevel, Site, Survey
+from cohop.site_rules import stands_for
 
 #: Level of a survey-derived interferer at systems the survey does not apply to [dBm].
 ELSEWHERE_DBM = -250.0
@@ -73,20 +73,6 @@ def _runs(occupied: np.ndarray, levels: np.ndarray, activity: np.ndarray) -> lis
         if start is None and c < occupied.size and occupied[c]:
             start = c
     return out
-
-
-def distance_m(survey: Survey, system: System) -> float | None:
-    """Horizontal distance from a position survey to a system's receivers; None off its floor or unknown."""
-    if survey.position is None or system.position is None or system.position.floor != survey.position.floor:
-        return None
-    return math.hypot(system.position.x_m - survey.position.x_m, system.position.y_m - survey.position.y_m)
-
-
-def stands_for(survey: Survey, systems: tuple[System, ...]) -> tuple[str, ...]:
-    """The systems whose receivers the survey describes: those it names, or those within its radius."""
-    if survey.position is None:
-        return survey.applies_to
-    return tuple(s.id for s in systems if (d := distance_m(survey, s)) is not None and d <= survey.radius_m)
 
 
 def _occupied_runs(survey: Survey, centres_hz: np.ndarray, bandwidth_hz: float):

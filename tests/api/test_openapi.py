@@ -7,6 +7,8 @@ from openapi_schema_validator import OAS30Validator
 from openapi_spec_validator import validate
 
 from cohop.api.app import create_app
+from cohop.api.schemas.assessment import AssessmentResponseSchema
+from tests.answer_keys import missing_keys
 from tests.problems import PROBLEM_JSON
 
 from .conftest import SAMPLE_FILES, load_sample, post_assessment
@@ -173,6 +175,7 @@ def test_responses_match_documented_schema(client, detail):
     assert resp.status_code == 200
     errors = list(_schema_validator("#/components/schemas/AssessmentResponse").iter_errors(resp.get_json()))
     assert not errors, [e.message for e in errors[:5]]
+    assert missing_keys(AssessmentResponseSchema(), resp.get_json()) == []
 
 
 def test_problem_bodies_match_documented_schema(client):

@@ -12,7 +12,8 @@ from cohop import limits
 from cohop.api.app import create_app
 from cohop.api.schemas import fields as strict
 from cohop.api.schemas.assessment import AssessmentRequestSchema
-from cohop.api.schemas.plan import PlanRequestSchema, ReplanRequestSchema
+from cohop.api.schemas.plan import PlanRequestSchema
+from cohop.api.schemas.replan import ReplanRequestSchema
 
 README = Path(__file__).resolve().parents[2] / "README.md"
 REQUESTS = (AssessmentRequestSchema, PlanRequestSchema, ReplanRequestSchema)

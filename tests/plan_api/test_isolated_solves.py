@@ -64,8 +64,12 @@ def test_the_client_raises_no_feasible_plan_through_isolation(isolated):
 
 def test_a_site_error_in_the_solver_process_is_422_with_pointers(http):
     body = small_request()
-    body["site"]["coupling"]["entries"].pop()  # the last pair (c, d) has no coupling loss: found by prepare
-    problem = assert_problem(post_plan(http, body), 422, SITE)
-    assert [e["pointer"] for e in problem["errors"]] == ["/site/coupling"]
-    assert "c->d" in problem["errors"][0]["detail"]
+    site = body["site"]
+    site["coupling"]["entries"].pop()  # the last pair (c, d) from positions, with a model that has no N here:
+    site["coupling"]["propagation"] = {"model": "p1238", "environment": "office"}  # P.1238 has no 2.4 GHz row
+    for sid, x in (("c", 0.0), ("d", 30.0)):
+        next(s for s in site["systems"] if s["id"] == sid)["position"] = {"x_m": x, "y_m": 0.0}
+    problem = assert_problem(post_plan(http, body), 422, SITE)  # found by prepare, in the solver process
+    assert [e["pointer"] for e in problem["errors"]] == ["/site/coupling/propagation"]
+    assert "power_loss_coefficient" in problem["errors"][0]["detail"]
     assert problem["instance"] == PLANS

@@ -5,7 +5,9 @@ from __future__ import annotations
 import pytest
 
 from cohop.api.app import create_app
+from cohop.api.schemas.plan import PlanResponseSchema
 from tests import recompute
+from tests.answer_keys import missing_keys
 from tests.problems import set_at
 
 from .conftest import (BASELINE_NAMES, INFEASIBLE, INTERFERED_CHANNELS, INTERFERER_ID, INVALID, PLANS,
@@ -295,6 +297,7 @@ def test_plan_bodies_match_documented_schemas(spec, small_plan, client):
     for name, instance in (("PlanRequest", body), ("PlanResponse", answer)):
         errors = list(schema_validator(spec, name).iter_errors(instance))
         assert not errors, (name, [e.message for e in errors[:5]])
+    assert missing_keys(PlanResponseSchema(), answer) == []
     bad = small_request()
     requirement(bad, "a")["excluded_channels"] = list(range(25))
     problem = assert_problem(post_plan(client, bad), 422, INFEASIBLE)

@@ -66,7 +66,7 @@ def test_metrics_count_requests_latency_and_rejections():
 
 def test_busy_solver_answers_503_with_retry_after():
     app = create_app({"TESTING": True, "COHOP_MAX_CONCURRENT_SOLVES": 1})
-    from cohop.api.solving import slots
+    from cohop.api.solver_runner import slots
 
     held = slots(app)
     assert held.try_acquire()  # a solve is running

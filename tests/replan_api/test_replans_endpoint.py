@@ -5,6 +5,8 @@ from __future__ import annotations
 import pytest
 from openapi_schema_validator import OAS30Validator
 
+from cohop.api.schemas.replan import ReplanResponseSchema
+from tests.answer_keys import missing_keys
 from tests.problems import PROBLEM_JSON
 
 from .conftest import (INFEASIBLE, INVALID, PLANS, REPLANS, by_id, check_replan, current_from_plan,
@@ -22,6 +24,7 @@ def test_sample_replan_is_consistent(sample_replan, spec):
     check_replan(body, answer)
     assert answer["mode"] == {"kind": "tolerance", "tolerance": 0.05, "max_changes": None}
     assert not list(_validator(spec, "ReplanResponse").iter_errors(answer))
+    assert missing_keys(ReplanResponseSchema(), answer) == []
 
 
 def test_sample_replan_change_count_and_bound(sample_replan):

@@ -128,6 +128,7 @@ def _positioned(survey_at, radius=None, floors=(0, 0, 1)):
     body = _surveyed_site(wide)
     body["systems"] = [sites.system(sid, range(79), position={"x_m": x, "y_m": 0.0, "floor": fl})
                        for sid, x, fl in zip("abc", (0.0, 30.0, 5.0), floors)]
+    body["coupling"] = {"propagation": {"model": "free_space"}}  # a complete site (the survey needs none)
     survey = body["surveys"][0]
     del survey["applies_to"]
     survey["position"] = survey_at

@@ -107,7 +107,7 @@ def create_app(config: dict | None = None) -> flask.Flask:
     app.config["MAX_CONTENT_LENGTH"] = app.config["COHOP_MAX_BODY_BYTES"]  # Flask's name for the same cap
     app.json = problems.StrictJSONProvider(app)  # answers are strict JSON: no NaN or infinity
     app.json.sort_keys = False
-    from cohop.api import auth, body, logs, metrics, solving
+    from cohop.api import auth, body, logs, metrics, solver_runner
 
     logs.register(app)
     metrics.register(app)
@@ -115,7 +115,7 @@ def create_app(config: dict | None = None) -> flask.Flask:
     app.before_request(_require_json)
     body.register(app)  # the body is read once, capped, after the checks above and before any parsing
     api = CohopApi(app, spec_kwargs={"extra_plugins": [BearerSecurityPlugin(auth.OPEN_PATHS)]})
-    solving.register(app)
+    solver_runner.register(app)
     from cohop.api.views import assessments, meta, plans, profiles, replans
 
     for blp in (assessments.blp, plans.blp, replans.blp, profiles.blp, meta.blp):

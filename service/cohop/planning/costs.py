@@ -25,7 +25,7 @@ ASSESS_PER_SYSTEM_S = 8e-4
 ASSESS_PER_HELD_CHANNEL_S = 7e-6
 #: The greedy construction (when the greedy baseline cannot reuse the planner's start), per channel.
 GREEDY_PER_CHANNEL_S = 1e-4
-#: The answer (present, pickle from the solver process, schema dump, JSON): a fixed part, and per system
+#: The answer (the schema dump in the solver process, pickle, JSON): a fixed part, and per system
 #: and grid channel at channel detail (the large site's answer, 2 MB: about 0.35 s).
 ANSWER_BASE_S = 0.025
 ANSWER_PER_SYSTEM_CHANNEL_S = 7e-6

@@ -80,6 +80,7 @@ class SolverReport:
     rounding: float
     workers: int
     deterministic: bool
+    objective_kind: str  # the request's objective (`requirements.OBJECTIVES`)
     requested_time_limit_s: float = 0.0  # the request's limit (above time_limit_s when the server's cap clamped it)
     stopped_by_wall_clock: bool = False  # a phase was cut short by the wall clock: the plan may not repeat
     work: dict[str, float] = field(default_factory=dict)  # work done: kicks, CP-SAT deterministic time, pricing
@@ -385,7 +386,8 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
                           linearisation_error=objective_value(full, system_estimates(full, x)) - evaluated,
                           scale_factor=scale.factor,
                           rounding=scale.max_relative_rounding, workers=settings.solver_threads,
-                          deterministic=settings.deterministic, requested_time_limit_s=deadline.requested_s,
+                          deterministic=settings.deterministic, objective_kind=req.objective,
+                          requested_time_limit_s=deadline.requested_s,
                           stopped_by_wall_clock=deadline.stopped_by_wall_clock, work=dict(deadline.work_done),
                           binding=_binding(inst, x, estimates), notes=notes)
     return PlanResult(instance=inst, hop_sets=hop_sets, assessment=assessment, report=report,

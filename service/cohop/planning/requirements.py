@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from cohop.sequences.report import DEFAULT_PACKETS
+
 #: Default share of hops that fixed interferers may hit on a channel before the
 #: planner excludes that channel for that system.
 DEFAULT_INTERFERER_THRESHOLD = 0.05
@@ -36,7 +38,7 @@ class PlanRequirements:
     time_limit_s: float = 10.0
     seed: int = 0
     baselines: tuple[str, ...] = ()
-    sequence_packets: int = 5_000  # simulated packets per system for the sequence-driven retry figures
+    sequence_packets: int = DEFAULT_PACKETS  # simulated packets per system for the sequence-driven retry figures
 
     def for_system(self, system_id: str) -> SystemRequirement:
         for r in self.systems:

@@ -3,6 +3,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import marshmallow as ma
@@ -119,3 +120,11 @@ def _plain_numbers(inner, value: list) -> list | None:
 
 IDENTIFIER = validate.Regexp(r"^[A-Za-z0-9][A-Za-z0-9_.:-]{0,63}$",
                              error="Use 1-64 letters, digits or _ . : - (starting with a letter or digit).")
+
+
+def default(cls, name: str):
+    """The default of field `name` of dataclass `cls`: a request schema's load_default is defined there, once."""
+    f = next(f for f in dataclasses.fields(cls) if f.name == name)
+    if f.default is dataclasses.MISSING:
+        raise ValueError(f"{cls.__name__}.{name} has no plain default")
+    return f.default

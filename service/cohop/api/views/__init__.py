@@ -1,1 +1,1 @@
-"""HTTP views: parse, call one domain function, serialise."""
+"""HTTP views: parse the request, call one job, return its answer for the response schema to dump."""

@@ -37,7 +37,7 @@ class DrainingProblemSchema(ProblemSchema):
 
 
 def _slots() -> dict:
-    from cohop.api.solving import slots
+    from cohop.api.solver_runner import slots
 
     return {"solves_running": slots(current_app).active,
             "solve_slots": current_app.config["COHOP_MAX_CONCURRENT_SOLVES"]}

@@ -5,9 +5,10 @@ from __future__ import annotations
 from flask import current_app
 from flask.views import MethodView
 
-from cohop.api import solving
+from cohop.api import solver_runner
 from cohop.api.blueprint import Blueprint
 from cohop.api.schemas.plan import PlanRequestSchema, PlanResponseSchema
+from cohop.jobs.requests import PlanRequest
 
 blp = Blueprint("plans", __name__, url_prefix="/v1", description="Plan hop sets")
 
@@ -18,10 +19,10 @@ class Plans(MethodView):
     @blp.response(200, PlanResponseSchema)
     @blp.body_errors()
     @blp.solver_errors("plan")
-    def post(self, body):
+    def post(self, req: PlanRequest):
         """Plan each system's hop set; returns the plan, its full assessment and the solver report."""
         config = current_app.config
-        args = (body["site"], body["requirements"], solving.solve_settings(config), body["detail"])
+        args = (req, solver_runner.solve_settings(config))
         if not config["COHOP_ISOLATE_SOLVES"]:
             args += (config.get("COHOP_PROGRESS_HOOK"),)
-        return solving.run("plan", solving.plan_job, body["requirements"].time_limit_s, *args)
+        return solver_runner.run("plan", solver_runner.dumped_plan, req.requirements.time_limit_s, *args)

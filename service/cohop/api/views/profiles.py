@@ -7,13 +7,14 @@ from flask_smorest import abort
 from marshmallow import fields
 
 from cohop.api.blueprint import Blueprint
+from cohop.api.schemas.assessment import BandOutSchema
 from cohop.api.schemas.site import StrictSchema
 from cohop.regulatory import PROFILES
 
 blp = Blueprint("profiles", __name__, url_prefix="/v1", description="Regulatory profiles")
 
 
-class RuleSchema(StrictSchema):
+class RuleSchema(StrictSchema):  # cohop.regulatory.rules.Rule
     id = fields.String()
     title = fields.String()
     citation = fields.String()
@@ -21,19 +22,13 @@ class RuleSchema(StrictSchema):
     summary = fields.String()
 
 
-class ProfileSchema(StrictSchema):
+class ProfileSchema(StrictSchema):  # cohop.regulatory.profiles.Profile
     id = fields.String()
     name = fields.String()
     region = fields.String()
-    band = fields.Dict(allow_none=True, metadata={"description": "low_hz and high_hz; null: the request gives it"})
+    band = fields.Nested(BandOutSchema, allow_none=True, metadata={"description": "null: the request gives it"})
     coordination_caution = fields.Boolean()
     rules = fields.List(fields.Nested(RuleSchema))
-
-
-def _profile_dict(p) -> dict:
-    band = None if p.band is None else {"low_hz": p.band.low_hz, "high_hz": p.band.high_hz}
-    return {"id": p.id, "name": p.name, "region": p.region, "band": band,
-            "coordination_caution": p.coordination_caution, "rules": list(p.rules)}
 
 
 @blp.route("/profiles")
@@ -41,7 +36,7 @@ class Profiles(MethodView):
     @blp.response(200, ProfileSchema(many=True))
     def get(self):
         """List the regulatory profiles with every rule's citation and certainty."""
-        return [_profile_dict(p) for p in PROFILES.values()]
+        return list(PROFILES.values())
 
 
 @blp.route("/profiles/<profile_id>")
@@ -51,4 +46,4 @@ class OneProfile(MethodView):
         """One regulatory profile."""
         if profile_id not in PROFILES:
             abort(404, message=f"no profile {profile_id!r}")
-        return _profile_dict(PROFILES[profile_id])
+        return PROFILES[profile_id]

@@ -1,29 +1,16 @@
-"""The assessment use case: prepare, check request caps, evaluate, simulate."""
+"""The assessment job: prepare the site, resolve the hop sets once, check the request's work caps, evaluate,
+simulate, and answer."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 from cohop import limits
-from cohop.assess import assess_site, resolve_hop_sets
+from cohop.assess import assess_hop_sets, resolve_hop_sets, site_sequences
 from cohop.errors import SiteError
+from cohop.jobs.answers import AssessmentAnswer, assessment_answer, coordination_caution, prepared
+from cohop.jobs.requests import AssessmentRequest
+from cohop.jobs.sequence_answers import sequences_answer
 from cohop.montecarlo import simulate_site
-from cohop.prepare import prepare_site
 from cohop.sequences.report import DEFAULT_PACKETS, given_sequences
-from cohop.site import Site
-
-
-@dataclass(frozen=True)
-class SimulationRequest:
-    trials_per_system: int
-    seed: int = 0
-
-
-@dataclass(frozen=True)
-class AssessmentRequest:
-    site: Site
-    simulation: SimulationRequest | None = None
-    detail: str = "channel"
 
 
 def _check_caps(req: AssessmentRequest, hop_sets, max_simulated_attempts: int) -> None:
@@ -41,18 +28,20 @@ def _check_caps(req: AssessmentRequest, hop_sets, max_simulated_attempts: int) -
                                          f"cap of {limits.MAX_SOURCE_DETAIL_ENTRIES}; ask for detail 'channel'")])
 
 
-def run_assessment(req: AssessmentRequest, max_simulated_attempts: int):
-    """(assessment, simulation or None, sequence outcome or None)."""
+def run_assessment(req: AssessmentRequest, max_simulated_attempts: int) -> AssessmentAnswer:
+    """The figures of the request's hop sets (or the whole band where none is given), the Monte Carlo check
+    if asked for, and the figures of the request's own sequences if it gives any."""
+    prep = prepared(req.site)
     try:
-        prep = prepare_site(req.site)
-        hop_sets, _ = resolve_hop_sets(prep)
+        sets, origins = resolve_hop_sets(prep)
     except SiteError as err:
         raise err.under("/site") from None
-    _check_caps(req, hop_sets, max_simulated_attempts)
-    assessment = assess_site(prep, detail=req.detail)
+    _check_caps(req, sets, max_simulated_attempts)
+    assessment = assess_hop_sets(prep, sets, origins, req.detail, site_sequences(prep))
     simulation = None
     if req.simulation is not None:
-        simulation = simulate_site(prep, req.simulation.trials_per_system, req.simulation.seed)
+        simulation = simulate_site(prep, req.simulation.trials_per_system, req.simulation.seed, sets)
     seed = req.simulation.seed if req.simulation is not None else 0
-    sequences = given_sequences(prep, DEFAULT_PACKETS, seed)
-    return assessment, simulation, sequences
+    outcome = given_sequences(prep, DEFAULT_PACKETS, seed)
+    sequences = None if outcome is None else sequences_answer(outcome, assessment)
+    return assessment_answer(assessment, coordination_caution(prep.profile), simulation, sequences)

@@ -1,0 +1,143 @@
+"""What the jobs share: the site prepared for a request, the 15.247(h) caution policy, and the parts of
+their answers.
+
+An answer is a result object that carries every decision the response shows
+(which cautions, compliance status, what the simulation says of the analytic
+figure, ...) beside the domain results it is made of; the response schemas
+(`cohop.api.schemas`) dump it as it is, naming the attributes they read.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from cohop.assess import Assessment, SystemFigures
+from cohop.cautions import MODEL_ASSUMPTIONS, cautions_for
+from cohop.errors import SiteError
+from cohop.jobs.sequence_answers import SequencesAnswer
+from cohop.montecarlo import SimulatedRate, SiteSimulation
+from cohop.prepare import PreparedSite, prepare_site
+from cohop.regulatory.profiles import Profile
+from cohop.regulatory.rules import FAIL, PASS, WARNING, Finding
+from cohop.sequences.report import SequenceOutcome
+from cohop.site import Site, System
+
+#: The confidence of `SimulatedRate.interval` (its default z is the standard normal 97.5 % quantile).
+SIMULATION_CONFIDENCE = 0.95
+
+
+def prepared(site: Site) -> PreparedSite:
+    """The request's site prepared; its problems point into the request (under /site)."""
+    try:
+        return prepare_site(site)
+    except SiteError as err:
+        raise err.under("/site") from None
+
+
+def coordination_caution(profile: Profile, coordination: str | None = None,
+                         sequences: SequenceOutcome | None = None) -> bool:
+    """Whether an answer carries the 47 CFR 15.247(h) caution (`cohop.cautions.COORDINATION_CAUTION`).
+
+    Only on profiles that call for it; there, a plan or re-plan carries it when its hop sets were assigned
+    jointly (`coordination` "joint") or its sequences depend on slot alignment, and an assessment of the
+    request's own hop sets (`coordination` None: nothing assigned here) always does, since those may
+    themselves be a joint assignment."""
+    if not profile.coordination_caution:
+        return False
+    if coordination is None:
+        return True
+    return coordination == "joint" or (sequences is not None and sequences.depends_on_alignment)
+
+
+def compliance_status(findings) -> str:
+    """fail if any finding fails, else warning if any warns, else pass."""
+    statuses = {f.status for f in findings}
+    return FAIL if FAIL in statuses else WARNING if WARNING in statuses else PASS
+
+
+@dataclass(frozen=True)
+class Compliance:
+    profile: str
+    status: str
+    findings: tuple[Finding, ...]
+
+
+@dataclass(frozen=True)
+class SystemResult:
+    """One system's evaluated figures with the inputs the answer repeats beside them."""
+
+    figures: SystemFigures
+    system: System
+    compliance: Compliance
+
+
+@dataclass(frozen=True)
+class SimulatedFigure:
+    """A simulated rate beside the analytic figure it checks."""
+
+    id: str
+    rate: SimulatedRate
+    interval: tuple[float, float]
+    analytic_probability: float
+    within_interval: bool
+    by_source: tuple[SimulatedFigure, ...] = ()
+
+
+@dataclass(frozen=True)
+class SimulationCheck:
+    seed: int
+    trials_per_system: int
+    confidence: float
+    systems: tuple[SimulatedFigure, ...]
+
+
+@dataclass(frozen=True)
+class AssessmentAnswer:
+    """An assessment: the evaluated figures, the cautions and assumptions, and the optional Monte Carlo check
+    and sequence figures. `assessment.prepared` gives the profile, band and survey-derived interferers."""
+
+    assessment: Assessment
+    cautions: tuple[str, ...]
+    systems: tuple[SystemResult, ...]
+    simulation: SimulationCheck | None = None
+    sequences: SequencesAnswer | None = None  # the request's own sequences, when it gives any
+    assumptions: tuple[str, ...] = MODEL_ASSUMPTIONS
+
+
+def _simulated(sid: str, rate: SimulatedRate, analytic: float, by_source=()) -> SimulatedFigure:
+    lo, hi = rate.interval()
+    return SimulatedFigure(sid, rate, (lo, hi), analytic, lo <= analytic <= hi, tuple(by_source))
+
+
+def simulation_check(sim: SiteSimulation, assessment: Assessment) -> SimulationCheck:
+    systems = []
+    for s, f in zip(sim.systems, assessment.systems):
+        analytic = {src.source_id: src.collision_probability for src in f.sources}
+        by_source = [_simulated(sid, r, analytic[sid]) for sid, r in s.by_source.items()]
+        systems.append(_simulated(s.id, s.collision, f.collision_probability, by_source))
+    return SimulationCheck(sim.seed, sim.trials_per_system, SIMULATION_CONFIDENCE, tuple(systems))
+
+
+def assessment_answer(assessment: Assessment, caution: bool, simulation: SiteSimulation | None = None,
+                      sequences=None) -> AssessmentAnswer:
+    prep = assessment.prepared
+    systems = tuple(SystemResult(f, prep.site.systems[f.index],
+                                 Compliance(prep.profile.id, compliance_status(f.compliance), f.compliance))
+                    for f in assessment.systems)
+    return AssessmentAnswer(assessment=assessment, cautions=tuple(cautions_for(caution)), systems=systems,
+                            simulation=None if simulation is None else simulation_check(simulation, assessment),
+                            sequences=sequences)
+
+
+@dataclass(frozen=True)
+class PlannedSystem:
+    id: str
+    hop_set: tuple[int, ...]
+    centres_hz: tuple[float, ...]
+
+
+def planned_systems(prep: PreparedSite, hop_sets: list[np.ndarray]) -> tuple[PlannedSystem, ...]:
+    return tuple(PlannedSystem(s.id, tuple(int(c) for c in hs), tuple(float(prep.centres_hz[c]) for c in hs))
+                 for s, hs in zip(prep.site.systems, hop_sets))
