@@ -11,6 +11,7 @@ import marshmallow as ma
 import pytest
 
 from cohop.api.app import create_app
+from cohop.api.schemas.site import SiteSchema
 from cohop.site import System
 from tests import sites
 from tests.regulatory.findings import centres, run
@@ -93,9 +94,10 @@ def test_request_field_loads_and_defaults():
     body = sites.site([sites.system("a"), sites.system("b", fixed_point_to_point=True)])
     a, b = sites.load(body).systems
     assert (a.fixed_point_to_point, b.fixed_point_to_point) == (False, True)
-    with pytest.raises(ma.ValidationError) as err:
-        sites.load(sites.site([sites.system("a", fixed_point_to_point="yes")]))
-    assert "fixed_point_to_point" in str(err.value.messages)
+    for wrong in ("yes", 1, 0, None):  # JSON true/false only, through the request schema
+        with pytest.raises(ma.ValidationError) as err:
+            SiteSchema().load(sites.site([sites.system("a", fixed_point_to_point=wrong)]))
+        assert "fixed_point_to_point" in str(err.value.messages)
 
 
 # End to end: the assessment answer carries the point-to-point finding with its citation and certainty.

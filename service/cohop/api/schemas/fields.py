@@ -63,6 +63,15 @@ class Count(fields.Integer):
         return super()._deserialize(value, attr, data, **kwargs)
 
 
+class Flag(fields.Boolean):
+    """A JSON boolean: true or false only (not 1, 0 or strings)."""
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if not isinstance(value, bool):
+            raise ma.ValidationError("Must be a JSON boolean (true or false).")
+        return value
+
+
 class Text(fields.String):
     """A JSON string (numbers are not turned into strings)."""
 

@@ -13,7 +13,7 @@ import marshmallow as ma
 from marshmallow import fields, post_load, pre_load, validate, validates_schema
 
 from cohop import limits, site_rules
-from cohop.api.schemas.fields import IDENTIFIER, Count, List, Number, Text, default
+from cohop.api.schemas.fields import IDENTIFIER, Count, Flag, List, Number, Text, default
 from cohop.regulatory import PROFILES
 from cohop.site import Interferer, Position, Propagation, Site, Survey, System
 from cohop.site_form import site_from
@@ -141,7 +141,7 @@ class SystemSchema(StrictSchema):
     sequence = List(channel_index(), load_default=None, min_length=1, max_length=limits.MAX_SEQUENCE_HOPS,
                            metadata={"description": "The hop order its radios use (one period of channel "
                                                     "indices); the hop set is its channels."})
-    fixed_point_to_point = fields.Boolean(load_default=False, truthy={True}, falsy={False}, metadata={"description": (
+    fixed_point_to_point = Flag(load_default=False, metadata={"description": (
         "Used exclusively for fixed point-to-point links: 47 CFR 15.247(c)(1) then relaxes the antenna-gain "
         "reduction (2400-2483.5 MHz: 1 dB per 3 dB above 6 dBi; 5725-5850 MHz: none); elsewhere a finding says "
         "it changes nothing.")})
