@@ -33,7 +33,7 @@ def plain_python_orders(hop_sets, p_of) -> list[list[int]]:
 
 
 def main() -> None:
-    from cohop.sequences.theory import prime_at_least
+    from cohop.stats.hopping import prime_at_least
 
     print(f"machine: {machine()}")
     site = SiteSchema().load(sitegen.generate("large", seed=1))

@@ -7,6 +7,8 @@ from dataclasses import dataclass
 #: Default share of hops that fixed interferers may hit on a channel before the
 #: planner excludes that channel for that system.
 DEFAULT_INTERFERER_THRESHOLD = 0.05
+#: Default number of simulated packets per system for the sequence-driven retry figures.
+DEFAULT_SEQUENCE_PACKETS = 5_000
 
 OBJECTIVES = ("weighted_sum", "worst_system")
 COORDINATION = ("joint", "independent")
@@ -36,7 +38,7 @@ class PlanRequirements:
     time_limit_s: float = 10.0
     seed: int = 0
     baselines: tuple[str, ...] = ()
-    sequence_packets: int = 5_000  # simulated packets per system for the sequence-driven retry figures
+    sequence_packets: int = DEFAULT_SEQUENCE_PACKETS
 
     def for_system(self, system_id: str) -> SystemRequirement:
         for r in self.systems:

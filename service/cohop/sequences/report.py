@@ -7,15 +7,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from cohop.planning.requirements import DEFAULT_SEQUENCE_PACKETS
 from cohop.prepare import PreparedSite
-from cohop.sequences import theory
 from cohop.sequences.analysis import RUN_PHASES, SequenceReport, analyse
 from cohop.sequences.construct import GROUP_WORK_S, Sequence, build_sequences
 from cohop.sequences.simulate import RetryFigures, simulate_retries
+from cohop.stats import hopping
 
-#: Simulated packets per system for the sequence-driven retry figures (default, and the server's cap).
-DEFAULT_PACKETS = 5_000
-MAX_PACKETS = 1_000_000
+#: Simulated packets per system for the sequence-driven retry figures, unless the request says.
+DEFAULT_PACKETS = DEFAULT_SEQUENCE_PACKETS
 
 
 @dataclass
@@ -33,7 +33,7 @@ class SequenceOutcome:
 
 
 def delay_spread(prep: PreparedSite) -> float:
-    return prep.site.rms_delay_spread_s or theory.DEFAULT_RMS_DELAY_SPREAD_S
+    return prep.site.rms_delay_spread_s or hopping.DEFAULT_RMS_DELAY_SPREAD_S
 
 
 #: Simulated packets x systems^2 per run (the cost grows with both): large sites get fewer packets each.
@@ -110,9 +110,10 @@ def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: fl
                         notes=tuple(notes))
 
 
-def _retries(prep, orders, packets, seed, sigma, exact: bool = False) -> list[RetryFigures]:
+def _retries(prep, orders, packets, seed, sigma, reach, exact: bool = False) -> list[RetryFigures]:
+    """`reach`: which systems can hit which (`SequenceReport.reach`; every variant visits the same channels)."""
     n = packets if exact else packets_for(prep, packets)
-    return [simulate_retries(prep, orders, v, n, seed, sigma) for v in range(prep.n_systems)]
+    return [simulate_retries(prep, orders, v, n, seed, sigma, reach[v]) for v in range(prep.n_systems)]
 
 
 def common_pattern(orders: list[np.ndarray]) -> list[np.ndarray]:
@@ -140,9 +141,11 @@ def outcome(prep: PreparedSite, sequences: list[Sequence], notes: list[str], pac
     aligned = any(p.aligned and p.aligned_hit_rate is not None and p.aligned_hit_rate < p.unaligned_hit_rate
                   for p in report.pairs)
     n, exact = (work.packets, True) if work is not None else (packets, False)
-    return SequenceOutcome(report=report, delay_spread_s=sigma, retries=_retries(prep, orders, n, seed, sigma, exact),
-                           poor_order=_retries(prep, poor, n, seed, sigma, exact),
-                           common_pattern=_retries(prep, common_pattern(orders), n, seed, sigma, exact),
+    reach = report.reach
+    return SequenceOutcome(report=report, delay_spread_s=sigma,
+                           retries=_retries(prep, orders, n, seed, sigma, reach, exact),
+                           poor_order=_retries(prep, poor, n, seed, sigma, reach, exact),
+                           common_pattern=_retries(prep, common_pattern(orders), n, seed, sigma, reach, exact),
                            depends_on_alignment=aligned)
 
 

@@ -13,8 +13,8 @@ from cohop.api.schemas.problem import ProblemSchema
 from cohop.api.schemas.sequences import SequencesSchema
 from cohop.api.schemas.site import ErrorTree, SiteSchema, StrictSchema, channel_index
 from cohop.assess import DETAIL_LEVELS
-from cohop.planning.requirements import (BASELINES, COORDINATION, DEFAULT_INTERFERER_THRESHOLD, OBJECTIVES,
-                                         PlanRequirements, SystemRequirement)
+from cohop.planning.requirements import (BASELINES, COORDINATION, DEFAULT_INTERFERER_THRESHOLD,
+                                         DEFAULT_SEQUENCE_PACKETS, OBJECTIVES, PlanRequirements, SystemRequirement)
 
 class SystemRequirementSchema(StrictSchema):
     system = Text(required=True, validate=IDENTIFIER)
@@ -76,7 +76,7 @@ class SearchSchema(StrictSchema):
     time_limit_s = Number(limits.TIME_LIMIT_S, load_default=10.0,
                           metadata={"description": "Search budget; clamped by the server's cap."})
     seed = Count(limits.SEED, load_default=0)
-    sequence_packets = Count(limits.SEQUENCE_PACKETS, load_default=5_000,
+    sequence_packets = Count(limits.SEQUENCE_PACKETS, load_default=DEFAULT_SEQUENCE_PACKETS,
                              metadata={"description": "Simulated packets per system for the sequence-driven "
                                                       "retry figures"})
 
@@ -94,7 +94,8 @@ class PlanRequestSchema(StrictSchema):
     def _simulated_hops(self, data, **kwargs):
         errors = ErrorTree()
         search = data.get("search") or {}
-        bounds.check_simulated_hops(errors.add, data["site"].systems, search.get("sequence_packets", 5_000))
+        packets = search.get("sequence_packets", DEFAULT_SEQUENCE_PACKETS)
+        bounds.check_simulated_hops(errors.add, data["site"].systems, packets)
         errors.raise_if_any()
 
     @validates_schema
@@ -123,7 +124,8 @@ class PlanRequestSchema(StrictSchema):
             interferer_threshold=req.get("interferer_threshold", DEFAULT_INTERFERER_THRESHOLD),
             guard_excess_db=req.get("guard_excess_db"), coordination=req.get("coordination", "joint"),
             objective=req.get("objective", "weighted_sum"), time_limit_s=search.get("time_limit_s", 10.0),
-            seed=search.get("seed", 0), baselines=names, sequence_packets=search.get("sequence_packets", 5_000))
+            seed=search.get("seed", 0), baselines=names,
+            sequence_packets=search.get("sequence_packets", DEFAULT_SEQUENCE_PACKETS))
         return {"site": data["site"], "requirements": requirements, "detail": data["detail"]}
 
 
