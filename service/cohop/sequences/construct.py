@@ -152,6 +152,7 @@ class CommonRelabelling:
             self.chans.append([c for _, c in pairs])
             self.target.append(min(spacing, max(1, spacing_ceiling(hs))))
             self.cost.append(self._full_cost(m))
+        self.aim = list(self.target)  # what each member aimed at first (the repair may lower `target`)
 
     def _pen(self, m: int, c1: int, c2: int) -> int:  # the cost of one consecutive pair
         short = self.target[m] - abs(c1 - c2)
@@ -223,24 +224,25 @@ class CommonRelabelling:
                 steps += 1
         return steps, delta
 
-    def _try(self, u: int, other: int) -> tuple[bool, int]:
+    def _try(self, u: int, other: int, level: bool = False) -> tuple[int | None, int]:
         """Swap the labels of channels u and `other` (an index into the union), or give u the spare label
-        number -1 - other; keep the change if it lowers the cost. Returns (kept, steps)."""
+        number -1 - other; keep the change if it lowers the cost (or, with `level`, leaves it as it is).
+        Returns (the change of the cost if kept, else None; steps)."""
         if other >= 0:
             changes = [(u, self.label[other]), (other, self.label[u])]
             undo = [(u, self.label[u]), (other, self.label[other])]
         else:
             changes, undo = [(u, self.spare[-1 - other])], [(u, self.label[u])]
         steps, delta = self._relabel(changes)
-        if delta < 0:
+        if delta < 0 or (level and delta == 0):
             if other < 0:
                 self.spare[-1 - other] = undo[0][1]
                 del self.at_label[undo[0][1]]
-            return True, steps
+            return delta, steps
         steps += self._relabel(undo)[0]
         if other < 0:
             del self.at_label[changes[0][1]]
-        return False, steps
+        return None, steps
 
     def _lands_well(self, m: int, u: int, lab: int) -> bool:
         """Would channel u, given label `lab`, sit at least the target away from its new neighbours in member
@@ -270,16 +272,26 @@ class CommonRelabelling:
         """Lower the summed cost by label changes until it is zero, no change helps, or `work` runs out:
         take a member whose order has a pair too close, one such pair at random and one of its two hops,
         and try changes of that hop's label (RESPACE_TRIES, twice as many after each failure, up to every
-        channel and spare label); on the first round a change is tried in full only when the moved hops land
-        well (`_screen`), later any change that lowers the cost is taken."""
+        channel and spare label). On the first round a change is tried in full only when the moved hops land
+        well (`_screen`); later any change that lowers the cost is taken, and so are changes that leave it as
+        it is, as many as the component has channels between two that lower it (to cross level ground). A
+        member no change helps aims one channel lower (its spacing may be out of reach), so that the others
+        can still reach theirs."""
         n, spare, members = len(self.union), len(self.spare), len(self.chans)
         steps, fails, m = 0, [0] * members, 0
         most = n + spare - 1
+        rounds = 2 + max(0, math.ceil(math.log2(max(1, most) / RESPACE_TRIES)))  # the last with `most` tries
+        level = n
         while steps < work:
-            m = next((k % members for k in range(m, m + members)
-                      if self.cost[k % members] > 0 and RESPACE_TRIES << fails[k % members] <= 2 * most), None)
+            m = next((k % members for k in range(m, m + members) if self.cost[k % members] > 0), None)
             if m is None:
                 return
+            if fails[m] >= rounds:  # no change helps this member: aim one channel lower, as far as 1
+                self.target[m] -= 1
+                self.cost[m] = self._full_cost(m)
+                steps += len(self.chans[m])
+                fails, level = [0] * members, n
+                continue
             ch, times, target = self.chans[m], self.times[m], self.target[m]
             close = [i for i in range(len(ch)) if abs(ch[i - 1] - ch[i]) < target]
             steps += len(ch)
@@ -292,11 +304,14 @@ class CommonRelabelling:
                 steps += 1
                 if other == u or (not fails[m] and not self._screen(u, other)):
                     continue
-                kept, taken = self._try(u, other)
+                delta, taken = self._try(u, other, level=fails[m] > 0 and level > 0)
                 steps += taken
-                if kept:
+                if delta is not None:
                     moved = True
-                    fails = [0] * members
+                    if delta < 0:
+                        fails, level = [0] * members, n
+                    else:
+                        level -= 1
                     break
                 if steps >= work:
                     return
@@ -326,7 +341,7 @@ def _family_orders(prep: PreparedSite, hop_sets, members: list[int], seed: int, 
         measured = None if counted is None else int(counted.max())
         whole = union.size == p and all(hop_sets[v].size == p for v in comp)  # no deletion: [1] holds exactly
         one = len(comp) > 1 and (measured == 1 or (measured is None and whole))
-        short = [ids[v] for m, v in enumerate(comp) if orders[m].size > 1 and family.min_gap(m) < family.target[m]]
+        short = [ids[v] for m, v in enumerate(comp) if orders[m].size > 1 and family.min_gap(m) < family.aim[m]]
         if short:
             notes.append(f"{', '.join(short)}: consecutive hops closer than the {spacing}-channel spacing asked for "
                          "in places; the sequences keep one common relabelling of their family (relabelling each "

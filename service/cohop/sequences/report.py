@@ -11,7 +11,7 @@ from cohop.planning.requirements import DEFAULT_SEQUENCE_PACKETS
 from cohop.prepare import PreparedSite
 from cohop.sequences.analysis import RUN_PHASES, SequenceReport, analyse
 from cohop.sequences.construct import GROUP_WORK_S, Sequence, build_sequences
-from cohop.sequences.simulate import RetryFigures, simulate_retries
+from cohop.sequences.simulate import RetryFigures, simulate_all
 from cohop.stats import hopping
 
 #: Simulated packets per system for the sequence-driven retry figures, unless the request says.
@@ -113,7 +113,7 @@ def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: fl
 def _retries(prep, orders, packets, seed, sigma, reach, exact: bool = False) -> list[RetryFigures]:
     """`reach`: which systems can hit which (`SequenceReport.reach`; every variant visits the same channels)."""
     n = packets if exact else packets_for(prep, packets)
-    return [simulate_retries(prep, orders, v, n, seed, sigma, reach[v]) for v in range(prep.n_systems)]
+    return simulate_all(prep, orders, n, seed, sigma, reach)
 
 
 def common_pattern(orders: list[np.ndarray]) -> list[np.ndarray]:

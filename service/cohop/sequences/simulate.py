@@ -41,7 +41,7 @@ from cohop.prepare import PreparedSite
 from cohop.stats import hopping
 from cohop.stats.intervals import wilson_interval
 
-#: Elements (sources x packets x hops) per working array of the source draws.
+#: Cells (sources x packets x hops) per working array of the source draws.
 _CHUNK_ELEMENTS = 1 << 20
 #: Sources whose packets overlap more dwells than this are counted from running totals.
 _DRAWN_DWELLS = 8
@@ -79,48 +79,62 @@ def _fades(rng, channels_per_hop: np.ndarray, prep: PreparedSite, v: int, sigma_
     return np.abs(g) ** 2 < threshold
 
 
-def reachable(prep: PreparedSite, sequences, v: int) -> np.ndarray:
-    """(S,) bool: some channel of a's sequence lies inside v's harmful window of some channel of v's."""
-    mine = np.unique(np.asarray(sequences[v]))
-    out = np.zeros(prep.n_systems, dtype=bool)
-    for a in range(prep.n_systems):
-        w = int(prep.window[v, a])
-        if a == v or w < 0 or sequences[a] is None:
-            continue
-        theirs = np.unique(np.asarray(sequences[a]))
-        at = np.searchsorted(theirs, mine - w, side="left")
-        out[a] = bool(np.any((at < theirs.size) & (theirs[np.minimum(at, theirs.size - 1)] <= mine + w)))
-    return out
+@dataclass(frozen=True)
+class Orders:
+    """Every system's order, laid out once for a whole simulation run: one flat array holding each order
+    followed by its first _DRAWN_DWELLS + 1 hops again (so that a run of dwells from any start needs no
+    wrap), and the sorted keys a K + channel of the channels each system visits (K wider than any channel
+    plus two windows), which say at once which of v's channels a source can reach."""
+
+    sequences: tuple[np.ndarray, ...]
+    flat: np.ndarray
+    first: np.ndarray  # (S,) where each order starts in `flat`
+    size: np.ndarray  # (S,) its period in hops
+    keys: np.ndarray
+    span: int
+
+    @classmethod
+    def of(cls, prep: PreparedSite, sequences) -> "Orders":
+        seqs = tuple(np.asarray(q, dtype=np.int64) for q in sequences)
+        tiled = [np.resize(q, q.size + _DRAWN_DWELLS + 1) for q in seqs]
+        first = np.cumsum([0] + [t.size for t in tiled[:-1]])
+        span = 3 * prep.n_channels + 2
+        keys = np.unique(np.concatenate([a * span + q for a, q in enumerate(seqs)]))
+        return cls(seqs, np.concatenate(tiled), first, np.array([q.size for q in seqs]), keys, span)
+
+    def near(self, sources: np.ndarray, channels: np.ndarray, width: np.ndarray) -> np.ndarray:
+        """(A, D): does some channel of source sources[i] lie within width[i] of channels[d]?"""
+        base = sources[:, None] * self.span + channels[None, :]
+        w = np.maximum(width, 0)[:, None]
+        at = np.searchsorted(self.keys, base - w, side="left")
+        return (at < self.keys.size) & (self.keys[np.minimum(at, self.keys.size - 1)] <= base + w)
+
+    def reach(self, prep: PreparedSite, v: int) -> np.ndarray:
+        """(S,) bool: some channel of a's order lies inside v's harmful window of some channel of v's."""
+        others = np.array([a for a in range(prep.n_systems) if a != v], dtype=np.int64)
+        out = np.zeros(prep.n_systems, dtype=bool)
+        if others.size:
+            width = prep.window[v, others]
+            out[others] = (width >= 0) & self.near(others, np.unique(self.sequences[v]), width).any(axis=1)
+        return out
 
 
-def _dwell_range(t0, phase, dwell, airtime_v, airtime_a):
-    """First and last of a's dwells m whose burst [m D + phi, m D + phi + T_a) overlaps [t0, t0 + T_v)."""
-    lo = np.floor((t0 - phase - airtime_a) / dwell).astype(np.int64) + 1
-    hi = np.ceil((t0 + airtime_v - phase) / dwell).astype(np.int64) - 1
-    return lo, hi
-
-
-def _counts_drawn(seqs, sources, chan_v, lo, hi, width) -> np.ndarray:
-    """(A, n, hops): dwells of each source in [lo, hi] on a channel within `width` of v's, dwell by dwell."""
-    offsets = np.cumsum([0] + [seqs[a].size for a in sources[:-1]])
-    flat = np.concatenate([seqs[a] for a in sources]).astype(np.int64)
-    size = np.array([seqs[a].size for a in sources])[:, None, None]
-    first = offsets[:, None, None]
-    w = np.asarray(width)[:, None, None]
+def _counts_drawn(orders: Orders, source: np.ndarray, chan_v, lo, hi, width) -> np.ndarray:
+    """Dwells of each cell's source in [lo, hi] (at most _DRAWN_DWELLS + 1 of them) on a channel within its
+    `width` of `chan_v`, dwell by dwell, for flat arrays of cells."""
     span = hi - lo + 1
+    at = orders.first[source] + lo % orders.size[source]
     out = np.zeros(lo.shape, dtype=np.int64)
     for j in range(int(span.max(initial=0))):
-        chan_a = flat[first + (lo + j) % size]
-        out += (j < span) & (np.abs(chan_a - chan_v[None]) <= w)
+        out += (np.abs(orders.flat[at + j] - chan_v) <= width) & (span > j)
     return out
 
 
 def _counts_from_totals(seq_a: np.ndarray, chan_v: np.ndarray, lo, hi, width: int) -> np.ndarray:
-    """(n, hops): dwells m in [lo, hi] of a with |seq_a[m mod L] - chan_v| <= width, from running totals of
-    each of v's channels along a's period (whole periods, then the part before and after)."""
+    """Dwells m in [lo, hi] of a with |seq_a[m mod L] - chan_v| <= width (flat arrays of cells), from
+    running totals of each of v's channels along a's period: whole periods, then the part left."""
     size = seq_a.size
     channels, which = np.unique(chan_v, return_inverse=True)
-    which = which.reshape(chan_v.shape)
     count = np.maximum(hi - lo + 1, 0)
     begin = lo % size
     full, rest = count // size, count % size
@@ -140,36 +154,48 @@ def _counts_from_totals(seq_a: np.ndarray, chan_v: np.ndarray, lo, hi, width: in
     return out
 
 
-def _system_hits(rng, prep: PreparedSite, v: int, seqs: dict, sources: list[int], chan_v: np.ndarray,
-                 t0: np.ndarray) -> np.ndarray:
-    """(packets, hops): some source in `sources` hits v's hop. Each source keeps one random time offset
-    over its whole period for the packet (none when slot-aligned with v)."""
-    n, hops = chan_v.shape
-    lost = np.zeros((n, hops), dtype=bool)
+def _system_hits(rng, prep: PreparedSite, v: int, orders: Orders, sources: np.ndarray, hop: np.ndarray) -> np.ndarray:
+    """(packets, hops): some source in `sources` hits v's hop (`hop`: v's hop numbers). Each source keeps one
+    random time offset over its whole period for the packet (none when slot-aligned with v). Only the
+    (source, hop) cells whose channel has some channel of the source within its window are looked at."""
+    n, hops = hop.shape
+    cells = n * hops
+    chan_v = orders.sequences[v][hop % orders.size[v]].ravel()
+    distinct, which = np.unique(chan_v, return_inverse=True)
+    lost = np.zeros(cells, dtype=bool)
     systems = prep.site.systems
     sv = systems[v]
-    per_chunk = max(1, _CHUNK_ELEMENTS // max(1, n * hops))
-    for c in range(0, len(sources), per_chunk):
+    dwell_all = np.array([s.dwell_s for s in systems])
+    airtime_all = np.array([s.packet_airtime_s for s in systems])
+    aligned_all = np.array([link is not None and link.aligned for link in prep.links[v]])
+    per_chunk = max(1, _CHUNK_ELEMENTS // cells)
+    for c in range(0, sources.size, per_chunk):
         chunk = sources[c:c + per_chunk]
-        dwell = np.array([systems[a].dwell_s for a in chunk])[:, None, None]
-        airtime = np.array([systems[a].packet_airtime_s for a in chunk])[:, None, None]
-        period = np.array([seqs[a].size for a in chunk])[:, None, None] * dwell
-        aligned = np.array([prep.links[v][a].aligned for a in chunk])[:, None, None]
-        phase = np.where(aligned, 0.0, rng.random((len(chunk), n, 1)) * period)
-        lo, hi = _dwell_range(t0[None], phase, dwell, sv.packet_airtime_s, airtime)
-        width = prep.window[v, chunk]
-        many = np.array([math.ceil((sv.packet_airtime_s + systems[a].packet_airtime_s) / systems[a].dwell_s) + 1
-                         > _DRAWN_DWELLS for a in chunk])
-        counts = np.zeros(lo.shape, dtype=np.int64)
-        few = np.flatnonzero(~many)
-        if few.size:
-            counts[few] = _counts_drawn(seqs, [chunk[i] for i in few], chan_v, lo[few], hi[few], width[few])
-        for i in np.flatnonzero(many):
-            counts[i] = _counts_from_totals(seqs[chunk[i]], chan_v, lo[i], hi[i], int(width[i]))
-        # each exposed dwell transmits independently with a's activity: one draw per hop for all of them
-        quiet = (1.0 - prep.activity[chunk])[:, None, None] ** counts
-        lost |= (rng.random(counts.shape) < 1.0 - quiet).any(axis=0)
-    return lost
+        width, dwell, airtime = prep.window[v, chunk], dwell_all[chunk], airtime_all[chunk]
+        period = orders.size[chunk] * dwell
+        phase = np.where(aligned_all[chunk][:, None], 0.0, rng.random((chunk.size, n)) * period[:, None])
+        found = np.flatnonzero(orders.near(chunk, distinct, width)[:, which])  # (source, cell) worth a look
+        i, cell = found // cells, found % cells
+        # a's dwells m overlapping v's packet [t0, t0 + T_v), t0 = hop x D_v: with z = (t0 - phi) / D_a, m runs
+        # from floor(z - T_a / D_a) + 1 to ceil(z + T_v / D_a) - 1
+        z = (hop.ravel()[cell] * sv.dwell_s - phase[i, cell // hops]) / dwell[i]
+        lo = np.floor(z - (airtime / dwell)[i]).astype(np.int64) + 1
+        hi = np.ceil(z + sv.packet_airtime_s / dwell[i]).astype(np.int64) - 1
+        many = np.ceil((sv.packet_airtime_s + airtime) / dwell) + 1 > _DRAWN_DWELLS
+        counts = np.zeros(found.size, dtype=np.int64)
+        drawn = ~many[i]
+        if drawn.any():
+            counts[drawn] = _counts_drawn(orders, chunk[i[drawn]], chan_v[cell[drawn]], lo[drawn], hi[drawn],
+                                          width[i[drawn]])
+        for k in np.flatnonzero(many):
+            mine = i == k
+            counts[mine] = _counts_from_totals(orders.sequences[chunk[k]], chan_v[cell[mine]], lo[mine], hi[mine],
+                                               int(width[k]))
+        # each exposed dwell transmits independently with a's activity: one draw per exposed cell for all
+        exposed = np.flatnonzero(counts)
+        quiet = (1.0 - prep.activity[chunk])[i[exposed]] ** counts[exposed]
+        lost[cell[exposed[rng.random(exposed.size) < 1.0 - quiet]]] = True
+    return lost.reshape(n, hops)
 
 
 def _interferer_hits(rng, prep: PreparedSite, v: int, k: int, chan_v: np.ndarray, t0: np.ndarray) -> np.ndarray:
@@ -192,25 +218,27 @@ def _interferer_hits(rng, prep: PreparedSite, v: int, k: int, chan_v: np.ndarray
     return hit & harmed
 
 
-def simulate_retries(prep: PreparedSite, sequences: list[np.ndarray], v: int, packets: int, seed: int,
-                     rms_delay_spread_s: float, reach: np.ndarray | None = None) -> RetryFigures:
-    """Residual loss of system v after its retry limit, driven by every system's actual sequence. `reach`
-    ((S,) bool, see `reachable`) names the systems that can hit v, if already known."""
+def simulate_retries(prep: PreparedSite, sequences, v: int, packets: int, seed: int, rms_delay_spread_s: float,
+                     reach: np.ndarray | None = None) -> RetryFigures:
+    """Residual loss of system v after its retry limit, driven by every system's actual sequence
+    (`sequences`: one order per system, or an `Orders` built once for several victims). `reach` ((S,)
+    bool, see `Orders.reach`) names the systems that can hit v, if already known."""
+    orders = sequences if isinstance(sequences, Orders) else Orders.of(prep, sequences)
     rng = np.random.Generator(np.random.PCG64([seed, v]))
     system = prep.site.systems[v]
     attempts = system.retry_limit + 1
     per = system.hops_per_attempt
     hops = attempts * per
-    seq_v = np.asarray(sequences[v])
+    seq_v = orders.sequences[v]
     start = rng.integers(0, seq_v.size, packets)
-    chan_v = seq_v[(start[:, None] + np.arange(hops)[None, :]) % seq_v.size]
+    hop = start[:, None] + np.arange(hops)[None, :]
+    chan_v = seq_v[hop % seq_v.size]
     lost = _fades(rng, chan_v, prep, v, rms_delay_spread_s)
-    t0 = (start[:, None] + np.arange(hops)[None, :]) * system.dwell_s
-    reach = reachable(prep, sequences, v) if reach is None else reach
-    sources = [a for a in range(prep.n_systems) if a != v and reach[a]]
-    if sources:
-        seqs = {a: np.asarray(sequences[a]) for a in sources}
-        lost |= _system_hits(rng, prep, v, seqs, sources, chan_v, t0)
+    reach = orders.reach(prep, v) if reach is None else np.asarray(reach, dtype=bool)
+    sources = np.flatnonzero(reach & (np.arange(prep.n_systems) != v))
+    if sources.size:
+        lost |= _system_hits(rng, prep, v, orders, sources, hop)
+    t0 = hop * system.dwell_s
     for k in range(len(prep.site.interferers)):
         lost |= _interferer_hits(rng, prep, v, k, chan_v, t0)
     attempt_lost = lost.reshape(packets, attempts, per).any(axis=2)
@@ -218,3 +246,11 @@ def simulate_retries(prep: PreparedSite, sequences: list[np.ndarray], v: int, pa
     p = float(attempt_lost.mean())
     return RetryFigures(system=v, packets=packets, attempt_loss=p, residual_loss=residual_hits / packets,
                         residual_interval=wilson_interval(residual_hits, packets), independent_residual=p**attempts)
+
+
+def simulate_all(prep: PreparedSite, sequences, packets: int, seed: int, rms_delay_spread_s: float,
+                 reach: np.ndarray | None = None) -> list[RetryFigures]:
+    """`simulate_retries` for every system, the orders laid out once."""
+    orders = Orders.of(prep, sequences)
+    return [simulate_retries(prep, orders, v, packets, seed, rms_delay_spread_s, None if reach is None else reach[v])
+            for v in range(prep.n_systems)]
