@@ -66,7 +66,7 @@ def test_different_hop_sets_in_a_group_get_orthogonal_sequences():
     report = analyse(prep, seqs, 100e-9)
     aligned = [p for p in report.pairs if p.aligned]
     assert aligned and all(p.aligned_hit_rate == 0.0 for p in aligned)
-    # the catch: unaligned, the same sequences do collide (domain reference section 5)
+    # the catch: unaligned, the same sequences do collide (derived: alignment is what keeps them apart)
     assert any(p.unaligned_hit_rate > 0 for p in aligned)
 
 

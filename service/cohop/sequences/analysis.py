@@ -50,8 +50,12 @@ RUN_HORIZON_HOPS = 4096
 RUN_CELLS = 6_000_000
 #: Cells per working chunk of the longest-run search (memory).
 _CHUNK_CELLS = 1 << 20
-#: Element steps of the per-pair counts (victim rows, aligned hits, coincidences) in all.
+#: Element steps of the per-pair counts (victim rows, aligned hits, coincidences) in all; a numpy call counts
+#: as _CALL_STEPS (about 0.3 s on our machines).
 PAIR_WORK = 30_000_000
+_CALL_STEPS = 5_000
+#: Pairs of occurrences the coincidences of all pairs at once may enumerate (beyond: pair by pair).
+_ALL_PAIRS_WORK = 2_000_000
 #: The shortest horizon the longest-run search is cut to when there are very many pairs.
 _MIN_HORIZON_HOPS = 16
 
@@ -128,14 +132,6 @@ def longest_runs_by_row(hits: np.ndarray, row_starts: np.ndarray) -> np.ndarray:
     return np.maximum.reduceat(run, row_starts)
 
 
-def longest_true_run(hits: np.ndarray) -> int:
-    """Longest run of True along the last axis, over every row."""
-    h = np.atleast_2d(np.asarray(hits, dtype=bool))
-    if h.size == 0:
-        return 0
-    return int(longest_runs_by_row(h.ravel(), np.arange(h.shape[0]) * h.shape[1]).max())
-
-
 @dataclass(frozen=True)
 class RunSearch:
     """The longest-run search of one pair: which offsets and how many hops after each."""
@@ -149,21 +145,25 @@ class RunSearch:
         return self.horizon_hops < self.natural_hops
 
 
-def run_search(prep: PreparedSite, v: int, a: int, lv: int, la: int, cap: int = RUN_HORIZON_HOPS) -> RunSearch:
-    dv, da = prep.site.systems[v].dwell_s, prep.site.systems[a].dwell_s
-    natural = 2 * max(lv, math.ceil(la * da / dv))
-    return RunSearch(natural, min(natural, cap), math.isclose(dv, da, rel_tol=1e-12, abs_tol=0.0))
+def _searches(prep, v, a, lv, la, cap) -> list[RunSearch]:
+    """Each pair's search: two periods of both orders (lv and la hops), at most `cap` hops of v."""
+    dwell = np.array([s.dwell_s for s in prep.site.systems])
+    natural = 2 * np.maximum(lv, np.ceil(la * dwell[a] / dwell[v]).astype(np.int64))
+    equal = np.isclose(dwell[v], dwell[a], rtol=1e-12, atol=0.0)
+    return [RunSearch(int(n), int(min(n, cap)), bool(e)) for n, e in zip(natural.tolist(), equal.tolist())]
 
 
-def _offsets(search: RunSearch, la: int, phases: int) -> np.ndarray:
-    """The offsets of a's sequence tried, as c in "a's hop at v's hop k is floor(k dv/da + c)": `phases`
-    time offsets phi_q = (q L_a + 1/2) / phases dwells of a, spread evenly over a's period. With equal
-    dwells a's hop is k - ceil(phi_q / d) = k - (q L_a // phases + 1), so the distinct integer shifts are
-    tried, each once: min(phases, L_a) of them."""
-    q = np.arange(phases)
-    if search.equal_dwell:
-        return np.unique((-(q * la // phases + 1)) % la).astype(float)
-    return -(q * la + 0.5) / phases
+def _offsets(equal: np.ndarray, la: np.ndarray, phases: int) -> tuple[np.ndarray, np.ndarray]:
+    """The offsets of a's sequence tried for every pair, as (pair of each row, c) with "a's hop at v's hop k
+    is floor(k dv/da + c)": `phases` time offsets phi_q = (q L_a + 1/2) / phases dwells of a, spread evenly
+    over a's period. With equal dwells a's hop is k - ceil(phi_q / d) = k - (q L_a // phases + 1): integer
+    shifts, distinct for q < phases <= L_a, and every shift once when phases >= L_a."""
+    count = np.where(equal, np.minimum(phases, la), phases)
+    pair = np.repeat(np.arange(la.size), count)
+    q = np.arange(pair.size) - np.repeat(np.cumsum(count) - count, count)
+    size = la[pair]
+    shift = np.where(phases >= size, q, -(q * size // phases + 1) % size)
+    return pair, np.where(equal[pair], shift, -(q * size + 0.5) / phases)
 
 
 def longest_runs(prep: PreparedSite, pairs: list[tuple[int, int]], orders: dict[int, np.ndarray],
@@ -171,13 +171,17 @@ def longest_runs(prep: PreparedSite, pairs: list[tuple[int, int]], orders: dict[
     """Longest run of v's consecutive hops during which a's dwell is on a channel inside v's harmful window,
     for every (v, a) in `pairs`, over `phases` time offsets spread evenly across a's period (whether a
     transmits then is left to chance). At most `cells` (offset x hop) cells in all: the offsets are
-    reduced first, then the horizon. Returns the runs, each pair's search and the offsets used."""
+    reduced first, then the horizon (not below _MIN_HORIZON_HOPS). Returns the runs, each pair's search
+    and the offsets used."""
     if not pairs:
         return np.zeros(0, dtype=np.int64), [], phases
-    full = [run_search(prep, v, a, orders[v].size, orders[a].size, cap=2**62) for v, a in pairs]
+    v = np.array([p[0] for p in pairs])
+    a = np.array([p[1] for p in pairs])
+    lv = np.array([orders[i].size for i in v.tolist()])
+    la = np.array([orders[i].size for i in a.tolist()])
+    full = _searches(prep, v, a, lv, la, 2**62)
     natural = np.array([s.natural_hops for s in full])
     equal = np.array([s.equal_dwell for s in full])
-    la = np.array([orders[a].size for _, a in pairs])
 
     def total(ph: int, cap: int) -> int:
         return int((np.minimum(natural, cap) * np.where(equal, np.minimum(ph, la), ph)).sum())
@@ -192,13 +196,11 @@ def longest_runs(prep: PreparedSite, pairs: list[tuple[int, int]], orders: dict[
         while total(phases, cap) > cells and cap > _MIN_HORIZON_HOPS:
             cap = max(_MIN_HORIZON_HOPS, cap // 2)
     searches = [RunSearch(s.natural_hops, min(s.natural_hops, cap), s.equal_dwell) for s in full]
-    offs = [_offsets(s, int(y), phases) for s, y in zip(searches, la)]
-    row_pair = np.repeat(np.arange(len(pairs)), [o.size for o in offs])
-    row_offset = np.concatenate(offs)
-    geometry = _PairGeometry.of(prep, pairs, orders, searches)
+    row_pair, row_offset = _offsets(equal, la, phases)
+    geometry = _PairGeometry.of(prep, v, a, orders, searches)
     runs = np.zeros(len(pairs), dtype=np.int64)
     width = _bucket(geometry.horizon[row_pair])
-    equal_row = np.asarray(equal)[row_pair]
+    equal_row = equal[row_pair]
     for w in np.unique(width).tolist():
         for same in (True, False):  # integer shifts and fractional offsets apart
             rows = np.flatnonzero((width == w) & (equal_row == same))
@@ -232,18 +234,16 @@ class _PairGeometry:
     horizon: np.ndarray
 
     @classmethod
-    def of(cls, prep, pairs, orders, searches) -> "_PairGeometry":
+    def of(cls, prep, v: np.ndarray, a: np.ndarray, orders, searches) -> "_PairGeometry":
         systems = sorted(orders)
-        first = dict(zip(systems, np.cumsum([0] + [orders[s].size for s in systems[:-1]]).tolist()))
+        first = np.zeros(prep.n_systems, dtype=np.int64)
+        size = np.zeros(prep.n_systems, dtype=np.int64)
+        size[systems] = [orders[s].size for s in systems]
+        first[systems] = np.cumsum(size[systems]) - size[systems]
         channels = np.concatenate([orders[s] for s in systems]).astype(np.int32)
         dwell = np.array([s.dwell_s for s in prep.site.systems])
-        v = np.array([p[0] for p in pairs])
-        a = np.array([p[1] for p in pairs])
         equal = np.array([s.equal_dwell for s in searches])
-        return cls(channels=channels, x_first=np.array([first[i] for i in v.tolist()]),
-                   x_size=np.array([orders[i].size for i in v.tolist()]),
-                   y_first=np.array([first[i] for i in a.tolist()]),
-                   y_size=np.array([orders[i].size for i in a.tolist()]),
+        return cls(channels=channels, x_first=first[v], x_size=size[v], y_first=first[a], y_size=size[a],
                    step=np.where(equal, 1.0, dwell[v] / dwell[a]), width=prep.window[v, a],
                    horizon=np.array([s.horizon_hops for s in searches]))
 
@@ -386,14 +386,14 @@ def _coincidences(prep, seqs: dict[int, np.ndarray], pairs: list[tuple[int, int]
     channels are few enough, else pair by pair within `work`."""
     systems = sorted(seqs)
     index = {s: k for k, s in enumerate(systems)}
-    counted = hopping.max_coincidences_between([seqs[s] for s in systems], PAIR_WORK) if pairs else None
+    counted = hopping.max_coincidences_between([seqs[s] for s in systems], _ALL_PAIRS_WORK) if pairs else None
     out = {}
     for v, a in pairs:
         if counted is not None:
             out[v, a] = int(counted[index[v], index[a]])
         elif (a, v) in out:
             out[v, a] = out[a, v]
-        elif work.take(2 * (seqs[v].size + seqs[a].size)):
+        elif work.take(2 * (seqs[v].size + seqs[a].size) + 20 * _CALL_STEPS):
             out[v, a] = hopping.coincidences_over_common_period(seqs[v], seqs[a])[0]
     return out
 
@@ -419,7 +419,7 @@ def analyse(prep: PreparedSite, sequences: list[Sequence], rms_delay_spread_s: f
         sources = np.array([a for a in systems if a != v], dtype=np.int64)
         if not sources.size:
             continue
-        if not work.take(sources.size * (int(np.count_nonzero(table.counts[v])) + 1)):
+        if not work.take(sources.size * (int(np.count_nonzero(table.counts[v])) + 1) + 10 * _CALL_STEPS):
             skipped_victims += 1
             continue
         sh, nr, un = _victim_rows(prep, table, v, sources)
@@ -431,7 +431,7 @@ def analyse(prep: PreparedSite, sequences: list[Sequence], rms_delay_spread_s: f
     aligned_hits = {}
     for v, a in listed:
         x, y = seqs[v], seqs[a]
-        if prep.links[v][a].aligned and work.take(2 * (x.size + y.size)):
+        if prep.links[v][a].aligned and work.take(2 * (x.size + y.size) + 5 * _CALL_STEPS):
             aligned_hits[v, a] = aligned_rate(prep, v, a, x, y)
     coinc = _coincidences(prep, seqs, [(v, a) for v, a in listed if shared[v, a] and _same_rate(prep, v, a)], work)
     run_pairs = [(v, a) for v, a in listed if near[v, a]]

@@ -3,35 +3,49 @@
 Unsynchronised systems (`_family_orders`): systems whose hop sets share
 channels form a component; with U the union of their channels and p the
 smallest prime >= |U|, system number i of the component takes member a_i of
-the linear-congruence family s_a(t) = a t mod p (`hopping.linear_congruence_family`;
-Titlebaum 1981, Shaar and Davies 1984), and one relabelling common to all
-members maps the labels Z_p to the channels of U (labels left over, and the
-channels a system does not use, are deleted from its order). Each system then
-visits each of its channels once per period. A common relabelling keeps every
-coincidence a coincidence, so when all members share one hop set of prime
-size the family's property holds exactly: any two members coincide once per
-period at every shift. Deletion can add coincidences; the construction
-measures its members' orders and calls the component "one-coincidence" only
-when no two of them coincide more than once at any shift (otherwise "linear
-congruence").
+the linear-congruence family s_a(t) = a t mod p [1], and one relabelling
+common to all members maps the labels Z_p to the channels of U (labels left
+over, and the channels a system does not use, are deleted from its order).
+Each system then visits each of its channels once per period. A common
+relabelling keeps every coincidence a coincidence [1], so when all members
+share one hop set of prime size the family's property holds exactly: any
+two members coincide once per period at every shift. Deletion can add
+coincidences; the construction counts its members' coincidences
+(`hopping.max_coincidences_between`) and calls the component
+"one-coincidence" only when no two of them coincide more than once at any
+shift (otherwise "linear congruence").
 
 Spacing (`CommonRelabelling`): consecutive hops (cyclically) should be at
-least the coherence bandwidth apart, so that a retry on the next hop fades
-independently. The repair changes the common relabelling only (it swaps the
-labels of two channels, or gives a channel a spare label), never one member's
-order alone, so whatever it does keeps the family's coincidences; it accepts
-a change when it lowers the members' summed squared shortfall below their
-spacing. Each member aims at the spacing asked for or the most its hop set
-allows (`spacing_ceiling`), whichever is less. Its work is a count of steps
-(RESPACE_WORK), so the result is deterministic; where the spacing cannot be
-reached, the closest step is kept, reported, and a note says so.
+least the coherence bandwidth apart [2], so that a retry on the next hop
+fades independently. The repair changes the common relabelling only (it
+swaps the labels of two channels, or gives a channel a spare label), never
+one member's order alone, so whatever it does keeps the family's
+coincidences; it accepts a change when it lowers the members' summed
+squared shortfall below their spacing. Each member aims at the spacing
+asked for or the most its hop set allows (`spacing_ceiling`), whichever is
+less. Its work is a count of steps (RESPACE_WORK), so the result is
+deterministic; where the spacing cannot be reached, the closest step is
+kept, reported, and a note says so.
 
 Slot-aligned time-base groups (`_orthogonal_group`): equal hop-set sizes N;
 CP-SAT assigns each member a permutation of its hop set such that no two
 members use the same channel in the same slot (always possible when the
-group has at most N members, by Konig's edge-colouring theorem), keeping the
-spacing, and avoiding each other's harmful windows where it can. Identical
-hop sets get cyclic shifts of one sequence instead.
+group has at most N members, by Konig's edge-colouring theorem [3]),
+keeping the spacing, and avoiding each other's harmful windows where it
+can. Identical hop sets get cyclic shifts of one sequence instead.
+
+References
+----------
+[1] T. A. Titlebaum, "Time-frequency hop signals, part I: coding based upon
+    the theory of linear congruences", IEEE Trans. Aerospace and Electronic
+    Systems 17(4), 1981; A. A. Shaar and P. A. Davies, "A survey of
+    one-coincidence sequences for frequency-hopped spread-spectrum systems",
+    IEE Proceedings F 131(7), 1984.
+[2] W. C. Jakes (ed.), "Microwave Mobile Communications", Wiley, 1974, ch. 1
+    (see `cohop.stats.hopping`).
+[3] D. Konig, "Uber Graphen und ihre Anwendung auf Determinantentheorie und
+    Mengenlehre", Mathematische Annalen 77, 1916: a bipartite graph's edges
+    can be coloured with as many colours as its largest degree.
 """
 
 from __future__ import annotations
@@ -49,13 +63,14 @@ from cohop.planning.deadline import Budget, Deadline
 from cohop.prepare import PreparedSite
 from cohop.stats import hopping
 
-#: Steps the spacing repair of one component may take at most (one step: one member's order updated by
-#: one change, or one consecutive pair looked at; a count, so the result is deterministic).
-RESPACE_WORK = 400_000
+#: Steps the spacing repair may take at most over all components of a site, shared among them by their
+#: channels held (one step: one member's order updated by one change, or one consecutive pair looked at;
+#: a count, so the result is deterministic; about 0.15 s on our machines).
+RESPACE_WORK = 100_000
 #: Changes tried for each consecutive pair that is too close before the repair moves on.
 RESPACE_TRIES = 64
 #: Pairs of positions the coincidence count of a component may enumerate at most.
-FAMILY_CHECK_WORK = 4_000_000
+FAMILY_CHECK_WORK = 1_000_000
 #: Calibrated seconds of CP-SAT work per slot-aligned group (`cohop.planning.cpsat`): 2 deterministic units.
 GROUP_WORK_S = 4.0
 #: Most spacing clauses a slot-aligned group's model may hold (a tiny delay spread asks for wide spacing).
@@ -66,14 +81,14 @@ GROUP_CLAUSES = 200_000
 class Sequence:
     system: int
     channels: np.ndarray  # the hop order (grid indices); its length is the period in hops
-    construction: str  # "one-coincidence", "orthogonal", "cyclic shift" or "given"
+    construction: str  # "one-coincidence", "linear congruence", "orthogonal", "cyclic shift", "given", ...
     component: int  # systems building from one family share a component number
     prime: int | None = None
     member: int | None = None
     required_spacing: int = 1  # grid steps wanted between consecutive hops
     group: str | None = None  # time-base group of an aligned construction
-    family_max_coincidences: int | None = None  # most coincidences of two members' orders at any shift (None:
-    # not counted, or no family)
+    #: most coincidences of two members' orders at any shift (None: not counted, or no family)
+    family_max_coincidences: int | None = None
 
 
 def required_spacing_channels(prep: PreparedSite, rms_delay_spread_s: float) -> int:
@@ -153,6 +168,7 @@ class CommonRelabelling:
             self.target.append(min(spacing, max(1, spacing_ceiling(hs))))
             self.cost.append(self._full_cost(m))
         self.aim = list(self.target)  # what each member aimed at first (the repair may lower `target`)
+        self.cursor = [0] * len(self.chans)  # where the search for a pair too close goes on in each member
 
     def _pen(self, m: int, c1: int, c2: int) -> int:  # the cost of one consecutive pair
         short = self.target[m] - abs(c1 - c2)
@@ -268,9 +284,22 @@ class CommonRelabelling:
             return False
         return other < 0 or all(self._lands_well(k, other, self.label[u]) for k in self.users[other])
 
+    def _next_close(self, m: int) -> tuple[int, int]:
+        """The next consecutive pair of member m closer than its target, from where the last search stopped
+        (cyclically): its later hop's index, and how many pairs were looked at."""
+        ch, target = self.chans[m], self.target[m]
+        n = len(ch)
+        start = self.cursor[m] % n
+        for looked in range(1, n + 1):
+            i = (start + looked - 1) % n
+            if abs(ch[i - 1] - ch[i]) < target:
+                self.cursor[m] = i + 1
+                return i, looked
+        raise AssertionError("a member with a positive cost has a pair too close")
+
     def repair(self, rng: random.Random, work: int = RESPACE_WORK) -> None:
         """Lower the summed cost by label changes until it is zero, no change helps, or `work` runs out:
-        take a member whose order has a pair too close, one such pair at random and one of its two hops,
+        take a member whose order has a pair too close, the next such pair and one of its two hops,
         and try changes of that hop's label (RESPACE_TRIES, twice as many after each failure, up to every
         channel and spare label). On the first round a change is tried in full only when the moved hops land
         well (`_screen`); later any change that lowers the cost is taken, and so are changes that leave it as
@@ -293,17 +322,20 @@ class CommonRelabelling:
                 fails, level = [0] * members, n
                 continue
             ch, times, target = self.chans[m], self.times[m], self.target[m]
-            close = [i for i in range(len(ch)) if abs(ch[i - 1] - ch[i]) < target]
-            steps += len(ch)
-            i = rng.choice(close) - rng.randrange(2)
-            u = self._index_of(m, times[i])
+            i, looked = self._next_close(m)
+            steps += looked
+            u = self._index_of(m, times[i - rng.randrange(2)])
             moved = False
             for attempt in range(min(RESPACE_TRIES << fails[m], most)):
                 # every other try swaps with a hop of the same member (what mends its order most directly)
                 other = self._index_of(m, rng.choice(times)) if attempt % 2 else rng.randrange(-spare, n)
                 steps += 1
-                if other == u or (not fails[m] and not self._screen(u, other)):
+                if other == u:
                     continue
+                if not fails[m]:
+                    steps += len(self.users[u]) + (len(self.users[other]) if other >= 0 else 0)
+                    if not self._screen(u, other):
+                        continue
                 delta, taken = self._try(u, other, level=fails[m] > 0 and level > 0)
                 steps += taken
                 if delta is not None:
@@ -328,6 +360,7 @@ def _family_orders(prep: PreparedSite, hop_sets, members: list[int], seed: int, 
                    first_component: int) -> tuple[list[Sequence], list[str]]:
     out, notes = [], []
     ids = [s.id for s in prep.site.systems]
+    held = max(1, sum(hop_sets[v].size for v in members))
     for ci, comp in enumerate(_components(hop_sets, members)):
         union = np.unique(np.concatenate([hop_sets[v] for v in comp]))
         p = hopping.prime_at_least(max(2, union.size))
@@ -335,17 +368,19 @@ def _family_orders(prep: PreparedSite, hop_sets, members: list[int], seed: int, 
         labels = rng.sample(range(p), union.size)  # the common relabelling: channel -> label
         multipliers = [1 + (i % (p - 1)) if p > 2 else 1 for i in range(len(comp))]
         family = CommonRelabelling(union, labels, p, [hop_sets[v] for v in comp], multipliers, spacing)
-        family.repair(rng)
+        family.repair(rng, RESPACE_WORK * sum(hop_sets[v].size for v in comp) // held)
         orders = [family.order(m) for m in range(len(comp))]
         counted = hopping.max_coincidences_between(orders, FAMILY_CHECK_WORK)
         measured = None if counted is None else int(counted.max())
-        whole = union.size == p and all(hop_sets[v].size == p for v in comp)  # no deletion: [1] holds exactly
+        # no deletion: [1] holds exactly, which stands in for the count when that would be too much work
+        whole = union.size == p and all(hop_sets[v].size == p for v in comp) and len(comp) < p
         one = len(comp) > 1 and (measured == 1 or (measured is None and whole))
         short = [ids[v] for m, v in enumerate(comp) if orders[m].size > 1 and family.min_gap(m) < family.aim[m]]
         if short:
+            shared = ("; the sequences keep one common relabelling of their family (relabelling each separately "
+                      "would add coincidences between them)" if len(comp) > 1 else "")
             notes.append(f"{', '.join(short)}: consecutive hops closer than the {spacing}-channel spacing asked for "
-                         "in places; the sequences keep one common relabelling of their family (relabelling each "
-                         "separately would add coincidences between them), see each order's closest step")
+                         f"in places{shared}; see each order's closest step")
         for m, v in enumerate(comp):
             out.append(Sequence(system=v, channels=orders[m], construction="one-coincidence" if one else
                                 "linear congruence", component=first_component + ci, prime=p, member=multipliers[m],
