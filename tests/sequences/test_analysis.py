@@ -71,14 +71,15 @@ def _run_by_definition(prep, v, a, x, y, phases, horizon):
     return best
 
 
-@pytest.mark.parametrize("dwells", [(0.01, 0.01), (0.01, 0.025), (0.04, 0.01), (0.02, 0.05)])
+@pytest.mark.parametrize("dwells", [(0.01, 0.03), (0.01, 0.025), (0.04, 0.01), (0.02, 0.05)])
 @pytest.mark.parametrize("phases", [3, 16, 64])
-def test_longest_runs_match_the_definition(dwells, phases):
+def test_sampled_longest_runs_match_the_definition(dwells, phases):
+    # Unequal dwells: the search over `phases` offsets and two periods of both orders, hop by hop.
     rng = np.random.default_rng(int(1e3 * sum(dwells)) + phases)
     x, y = rng.permutation(np.arange(0, 40, 3)), rng.permutation(np.arange(1, 40, 2))
     prep = _prep(dwells, [np.sort(x), np.sort(y)])
     runs, searches, used = analysis.longest_runs(prep, [(0, 1), (1, 0)], {0: x, 1: y}, phases)
-    assert used == phases and not any(s.cut for s in searches)
+    assert used == phases and not any(s.cut or s.exact for s in searches)
     assert runs[0] == _run_by_definition(prep, 0, 1, x, y, phases, searches[0].horizon_hops)
     assert runs[1] == _run_by_definition(prep, 1, 0, y, x, phases, searches[1].horizon_hops)
 
@@ -97,16 +98,17 @@ def test_a_long_dwell_beside_a_short_one_is_searched_over_a_bounded_horizon():
 
 
 def test_many_pairs_share_the_cells_by_fewer_offsets_then_shorter_horizons():
+    # Unequal dwells (1 and 2 ms in turn): the pairs of different dwells are searched over sampled offsets.
     rng = np.random.default_rng(2)
     n = 30
     orders = {v: rng.permutation(79) for v in range(n)}
-    prep = _prep([1e-3] * n, [np.arange(79)] * n, n_channels=79)
-    pairs = [(v, a) for v in range(n) for a in range(n) if v != a]
+    prep = _prep([1e-3 * (1 + v % 2) for v in range(n)], [np.arange(79)] * n, n_channels=79)
+    pairs = [(v, a) for v in range(n) for a in range(n) if v % 2 != a % 2]
     runs, searches, used = analysis.longest_runs(prep, pairs, orders, 128, cells=100_000)
-    cells = sum(s.horizon_hops * min(used, 79) for s in searches)
-    assert used < 128 and cells <= 100_000
-    # 870 pairs at one offset and 16 hops (the shortest horizon) are 13 920 cells: the floor, not the limit
-    _, searches, used = analysis.longest_runs(prep, pairs, orders, 128, cells=10_000)
+    assert not any(s.equal_dwell for s in searches)
+    assert used < 128 and sum(s.horizon_hops * used for s in searches) <= 100_000
+    # 450 pairs at one offset and 16 hops (the shortest horizon) are 7200 cells: the floor, not the limit
+    _, searches, used = analysis.longest_runs(prep, pairs, orders, 128, cells=5_000)
     assert used == 1 and all(s.cut and s.horizon_hops == 16 for s in searches)
 
 
@@ -152,3 +154,35 @@ def test_pair_figures_match_the_definitions_and_skip_pairs_that_cannot_meet():
         unaligned = np.mean(1 - survival(overlap, sa.activity_fraction * harm.mean(axis=1)))
         assert p.unaligned_hit_rate == pytest.approx(unaligned)
         assert p.shared_channels == 10 and p.coincidences_max is None  # different dwells
+
+
+def _run_over_every_shift(prep, v, a, x, y):
+    """Equal dwells: hop k of v meets hop k + s of a; every s, followed over two common periods (enough to
+    see any run that ends, a run of a whole period never does), capped at two periods of both orders."""
+    period = math.lcm(x.size, y.size)
+    k = np.arange(2 * period)
+    best = 0
+    for shift in range(y.size):
+        hits = np.abs(x[k % x.size] - y[(k + shift) % y.size]) <= prep.window[v, a]
+        best = max(best, _groupby_longest([hits]))
+    return min(best, 2 * max(x.size, y.size))
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.integers(0, 9), min_size=1, max_size=12), st.lists(st.integers(0, 9), min_size=1, max_size=12))
+def test_equal_dwells_are_searched_exactly_over_every_offset(x, y):
+    x, y = np.array(x), np.array(y)
+    prep = _prep((0.01, 0.01), [np.unique(x), np.unique(y)], n_channels=10, loss=40.0)  # window 1
+    runs, searches, _ = analysis.longest_runs(prep, [(0, 1)], {0: x, 1: y})
+    assert searches[0].exact and not searches[0].cut
+    assert runs[0] == _run_over_every_shift(prep, 0, 1, x, y)
+
+
+def test_coprime_periods_at_the_cap_are_searched_exactly():
+    # 8191 and 8192 hops of the same channel order, co-channel only: at the right offset the two meet on
+    # 8191 hops in a row (then 8191 against 8191 + 1 differs); the sampled offsets never saw that.
+    x, y = np.arange(8191), np.arange(8192)
+    prep = _prep((0.01, 0.01), [x, y], n_channels=8192, loss=60.0)
+    assert prep.window[0, 1] == 0
+    runs, searches, _ = analysis.longest_runs(prep, [(0, 1), (1, 0)], {0: x, 1: y})
+    assert runs.tolist() == [8191, 8191] and all(s.exact for s in searches)

@@ -58,6 +58,11 @@ _CALL_STEPS = 5_000
 _ALL_PAIRS_WORK = 2_000_000
 #: The shortest horizon the longest-run search is cut to when there are very many pairs.
 _MIN_HORIZON_HOPS = 16
+#: Harmful cells (plus positions) the exact search of equal-dwell pairs may list in all (`_diagonal_runs`;
+#: about 0.15 s on our machines).
+DIAGONAL_WORK = 1_000_000
+#: A run that never ends (a whole cycle of the torus harmful).
+_ENDLESS = 1 << 60
 
 
 @dataclass(frozen=True)
@@ -139,6 +144,7 @@ class RunSearch:
     natural_hops: int  # two periods of both sequences, in hops of the victim
     horizon_hops: int
     equal_dwell: bool
+    exact: bool = False  # every offset, followed along the whole common period (`_diagonal_runs`)
 
     @property
     def cut(self) -> bool:
@@ -148,8 +154,8 @@ class RunSearch:
 def _searches(prep, v, a, lv, la, cap) -> list[RunSearch]:
     """Each pair's search: two periods of both orders (lv and la hops), at most `cap` hops of v."""
     dwell = np.array([s.dwell_s for s in prep.site.systems])
-    natural = 2 * np.maximum(lv, np.ceil(la * dwell[a] / dwell[v]).astype(np.int64))
     equal = np.isclose(dwell[v], dwell[a], rtol=1e-12, atol=0.0)
+    natural = 2 * np.maximum(lv, np.ceil(la * np.where(equal, 1.0, dwell[a] / dwell[v]) - 1e-9).astype(np.int64))
     return [RunSearch(int(n), int(min(n, cap)), bool(e)) for n, e in zip(natural.tolist(), equal.tolist())]
 
 
@@ -166,11 +172,88 @@ def _offsets(equal: np.ndarray, la: np.ndarray, phases: int) -> tuple[np.ndarray
     return pair, np.where(equal[pair], shift, -(q * size + 0.5) / phases)
 
 
+def _diagonal_runs(prep: PreparedSite, v: np.ndarray, a: np.ndarray, orders: dict[int, np.ndarray],
+                   work: int) -> np.ndarray:
+    """Equal dwells, every time offset: longest run of v's hops that a can hit (-1 for the pairs past
+    `work`; a run that never ends counts as _ENDLESS).
+
+    With equal dwells v's hop k meets a's hop k + s for one integer s, so the pairs of positions (i, j)
+    met in turn lie on the g = gcd(L_v, L_a) cycles (i, j) -> (i + 1, j + 1) of the torus, each
+    lcm(L_v, L_a) long: cycle r = (j - i) mod g holds (i, j) at place t with t = i (mod L_v) and
+    t + r = j (mod L_a) (Chinese remainder theorem). Only the harmful cells (|x_i - y_j| <= window) are
+    listed (the work: L_v plus their number, per pair), placed on their cycles and sorted; runs are
+    stretches of consecutive places, a cycle's last place joined to its first."""
+    out = np.full(v.size, -1, dtype=np.int64)
+    if not v.size:
+        return out
+    systems = sorted(orders)
+    span = 3 * prep.n_channels + 2  # keys s K + channel: a window never reaches the next system's keys
+    by_channel = {s: np.argsort(orders[s], kind="stable") for s in systems}
+    keys = np.concatenate([s * span + orders[s][by_channel[s]] for s in systems])
+    position = np.concatenate([by_channel[s] for s in systems])
+    lx = np.array([orders[s].size for s in v.tolist()], dtype=np.int64)
+    ly = np.array([orders[s].size for s in a.tolist()], dtype=np.int64)
+    take = int(np.searchsorted(np.cumsum(lx), work, side="right"))  # the pairs whose orders fit at all
+    x_pair = np.repeat(np.arange(take), lx[:take])
+    x = np.concatenate([orders[s] for s in v[:take].tolist()]) if take else np.zeros(0, dtype=np.int64)
+    i = _within(lx[:take])
+    width = prep.window[v[:take], a[:take]][x_pair]
+    lo = np.searchsorted(keys, a[x_pair] * span + x - width, side="left")
+    hi = np.searchsorted(keys, a[x_pair] * span + x + width, side="right")
+    per_pair = lx[:take] + np.bincount(x_pair, weights=hi - lo, minlength=take).astype(np.int64)
+    take = int(np.searchsorted(np.cumsum(per_pair), work, side="right"))
+    if not take:
+        return out
+    keep = x_pair < take
+    x_pair, i, lo, hi = x_pair[keep], i[keep], lo[keep], hi[keep]
+    pair = np.repeat(x_pair, hi - lo)
+    i = np.repeat(i, hi - lo)
+    j = position[np.repeat(lo, hi - lo) + _within(hi - lo)]
+    lx, ly = lx[:take], ly[:take]
+    g = np.gcd(lx, ly)
+    l2 = ly // g
+    inverse = np.array([pow(int(m), -1, int(n)) if n > 1 else 0 for m, n in zip(lx // g, l2)], dtype=np.int64)
+    lcm = lx * l2
+    stride = lcm + 1  # a gap after every cycle, so consecutive keys share a cycle
+    base = np.cumsum(g * stride) - g * stride
+    r = (j - i) % g[pair]
+    t = i + lx[pair] * (((j - r - i) // g[pair] % l2[pair]) * inverse[pair] % l2[pair])
+    key = np.sort(base[pair] + r * stride[pair] + t)
+    out[:take] = 0
+    if not key.size:
+        return out
+    owner = np.searchsorted(base, key, side="right") - 1
+    starts = np.flatnonzero(np.r_[True, np.diff(key) != 1])
+    ends = np.r_[starts[1:], key.size] - 1
+    length = ends - starts + 1
+    seg_pair = owner[starts]
+    cycle_start = base[seg_pair] + (key[starts] - base[seg_pair]) // stride[seg_pair] * stride[seg_pair]
+    runs = length.copy()
+    wraps = np.flatnonzero(key[ends] - cycle_start == lcm[seg_pair] - 1)  # ends at the cycle's last place
+    if wraps.size:
+        m = np.searchsorted(key, cycle_start[wraps])  # the cycle's first key: its first place, if harmful
+        at_first = key[m] == cycle_start[wraps]
+        other = np.searchsorted(starts, m, side="right") - 1
+        whole = at_first & (other == wraps)
+        joined = at_first & ~whole
+        runs[wraps[joined]] += length[other[joined]]
+        runs[wraps[whole]] = _ENDLESS
+    np.maximum.at(out, seg_pair, runs)
+    return out
+
+
+def _within(counts: np.ndarray) -> np.ndarray:
+    """0, 1, ..., counts[k] - 1 for every k, end to end."""
+    return np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
+
+
 def longest_runs(prep: PreparedSite, pairs: list[tuple[int, int]], orders: dict[int, np.ndarray],
                  phases: int = RUN_PHASES, cells: int = RUN_CELLS) -> tuple[np.ndarray, list[RunSearch], int]:
     """Longest run of v's consecutive hops during which a's dwell is on a channel inside v's harmful window,
-    for every (v, a) in `pairs`, over `phases` time offsets spread evenly across a's period (whether a
-    transmits then is left to chance). At most `cells` (offset x hop) cells in all: the offsets are
+    for every (v, a) in `pairs` (whether a transmits then is left to chance), at most two periods of both
+    orders. Pairs of equal dwells are searched exactly over every offset while DIAGONAL_WORK lasts
+    (`_diagonal_runs`); the others over `phases` time offsets spread evenly across a's period and at most
+    RUN_HORIZON_HOPS hops after each, in at most `cells` (offset x hop) cells in all: the offsets are
     reduced first, then the horizon (not below _MIN_HORIZON_HOPS). Returns the runs, each pair's search
     and the offsets used."""
     if not pairs:
@@ -182,9 +265,17 @@ def longest_runs(prep: PreparedSite, pairs: list[tuple[int, int]], orders: dict[
     full = _searches(prep, v, a, lv, la, 2**62)
     natural = np.array([s.natural_hops for s in full])
     equal = np.array([s.equal_dwell for s in full])
+    runs = np.zeros(len(pairs), dtype=np.int64)
+    same = np.flatnonzero(equal)
+    exact = np.zeros(len(pairs), dtype=bool)
+    if same.size:
+        found = _diagonal_runs(prep, v[same], a[same], orders, DIAGONAL_WORK)
+        exact[same] = found >= 0
+        runs[same] = np.maximum(found, 0)
+    sampled = ~exact
 
     def total(ph: int, cap: int) -> int:
-        return int((np.minimum(natural, cap) * np.where(equal, np.minimum(ph, la), ph)).sum())
+        return int((np.minimum(natural, cap) * np.where(equal, np.minimum(ph, la), ph))[sampled].sum())
 
     cap = RUN_HORIZON_HOPS
     if total(phases, cap) > cells:
@@ -195,15 +286,17 @@ def longest_runs(prep: PreparedSite, pairs: list[tuple[int, int]], orders: dict[
         phases = lo
         while total(phases, cap) > cells and cap > _MIN_HORIZON_HOPS:
             cap = max(_MIN_HORIZON_HOPS, cap // 2)
-    searches = [RunSearch(s.natural_hops, min(s.natural_hops, cap), s.equal_dwell) for s in full]
-    row_pair, row_offset = _offsets(equal, la, phases)
+    searches = [RunSearch(s.natural_hops, s.natural_hops, True, True) if e else
+                RunSearch(s.natural_hops, min(s.natural_hops, cap), s.equal_dwell) for s, e in zip(full, exact)]
+    rest = np.flatnonzero(sampled)
+    row_pair, row_offset = _offsets(equal[rest], la[rest], phases)
+    row_pair = rest[row_pair]
     geometry = _PairGeometry.of(prep, v, a, orders, searches)
-    runs = np.zeros(len(pairs), dtype=np.int64)
     width = _bucket(geometry.horizon[row_pair])
     equal_row = equal[row_pair]
     for w in np.unique(width).tolist():
-        for same in (True, False):  # integer shifts and fractional offsets apart
-            rows = np.flatnonzero((width == w) & (equal_row == same))
+        for shifts in (True, False):  # integer shifts and fractional offsets apart
+            rows = np.flatnonzero((width == w) & (equal_row == shifts))
             per_chunk = max(1, _CHUNK_CELLS // w)
             for c in range(0, rows.size, per_chunk):
                 part = rows[c:c + per_chunk]
@@ -449,13 +542,12 @@ def analyse(prep: PreparedSite, sequences: list[Sequence], rms_delay_spread_s: f
             common_period_hops=math.lcm(x.size, y.size) if same else None, longest_run=run, aligned=aligned,
             aligned_hit_rate=aligned_hits.get((v, a)) if aligned else None, unaligned_hit_rate=unaligned[v, a],
             run_horizon_hops=search.horizon_hops if search else 0, run_horizon_cut=bool(search and search.cut)))
-    notes += _work_notes(prep, run_phases, phases_used, searches, skipped_victims, work.refused)
+    notes += _work_notes(run_phases, phases_used, searches, skipped_victims, work.refused)
     return SequenceReport(sequences=sequences, orders=orders, pairs=pairs, family_bounds=family_bounds(sequences),
                           notes=notes, reach=reach)
 
 
-def _work_notes(prep, asked: int, used: int, searches: list[RunSearch], skipped_victims: int,
-                refused: int) -> list[str]:
+def _work_notes(asked: int, used: int, searches: list[RunSearch], skipped_victims: int, refused: int) -> list[str]:
     out = []
     if used < asked:
         out.append(f"to bound the work, each pair's longest run was searched over {used} time offsets "
@@ -464,8 +556,8 @@ def _work_notes(prep, asked: int, used: int, searches: list[RunSearch], skipped_
     if cut:
         out.append(f"the longest run of {len(cut)} pair(s) was searched over at most "
                    f"{max(s.horizon_hops for s in cut)} hops of the victim after each offset, fewer than two "
-                   "periods of both sequences (see run_horizon_cut): a longer run may exist, and a run equal to "
-                   "the horizon means at least that many hops")
+                   "periods of both sequences: a longer run may exist, and a run equal to the horizon means at "
+                   "least that many hops")
     if skipped_victims:
         out.append(f"to bound the work, the pair figures of {skipped_victims} victim system(s) were left out "
                    "(the sequences are too long for that many systems)")

@@ -48,7 +48,8 @@ def packets_for(prep: PreparedSite, requested: int) -> int:
 #: Calibrated costs of the sequence phases on our 2-core machines (`bench/bench_timelimits.py --phases`
 #: prints them measured beside these estimates): the construction per channel held; the analysis besides
 #: the longest-run search (a base, per system, per ordered pair of systems); that search per (time offset
-#: x hop) cell (at most `analysis.RUN_CELLS` in all); and one retry simulation per system, per packet and
+#: x hop) cell (at most `analysis.RUN_CELLS` in all) and per harmful cell of the exact search of
+#: equal-dwell pairs (at most `analysis.DIAGONAL_WORK`); and one retry simulation per system, per packet and
 #: system, and per packet, system and other system. Three simulations run (planned order, ascending
 #: order, common pattern).
 CONSTRUCT_PER_CHANNEL_S = 2.5e-5
@@ -56,6 +57,7 @@ ANALYSIS_BASE_S = 3e-3
 ANALYSIS_PER_SYSTEM_S = 5e-4
 ANALYSIS_PER_PAIR_S = 2e-5
 RUN_CELL_S = 5e-8
+DIAGONAL_CELL_S = 1.5e-7
 SIM_SYSTEM_S = 1e-3
 SIM_PACKET_S = 3e-6
 SIM_SOURCE_S = 4e-8
@@ -89,6 +91,16 @@ def _run_cells(prep: PreparedSite, sizes) -> int:
     return int(np.minimum(natural, analysis.RUN_HORIZON_HOPS)[harmful].sum())
 
 
+def _diagonal_cells(prep: PreparedSite, sizes) -> int:
+    """Harmful cells the exact search of equal-dwell pairs lists at most (each channel once per period:
+    a position of v meets at most 2 w + 1 positions of a), at most `analysis.DIAGONAL_WORK`."""
+    n = np.asarray(sizes, dtype=np.int64)
+    dwell = np.array([s.dwell_s for s in prep.site.systems])
+    equal = np.isclose(dwell[:, None], dwell[None, :], rtol=1e-12, atol=0.0) & ~np.eye(prep.n_systems, dtype=bool)
+    cells = n[:, None] * (1 + np.minimum(n[None, :], 2 * prep.window + 1))
+    return int(min(cells[equal & (prep.window >= 0)].sum(), analysis.DIAGONAL_WORK))
+
+
 def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: float | None = None,
                   reason: str = "to keep the time limit") -> SequenceWork:
     """The full work (RUN_PHASES offsets, `packets_for` packets) if it fits in `seconds`; otherwise what
@@ -103,7 +115,8 @@ def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: fl
     groups = sum(1 for n in members.values() if n > 1)
     group_work = GROUP_WORK_S if seconds is None or not groups else min(GROUP_WORK_S, 0.5 * seconds / groups)
     fixed = (CONSTRUCT_PER_CHANNEL_S * float(np.sum(sizes)) + ANALYSIS_BASE_S + ANALYSIS_PER_SYSTEM_S * s
-             + ANALYSIS_PER_PAIR_S * s * (s - 1) + SIM_RUNS * SIM_SYSTEM_S * s + groups * group_work)
+             + ANALYSIS_PER_PAIR_S * s * (s - 1) + DIAGONAL_CELL_S * _diagonal_cells(prep, sizes)
+             + SIM_RUNS * SIM_SYSTEM_S * s + groups * group_work)
     per_phase = _run_cells(prep, sizes) * RUN_CELL_S
     most_cells = analysis.RUN_CELLS * RUN_CELL_S
     per_packet = SIM_RUNS * s * (SIM_PACKET_S + SIM_SOURCE_S * s)
