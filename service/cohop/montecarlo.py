@@ -40,12 +40,12 @@ import numpy as np
 
 from cohop.assess import resolve_hop_sets
 from cohop.prepare import PreparedSite
+from cohop.stats.intervals import Z95, wilson_interval
 
 #: Elements per working array; keeps the arrays in cache.
 _BLOCK_ELEMENTS = 1 << 16
 #: Sources overlapping at most this many bursts whatever the phase have each burst drawn.
 _DRAWN_OVERLAPS = 4
-Z95 = 1.959963984540054  # standard normal 97.5 % quantile
 
 
 @dataclass(frozen=True)
@@ -58,16 +58,8 @@ class SimulatedRate:
         return self.hits / self.trials if self.trials else 0.0
 
     def interval(self, z: float = Z95) -> tuple[float, float]:
-        """Wilson score interval."""
-        n, p = self.trials, self.probability
-        if n == 0:
-            return 0.0, 1.0
-        denom = 1 + z * z / n
-        centre = (p + z * z / (2 * n)) / denom
-        half = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / denom
-        lo = 0.0 if self.hits == 0 else max(0.0, centre - half)  # exact ends: no float dust
-        hi = 1.0 if self.hits == n else min(1.0, centre + half)
-        return lo, hi
+        """Wilson score interval (`cohop.stats.intervals`)."""
+        return wilson_interval(self.hits, self.trials, z)
 
 
 @dataclass(frozen=True)

@@ -22,10 +22,6 @@ from tests.hostile import bodies as b
 JSON = "application/json"
 A, P, R = "/v1/assessments", "/v1/plans", "/v1/replans"
 
-LCM = "owned by: sequences (analysis walks lcm(L_x, L_y) hops: exhausts memory for coprime lengths)"
-HORIZON = ("owned by: sequences (longest_run's horizon grows as L_a x dwell_a / dwell_v: 76 s and 12 GB for "
-           "dwells 1e-4 s and 2 s)")
-
 
 @dataclass(frozen=True)
 class Case:
@@ -226,12 +222,10 @@ CAPS = [
     _post("sequences-of-coprime-lengths", A, lambda: b.edited(
         lambda: {"site": b.small_site(n_channels=limits.MAX_CHANNELS)},
         b.system_field(0, hop_set=None, sequence=list(range(limits.MAX_CHANNELS - 1))),
-        b.system_field(1, hop_set=None, sequence=list(range(limits.MAX_CHANNELS)))), (200,),
-        owners={"app": LCM, "server": LCM}, run=False),
+        b.system_field(1, hop_set=None, sequence=list(range(limits.MAX_CHANNELS)))), (200,)),
     _post("long-dwell-beside-short-dwell-with-sequences", A, lambda: {"site": b.sites.site([
         b.sites.system("v", range(79), dwell_s=1e-4, packet_airtime_s=1e-4, sequence=list(range(79))),
-        b.sites.system("a", range(79), dwell_s=10.0, packet_airtime_s=1e-3)])}, (200,),
-        owners={"app": HORIZON, "server": HORIZON}, run=False),
+        b.sites.system("a", range(79), dwell_s=10.0, packet_airtime_s=1e-3)])}, (200,)),
     _post("interferers-at-cap", A, lambda: b.interferers(limits.MAX_INTERFERERS), (200,)),
     _post("interferers-over-cap", A, lambda: b.interferers(limits.MAX_INTERFERERS + 1), pointer="/site/interferers"),
     _post("rejection-at-cap", A, lambda: b.rejection_rows(limits.MAX_REJECTION_POINTS), (200,)),

@@ -19,7 +19,7 @@ from cohop.planning.replan import RE_SHARES, CurrentSystem, ReplanMode, replan_s
 from cohop.planning.requirements import PlanRequirements
 from cohop.planning.engine import SHARES, SHARES_WITHOUT_CP_SAT, SolveSettings, plan_site
 from cohop.prepare import prepare_site
-from cohop.sequences.construct import (GROUP_CLAUSES, _group_spacing, _respace, build_sequences,
+from cohop.sequences.construct import (GROUP_CLAUSES, CommonRelabelling, _group_spacing, build_sequences,
                                       required_spacing_channels, spacing_ceiling)
 from tests import sites
 from tests.planning.helpers import instance, roomy, tiny_site
@@ -132,9 +132,10 @@ def test_sequences_for_a_tiny_delay_spread_are_built_and_keep_what_the_set_allow
 
 
 def test_the_repair_keeps_the_order_when_its_work_runs_out():
-    order = np.array([0, 1, 2, 3, 4, 5, 6, 7, 8, 9])
-    out, kept = _respace(order, 5, random.Random(0), work=3)
-    assert out.tolist() == order.tolist() and kept == 1
+    channels = np.arange(10)
+    family = CommonRelabelling(channels, list(range(10)), 11, [channels], [1], 5)
+    family.repair(random.Random(0), work=0)
+    assert family.order(0).tolist() == channels.tolist() and family.min_gap(0) == 1
 
 
 def _best_cyclic_spacing(channels) -> int:

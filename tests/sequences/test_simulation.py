@@ -8,20 +8,10 @@ import pytest
 from cohop import samples
 from cohop.assess import assess_site
 from cohop.prepare import prepare_site
-from cohop.sequences import simulate, theory
+from cohop.sequences import simulate
+from cohop.stats import hopping as theory
 from cohop.sequences.construct import build_sequences
 from tests import sites
-
-
-@pytest.mark.parametrize("p, rho, k", [(0.1, 0.0, 2), (0.1, 0.5, 2), (0.2, 0.3, 3), (0.05, 0.8, 1)])
-def test_markov_losses_follow_the_gilbert_elliott_form(p, rho, k):
-    # Domain reference section 5 [der]: with correlation rho between consecutive losses the residual after
-    # k retries is p (p + rho (1 - p))^k; rho = 0 gives p^(k+1). 99.9 % Wilson interval.
-    expected = p * (p + rho * (1 - p)) ** k
-    value, (lo, hi) = simulate.markov_residual(p, rho, k, 400_000, seed=11)
-    z = 3.29 / 1.96
-    half = (hi - lo) / 2 * z
-    assert abs(value - expected) <= half + 1e-12, (value, expected)
 
 
 def test_simulated_fading_has_the_jakes_envelope_correlation():
@@ -106,3 +96,45 @@ def test_neighbours_moving_in_step_cost_more_after_retries():
     in_step = simulate.simulate_retries(prep, stepped, 0, 100_000, 4, 100e-9)
     assert in_step.attempt_loss == pytest.approx(mine.attempt_loss, rel=0.35)
     assert in_step.residual_loss > 3 * mine.residual_loss, (in_step, mine)
+
+
+def test_a_long_packet_against_short_dwells_counts_hundreds_of_overlaps():
+    # v's 60 ms packet overlaps (T_v + T_a) / D_a = 601 of a's 0.1 ms dwells (cohop.stats.overlap), every one
+    # on a channel inside v's window (0 dB coupling: harmful at any offset), each active with 0.3 %. A hop is
+    # hit unless all are quiet: 1 - 0.997^601 = 0.836. A count kept in 8 bits wraps at 128 (601 -> 89:
+    # 0.234); the analytic assessment computes the same figure from the overlap count.
+    none = {"model": "none"}
+    body = sites.site([sites.system("v", range(10), dwell_s=0.1, packet_airtime_s=0.06, retry_limit=0, fading=none),
+                       sites.system("a", range(10), dwell_s=1e-4, packet_airtime_s=1e-4, activity_fraction=0.003,
+                                    fading=none)], coupling_loss_db=0.0, n_channels=10)
+    prep = prepare_site(sites.load(body))
+    assert prep.window[0, 1] >= 9 and prep.overlap_k0[0, 1] == 601
+    expected = 1 - 0.997**601
+    analytic = assess_site(prep).systems[0].attempt_loss_probability
+    assert analytic == pytest.approx(expected, rel=1e-6)
+    sim = simulate.simulate_retries(prep, [np.arange(10), np.arange(10)], 0, 20_000, 3, 100e-9)
+    assert sim.attempt_loss == pytest.approx(expected, abs=5 * math.sqrt(expected * (1 - expected) / 20_000))
+
+
+def _plain_count(seq_a, lo, hi, chan_v, width):
+    return np.array([sum(abs(int(seq_a[m % seq_a.size]) - int(c)) <= width for m in range(a, b + 1))
+                     for a, b, c in zip(lo, hi, chan_v)])
+
+
+def test_dwell_counts_both_ways_match_a_plain_loop():
+    # a's dwells m in [lo, hi] whose channel lies within the window of v's: dwell by dwell (short runs) and from
+    # running totals along a's period (long runs), against counting them one by one.
+    rng = np.random.default_rng(8)
+    seq_a = rng.integers(0, 30, 23)
+    prep = prepare_site(sites.load(sites.site([sites.system("a", range(30))], coupling_loss_db=None, n_channels=30)))
+    orders = simulate.Orders.of(prep, [seq_a])
+    lo = rng.integers(-100, 100, 500)
+    chan_v = rng.integers(0, 30, 500)
+    short = lo + rng.integers(-1, simulate._DRAWN_DWELLS + 1, 500)
+    expected = _plain_count(seq_a, lo, short, chan_v, 2)
+    drawn = simulate._counts_drawn(orders, np.zeros(500, dtype=int), chan_v, lo, short, np.full(500, 2))
+    assert drawn.tolist() == expected.tolist()
+    assert simulate._counts_from_totals(seq_a, chan_v, lo, short, 2).tolist() == expected.tolist()
+    long = lo + rng.integers(0, 200, 500)
+    assert simulate._counts_from_totals(seq_a, chan_v, lo, long, 2).tolist() == \
+        _plain_count(seq_a, lo, long, chan_v, 2).tolist()

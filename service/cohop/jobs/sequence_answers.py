@@ -10,7 +10,7 @@ from cohop.sequences.analysis import OrderFigures, PairFigures
 from cohop.sequences.construct import Sequence
 from cohop.sequences.report import SequenceOutcome
 from cohop.sequences.simulate import RetryFigures
-from cohop.sequences.theory import coherence_bandwidth_hz
+from cohop.stats.hopping import coherence_bandwidth_hz
 
 ALIGNMENT_NOTE = ("figures of slot-aligned systems depend on keeping alignment: see unaligned_hit_rate for what "
                   "the same sequences give when it is lost")

@@ -15,7 +15,7 @@ import numpy as np
 from cohop.regulatory import power
 from cohop.regulatory.power import GainReduction, PowerLimit
 from cohop.regulatory.rules import FAIL, PASS, WARNING, Finding, HopContext, Rule, RuleCheck
-from cohop.sequences.theory import max_visits_in_window, order_statistics
+from cohop.stats.hopping import max_visits_in_window, order_statistics
 
 #: Float noise allowance when comparing measured values with limits.
 _EPS = 1e-9

@@ -8,14 +8,14 @@ from dataclasses import dataclass
 import numpy as np
 
 from cohop.prepare import PreparedSite
-from cohop.sequences import theory
+from cohop.sequences import analysis
 from cohop.sequences.analysis import RUN_PHASES, SequenceReport, analyse
 from cohop.sequences.construct import GROUP_WORK_S, Sequence, build_sequences
-from cohop.sequences.simulate import RetryFigures, simulate_retries
+from cohop.sequences.simulate import RetryFigures, simulate_all
+from cohop.stats import hopping
 
-#: Simulated packets per system for the sequence-driven retry figures (default, and the server's cap).
+#: Simulated packets per system for the sequence-driven retry figures, unless the request says.
 DEFAULT_PACKETS = 5_000
-MAX_PACKETS = 1_000_000
 
 
 @dataclass
@@ -33,7 +33,7 @@ class SequenceOutcome:
 
 
 def delay_spread(prep: PreparedSite) -> float:
-    return prep.site.rms_delay_spread_s or theory.DEFAULT_RMS_DELAY_SPREAD_S
+    return prep.site.rms_delay_spread_s or hopping.DEFAULT_RMS_DELAY_SPREAD_S
 
 
 #: Simulated packets x systems^2 per run (the cost grows with both): large sites get fewer packets each.
@@ -45,17 +45,28 @@ def packets_for(prep: PreparedSite, requested: int) -> int:
 
 
 #: Calibrated costs of the sequence phases on our 2-core machines (`bench/bench_timelimits.py --phases`
-#: prints them measured): the analysis per ordered pair of systems besides the longest-run search, that
-#: search per (time offset x hop) cell, and one retry simulation per packet and system plus per packet,
-#: system and other system. Three simulations run (planned order, ascending order, common pattern).
-PAIR_S = 5e-4
-RUN_CELL_S = 1.5e-8
-SIM_PACKET_S = 5e-7
-SIM_SOURCE_S = 3e-7
+#: prints them measured beside these estimates): the construction per channel held; the analysis besides
+#: the longest-run search (a base, per system, per ordered pair of systems); that search per (time offset
+#: x hop) cell (at most `analysis.RUN_CELLS` in all) and per harmful cell of the exact search of
+#: equal-dwell pairs (at most `analysis.DIAGONAL_WORK`); and one retry simulation per system, per packet and
+#: system, and per packet, system and other system. Three simulations run (planned order, ascending
+#: order, common pattern).
+CONSTRUCT_PER_CHANNEL_S = 2.5e-5
+ANALYSIS_BASE_S = 3e-3
+ANALYSIS_PER_SYSTEM_S = 5e-4
+ANALYSIS_PER_PAIR_S = 2e-5
+RUN_CELL_S = 5e-8
+DIAGONAL_CELL_S = 1.5e-7
+SIM_SYSTEM_S = 1e-3
+SIM_PACKET_S = 3e-6
+SIM_SOURCE_S = 4e-8
 SIM_RUNS = 3
 #: The least work the sequences do however short the time limit.
 MIN_PACKETS = 200
 MIN_RUN_PHASES = 8
+#: What the sequence analysis and simulations of an assessment (given sequences) may take: an assessment
+#: has no time limit of its own, and this keeps it well inside the service's answer time.
+ASSESSMENT_SEQUENCE_S = 1.0
 
 
 @dataclass(frozen=True)
@@ -70,18 +81,31 @@ class SequenceWork:
 
 
 def _run_cells(prep: PreparedSite, sizes) -> int:
-    """Hops x offsets per offset of the longest-run search over every pair (`analysis.longest_run`)."""
+    """Cells (hops) per time offset of the longest-run search over every pair that may be harmed (an upper
+    bound: `analysis.longest_runs` also skips pairs with no channel in reach)."""
     n = np.asarray(sizes, dtype=float)
     dwell = np.array([s.dwell_s for s in prep.site.systems])
-    horizon = 2 * np.maximum(n[:, None], np.ceil(n[None, :] * dwell[None, :] / dwell[:, None]))
+    natural = 2 * np.maximum(n[:, None], np.ceil(n[None, :] * dwell[None, :] / dwell[:, None]))
     harmful = (prep.window >= 0) & ~np.eye(prep.n_systems, dtype=bool)
-    return int(horizon[harmful].sum())
+    return int(np.minimum(natural, analysis.RUN_HORIZON_HOPS)[harmful].sum())
 
 
-def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: float | None = None) -> SequenceWork:
+def _diagonal_cells(prep: PreparedSite, sizes) -> int:
+    """Harmful cells the exact search of equal-dwell pairs lists at most (each channel once per period:
+    a position of v meets at most 2 w + 1 positions of a), at most `analysis.DIAGONAL_WORK`."""
+    n = np.asarray(sizes, dtype=np.int64)
+    dwell = np.array([s.dwell_s for s in prep.site.systems])
+    equal = np.isclose(dwell[:, None], dwell[None, :], rtol=1e-12, atol=0.0) & ~np.eye(prep.n_systems, dtype=bool)
+    cells = n[:, None] * (1 + np.minimum(n[None, :], 2 * prep.window + 1))
+    return int(min(cells[equal & (prep.window >= 0)].sum(), analysis.DIAGONAL_WORK))
+
+
+def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: float | None = None,
+                  reason: str = "to keep the time limit") -> SequenceWork:
     """The full work (RUN_PHASES offsets, `packets_for` packets) if it fits in `seconds`; otherwise what
-    is left after the per-pair analysis is split between the longest-run search and the simulation,
-    never below MIN_RUN_PHASES and MIN_PACKETS. Deterministic: the same site and limit, the same work."""
+    is left after the fixed work (construction, analysis) is split between the longest-run search and
+    the simulation, never below MIN_RUN_PHASES and MIN_PACKETS. Deterministic: the same site and limit,
+    the same work."""
     s = prep.n_systems
     members: dict[str, int] = {}
     for system in prep.site.systems:
@@ -89,30 +113,35 @@ def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: fl
             members[system.time_base_group] = members.get(system.time_base_group, 0) + 1
     groups = sum(1 for n in members.values() if n > 1)
     group_work = GROUP_WORK_S if seconds is None or not groups else min(GROUP_WORK_S, 0.5 * seconds / groups)
-    fixed = s * (s - 1) * PAIR_S + groups * group_work
+    fixed = (CONSTRUCT_PER_CHANNEL_S * float(np.sum(sizes)) + ANALYSIS_BASE_S + ANALYSIS_PER_SYSTEM_S * s
+             + ANALYSIS_PER_PAIR_S * s * (s - 1) + DIAGONAL_CELL_S * _diagonal_cells(prep, sizes)
+             + SIM_RUNS * SIM_SYSTEM_S * s + groups * group_work)
     per_phase = _run_cells(prep, sizes) * RUN_CELL_S
+    most_cells = analysis.RUN_CELLS * RUN_CELL_S
     per_packet = SIM_RUNS * s * (SIM_PACKET_S + SIM_SOURCE_S * s)
     phases, packets = RUN_PHASES, packets_for(prep, requested_packets)
 
     def cost(ph: int, pk: int) -> float:
-        return fixed + ph * per_phase + pk * per_packet
+        return fixed + min(ph * per_phase, most_cells) + pk * per_packet
 
     notes = []
     if seconds is not None and cost(phases, packets) > seconds:
         spare = max(0.0, seconds - fixed)
         phases = int(np.clip(math.floor(0.5 * spare / max(per_phase, 1e-12)), MIN_RUN_PHASES, RUN_PHASES))
-        packets = int(np.clip(math.floor((spare - phases * per_phase) / per_packet), MIN_PACKETS, packets))
-        notes.append(f"to keep the time limit, each pair's longest run was searched over {phases} time offsets "
+        packets = int(np.clip(math.floor((spare - min(phases * per_phase, most_cells)) / per_packet),
+                              MIN_PACKETS, packets))
+        notes.append(f"{reason}, each pair's longest run was searched over {phases} time offsets "
                      f"(not {RUN_PHASES}) and the retry simulations used {packets} packets per system"
                      if phases < RUN_PHASES else
-                     f"to keep the time limit, the retry simulations used {packets} packets per system")
+                     f"{reason}, the retry simulations used {packets} packets per system")
     return SequenceWork(packets=packets, run_phases=phases, estimate_s=cost(phases, packets), group_work_s=group_work,
                         notes=tuple(notes))
 
 
-def _retries(prep, orders, packets, seed, sigma, exact: bool = False) -> list[RetryFigures]:
+def _retries(prep, orders, packets, seed, sigma, reach, exact: bool = False) -> list[RetryFigures]:
+    """`reach`: which systems can hit which (`SequenceReport.reach`; every variant visits the same channels)."""
     n = packets if exact else packets_for(prep, packets)
-    return [simulate_retries(prep, orders, v, n, seed, sigma) for v in range(prep.n_systems)]
+    return simulate_all(prep, orders, n, seed, sigma, reach)
 
 
 def common_pattern(orders: list[np.ndarray]) -> list[np.ndarray]:
@@ -140,9 +169,11 @@ def outcome(prep: PreparedSite, sequences: list[Sequence], notes: list[str], pac
     aligned = any(p.aligned and p.aligned_hit_rate is not None and p.aligned_hit_rate < p.unaligned_hit_rate
                   for p in report.pairs)
     n, exact = (work.packets, True) if work is not None else (packets, False)
-    return SequenceOutcome(report=report, delay_spread_s=sigma, retries=_retries(prep, orders, n, seed, sigma, exact),
-                           poor_order=_retries(prep, poor, n, seed, sigma, exact),
-                           common_pattern=_retries(prep, common_pattern(orders), n, seed, sigma, exact),
+    reach = report.reach
+    return SequenceOutcome(report=report, delay_spread_s=sigma,
+                           retries=_retries(prep, orders, n, seed, sigma, reach, exact),
+                           poor_order=_retries(prep, poor, n, seed, sigma, reach, exact),
+                           common_pattern=_retries(prep, common_pattern(orders), n, seed, sigma, reach, exact),
                            depends_on_alignment=aligned)
 
 
@@ -155,8 +186,10 @@ def plan_sequences(prep: PreparedSite, hop_sets, seed: int, packets: int = DEFAU
     return outcome(prep, sequences, notes, packets, seed, work)
 
 
-def given_sequences(prep: PreparedSite, packets: int, seed: int) -> SequenceOutcome | None:
-    """The request's own sequences (systems without one are left out of pair figures)."""
+def given_sequences(prep: PreparedSite, packets: int, seed: int,
+                    seconds: float = ASSESSMENT_SEQUENCE_S) -> SequenceOutcome | None:
+    """The request's own sequences, analysed and simulated within about `seconds` of work (systems without
+    one get a random order of their hop set in its place)."""
     if all(s.sequence is None for s in prep.site.systems):
         return None
     rng = np.random.Generator(np.random.PCG64(seed))
@@ -170,4 +203,5 @@ def given_sequences(prep: PreparedSite, packets: int, seed: int) -> SequenceOutc
             notes.append(f"{s.id}: no sequence given; a random order stands in for it")
         seqs.append(Sequence(system=v, channels=order, construction=how, component=-1, required_spacing=1,
                              group=s.time_base_group))
-    return outcome(prep, seqs, notes, packets, seed)
+    work = sequence_work(prep, [q.channels.size for q in seqs], packets, seconds, reason="to bound the work")
+    return outcome(prep, seqs, notes, packets, seed, work)

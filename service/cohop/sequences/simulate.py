@@ -3,24 +3,31 @@
 A packet of victim v starts on a random hop of its sequence; attempt k uses
 the next `hops_per_attempt` hops. Every other system keeps one random time
 offset over its whole period for the packet (slot-aligned group members keep
-the plan's alignment)
-and is active in each of its dwells independently; its channel at any time
-is read from its own sequence. A hop is hit when an overlapping active burst
-lies inside v's harmful window; fixed interferers hit as in the analytic
-model (independently per attempt; bursty ones through their phase, kept
-for the packet). Fading follows the hops: the complex gain is AR(1) from hop
-to hop with magnitude sqrt(r), r the envelope correlation at that frequency
-step (`theory.envelope_correlation`, Jakes), since the envelope correlation
-of Rayleigh fading is close to the squared magnitude of the complex one
-[mem]; Rician channels add their fixed line-of-sight part. A hop fades when
-the power falls below 10^(-M/10) of the mean.
+the plan's alignment) and is active in each of its dwells independently; its
+channel at any time is read from its own sequence. A hop is hit when an
+overlapping active burst lies inside v's harmful window; fixed interferers
+hit as in the analytic model (independently per attempt; bursty ones through
+their phase, kept for the packet). Fading follows the hops: the complex gain
+is AR(1) from hop to hop with magnitude sqrt(r), r the envelope correlation
+at that frequency step (`cohop.stats.hopping.envelope_correlation`, after
+Jakes, "Microwave Mobile Communications", 1974), since the envelope
+correlation of Rayleigh fading is close to the squared magnitude of the
+complex one [mem]; Rician channels add their fixed line-of-sight part. A hop
+fades when the power falls below 10^(-M/10) of the mean.
+
+Source a's dwells m that overlap v's packet starting at t0 are those with
+m D_a + phi < t0 + T_v and m D_a + phi + T_a > t0, a run of consecutive m; of
+them, the ones whose channel lies in v's window are counted (up to
+`cohop.limits.MAX_OVERLAPS` and more, in 64-bit integers), and each is active
+independently, so the hop is hit with probability 1 - (1 - alpha_a)^count.
+All sources that can reach v are drawn together (their counts as one array);
+a source overlapping many dwells has its counts read from running totals
+along its sequence instead of dwell by dwell.
 
 The residual loss after the retry limit is then counted directly and
 reported beside p^(k+1), the independent-attempt figure from the same
 simulated per-attempt loss, so their difference is the cost of correlation.
-
-`markov_residual` simulates a two-state (Gilbert-Elliott) loss chain; the
-tests check the retry accounting against p (p + rho (1 - p))^k with it.
+Intervals are Wilson's (`cohop.stats.intervals`).
 """
 
 from __future__ import annotations
@@ -31,7 +38,15 @@ from dataclasses import dataclass
 import numpy as np
 
 from cohop.prepare import PreparedSite
-from cohop.sequences import theory
+from cohop.stats import hopping
+from cohop.stats.intervals import wilson_interval
+
+#: Cells (sources x packets x hops) per working array of the source draws.
+_CHUNK_ELEMENTS = 1 << 20
+#: Sources whose packets overlap more dwells than this are counted from running totals.
+_DRAWN_DWELLS = 8
+#: Table entries (v's channels x a's period) per block of those running totals.
+_TABLE_ELEMENTS = 1 << 20
 
 
 @dataclass(frozen=True)
@@ -44,12 +59,6 @@ class RetryFigures:
     independent_residual: float  # attempt_loss^(k+1)
 
 
-def _wilson(hits: int, n: int) -> tuple[float, float]:
-    from cohop.montecarlo import SimulatedRate
-
-    return SimulatedRate(hits, n).interval()
-
-
 def _fades(rng, channels_per_hop: np.ndarray, prep: PreparedSite, v: int, sigma_tau: float) -> np.ndarray:
     """(packets, hops) booleans: the hop fades. channels_per_hop holds v's channel on each hop."""
     system = prep.site.systems[v]
@@ -57,7 +66,7 @@ def _fades(rng, channels_per_hop: np.ndarray, prep: PreparedSite, v: int, sigma_
         return np.zeros(channels_per_hop.shape, dtype=bool)
     n, hops = channels_per_hop.shape
     df = np.abs(np.diff(channels_per_hop, axis=1)) * prep.spacing_hz
-    rho = np.sqrt(theory.envelope_correlation(df, sigma_tau))
+    rho = np.sqrt(hopping.envelope_correlation(df, sigma_tau))
     g = np.empty((n, hops), dtype=complex)
     noise = (rng.standard_normal((n, hops)) + 1j * rng.standard_normal((n, hops))) / math.sqrt(2)
     g[:, 0] = noise[:, 0]
@@ -70,34 +79,131 @@ def _fades(rng, channels_per_hop: np.ndarray, prep: PreparedSite, v: int, sigma_
     return np.abs(g) ** 2 < threshold
 
 
-def _system_hits(rng, prep: PreparedSite, v: int, a: int, seq_v: np.ndarray, seq_a: np.ndarray,
-                 start: np.ndarray, hops: int) -> np.ndarray:
-    """(packets, hops): a hits v's hop."""
-    w = int(prep.window[v, a])
-    n = start.size
-    if w < 0 or np.abs(np.subtract.outer(seq_v, seq_a)).min() > w:  # a never comes inside v's window
-        return np.zeros((n, hops), dtype=bool)
-    sv, sa = prep.site.systems[v], prep.site.systems[a]
-    t0 = (start[:, None] + np.arange(hops)[None, :]) * sv.dwell_s  # packet starts on each hop
-    # a random time offset over a's whole period (its sequence is not tied to v's), unless slot-aligned
-    phase = np.zeros((n, 1)) if prep.links[v][a].aligned else rng.random((n, 1)) * sa.dwell_s * seq_a.size
-    chan_v = seq_v[(start[:, None] + np.arange(hops)[None, :]) % seq_v.size]
-    exposures = np.zeros((n, hops), dtype=np.int8)  # a's packets that overlap v's and sit in its window
-    span = math.ceil((sv.packet_airtime_s + sa.packet_airtime_s) / sa.dwell_s) + 1
-    first = np.floor((t0 - sa.packet_airtime_s - phase) / sa.dwell_s).astype(np.int64)
-    for j in range(span + 1):
-        m = first + j
-        begin = m * sa.dwell_s + phase
-        overlaps = (begin < t0 + sv.packet_airtime_s) & (begin + sa.packet_airtime_s > t0)
-        exposures += overlaps & (np.abs(seq_a[m % seq_a.size] - chan_v) <= w)
-    # each exposed dwell transmits independently with a's activity: one draw per hop for all of them
-    return rng.random((n, hops)) < 1.0 - (1.0 - sa.activity_fraction) ** exposures
+@dataclass(frozen=True)
+class Orders:
+    """Every system's order, laid out once for a whole simulation run: one flat array holding each order
+    followed by its first _DRAWN_DWELLS + 1 hops again (so that a run of dwells from any start needs no
+    wrap), and the sorted keys a K + channel of the channels each system visits (K wider than any channel
+    plus two windows), which say at once which of v's channels a source can reach."""
+
+    sequences: tuple[np.ndarray, ...]
+    flat: np.ndarray
+    first: np.ndarray  # (S,) where each order starts in `flat`
+    size: np.ndarray  # (S,) its period in hops
+    keys: np.ndarray
+    span: int
+
+    @classmethod
+    def of(cls, prep: PreparedSite, sequences) -> "Orders":
+        seqs = tuple(np.asarray(q, dtype=np.int64) for q in sequences)
+        tiled = [np.resize(q, q.size + _DRAWN_DWELLS + 1) for q in seqs]
+        first = np.cumsum([0] + [t.size for t in tiled[:-1]])
+        span = 3 * prep.n_channels + 2
+        keys = np.unique(np.concatenate([a * span + q for a, q in enumerate(seqs)]))
+        return cls(seqs, np.concatenate(tiled), first, np.array([q.size for q in seqs]), keys, span)
+
+    def near(self, sources: np.ndarray, channels: np.ndarray, width: np.ndarray) -> np.ndarray:
+        """(A, D): does some channel of source sources[i] lie within width[i] of channels[d]?"""
+        base = sources[:, None] * self.span + channels[None, :]
+        w = np.maximum(width, 0)[:, None]
+        at = np.searchsorted(self.keys, base - w, side="left")
+        return (at < self.keys.size) & (self.keys[np.minimum(at, self.keys.size - 1)] <= base + w)
+
+    def reach(self, prep: PreparedSite, v: int) -> np.ndarray:
+        """(S,) bool: some channel of a's order lies inside v's harmful window of some channel of v's."""
+        others = np.array([a for a in range(prep.n_systems) if a != v], dtype=np.int64)
+        out = np.zeros(prep.n_systems, dtype=bool)
+        if others.size:
+            width = prep.window[v, others]
+            out[others] = (width >= 0) & self.near(others, np.unique(self.sequences[v]), width).any(axis=1)
+        return out
+
+
+def _counts_drawn(orders: Orders, source: np.ndarray, chan_v, lo, hi, width) -> np.ndarray:
+    """Dwells of each cell's source in [lo, hi] (at most _DRAWN_DWELLS + 1 of them) on a channel within its
+    `width` of `chan_v`, dwell by dwell, for flat arrays of cells."""
+    span = hi - lo + 1
+    at = orders.first[source] + lo % orders.size[source]
+    out = np.zeros(lo.shape, dtype=np.int64)
+    for j in range(int(span.max(initial=0))):
+        out += (np.abs(orders.flat[at + j] - chan_v) <= width) & (span > j)
+    return out
+
+
+def _counts_from_totals(seq_a: np.ndarray, chan_v: np.ndarray, lo, hi, width: int) -> np.ndarray:
+    """Dwells m in [lo, hi] of a with |seq_a[m mod L] - chan_v| <= width (flat arrays of cells), from
+    running totals of each of v's channels along a's period: whole periods, then the part left."""
+    size = seq_a.size
+    channels, which = np.unique(chan_v, return_inverse=True)
+    count = np.maximum(hi - lo + 1, 0)
+    begin = lo % size
+    full, rest = count // size, count % size
+    out = np.zeros(chan_v.shape, dtype=np.int64)
+    block = max(1, _TABLE_ELEMENTS // (size + 1))
+    for b in range(0, channels.size, block):
+        mine = channels[b:b + block]
+        totals = np.zeros((mine.size, size + 1), dtype=np.int64)
+        np.cumsum(np.abs(seq_a[None, :] - mine[:, None]) <= width, axis=1, out=totals[:, 1:])
+        cells = (which >= b) & (which < b + mine.size)
+        row = which[cells] - b
+        start, end = begin[cells], begin[cells] + rest[cells]
+        wrapped = end > size
+        part = np.where(wrapped, totals[row, size] - totals[row, start] + totals[row, np.where(wrapped, end - size, 0)],
+                        totals[row, np.minimum(end, size)] - totals[row, start])
+        out[cells] = full[cells] * totals[row, size] + part
+    return out
+
+
+def _system_hits(rng, prep: PreparedSite, v: int, orders: Orders, sources: np.ndarray, hop: np.ndarray) -> np.ndarray:
+    """(packets, hops): some source in `sources` hits v's hop (`hop`: v's hop numbers). Each source keeps one
+    random time offset over its whole period for the packet (none when slot-aligned with v). Only the
+    (source, hop) cells whose channel has some channel of the source within its window are looked at."""
+    n, hops = hop.shape
+    cells = n * hops
+    chan_v = orders.sequences[v][hop % orders.size[v]].ravel()
+    distinct, which = np.unique(chan_v, return_inverse=True)
+    lost = np.zeros(cells, dtype=bool)
+    systems = prep.site.systems
+    sv = systems[v]
+    dwell_all = np.array([s.dwell_s for s in systems])
+    airtime_all = np.array([s.packet_airtime_s for s in systems])
+    aligned_all = np.array([link is not None and link.aligned for link in prep.links[v]])
+    per_chunk = max(1, _CHUNK_ELEMENTS // cells)
+    for c in range(0, sources.size, per_chunk):
+        chunk = sources[c:c + per_chunk]
+        width, dwell, airtime = prep.window[v, chunk], dwell_all[chunk], airtime_all[chunk]
+        period = orders.size[chunk] * dwell
+        phase = np.where(aligned_all[chunk][:, None], 0.0, rng.random((chunk.size, n)) * period[:, None])
+        found = np.flatnonzero(orders.near(chunk, distinct, width)[:, which])  # (source, cell) worth a look
+        i, cell = found // cells, found % cells
+        # a's dwells m overlapping v's packet [t0, t0 + T_v), t0 = hop x D_v: with z = (t0 - phi) / D_a, m runs
+        # from floor(z - T_a / D_a) + 1 to ceil(z + T_v / D_a) - 1
+        z = (hop.ravel()[cell] * sv.dwell_s - phase[i, cell // hops]) / dwell[i]
+        lo = np.floor(z - (airtime / dwell)[i]).astype(np.int64) + 1
+        hi = np.ceil(z + sv.packet_airtime_s / dwell[i]).astype(np.int64) - 1
+        many = np.ceil((sv.packet_airtime_s + airtime) / dwell) + 1 > _DRAWN_DWELLS
+        counts = np.zeros(found.size, dtype=np.int64)
+        drawn = ~many[i]
+        if drawn.any():
+            counts[drawn] = _counts_drawn(orders, chunk[i[drawn]], chan_v[cell[drawn]], lo[drawn], hi[drawn],
+                                          width[i[drawn]])
+        for k in np.flatnonzero(many):
+            mine = i == k
+            counts[mine] = _counts_from_totals(orders.sequences[chunk[k]], chan_v[cell[mine]], lo[mine], hi[mine],
+                                               int(width[k]))
+        # each exposed dwell transmits independently with a's activity: one draw per exposed cell for all
+        exposed = np.flatnonzero(counts)
+        quiet = (1.0 - prep.activity[chunk])[i[exposed]] ** counts[exposed]
+        lost[cell[exposed[rng.random(exposed.size) < 1.0 - quiet]]] = True
+    return lost.reshape(n, hops)
 
 
 def _interferer_hits(rng, prep: PreparedSite, v: int, k: int, chan_v: np.ndarray, t0: np.ndarray) -> np.ndarray:
     link = prep.interferer_links[v][k]
     lo, hi = prep.interferer_range[v, k]
     harmed = (chan_v >= lo) & (chan_v < hi)
+    if not harmed.any():
+        return harmed
     itf = prep.site.interferers[k]
     if itf.burst_s is None:
         return harmed & (rng.random(chan_v.shape) < link.activity_fraction)
@@ -112,41 +218,39 @@ def _interferer_hits(rng, prep: PreparedSite, v: int, k: int, chan_v: np.ndarray
     return hit & harmed
 
 
-def simulate_retries(prep: PreparedSite, sequences: list[np.ndarray], v: int, packets: int, seed: int,
-                     rms_delay_spread_s: float) -> RetryFigures:
-    """Residual loss of system v after its retry limit, driven by every system's actual sequence."""
+def simulate_retries(prep: PreparedSite, sequences, v: int, packets: int, seed: int, rms_delay_spread_s: float,
+                     reach: np.ndarray | None = None) -> RetryFigures:
+    """Residual loss of system v after its retry limit, driven by every system's actual sequence
+    (`sequences`: one order per system, or an `Orders` built once for several victims). `reach` ((S,)
+    bool, see `Orders.reach`) names the systems that can hit v, if already known."""
+    orders = sequences if isinstance(sequences, Orders) else Orders.of(prep, sequences)
     rng = np.random.Generator(np.random.PCG64([seed, v]))
     system = prep.site.systems[v]
     attempts = system.retry_limit + 1
     per = system.hops_per_attempt
     hops = attempts * per
-    seq_v = np.asarray(sequences[v])
+    seq_v = orders.sequences[v]
     start = rng.integers(0, seq_v.size, packets)
-    chan_v = seq_v[(start[:, None] + np.arange(hops)[None, :]) % seq_v.size]
+    hop = start[:, None] + np.arange(hops)[None, :]
+    chan_v = seq_v[hop % seq_v.size]
     lost = _fades(rng, chan_v, prep, v, rms_delay_spread_s)
-    for a in range(prep.n_systems):
-        if a != v:
-            lost |= _system_hits(rng, prep, v, a, seq_v, np.asarray(sequences[a]), start, hops)
-    t0 = (start[:, None] + np.arange(hops)[None, :]) * system.dwell_s
+    reach = orders.reach(prep, v) if reach is None else np.asarray(reach, dtype=bool)
+    sources = np.flatnonzero(reach & (np.arange(prep.n_systems) != v))
+    if sources.size:
+        lost |= _system_hits(rng, prep, v, orders, sources, hop)
+    t0 = hop * system.dwell_s
     for k in range(len(prep.site.interferers)):
         lost |= _interferer_hits(rng, prep, v, k, chan_v, t0)
     attempt_lost = lost.reshape(packets, attempts, per).any(axis=2)
     residual_hits = int(np.count_nonzero(attempt_lost.all(axis=1)))
     p = float(attempt_lost.mean())
     return RetryFigures(system=v, packets=packets, attempt_loss=p, residual_loss=residual_hits / packets,
-                        residual_interval=_wilson(residual_hits, packets), independent_residual=p**attempts)
+                        residual_interval=wilson_interval(residual_hits, packets), independent_residual=p**attempts)
 
 
-def markov_residual(p: float, rho: float, retries: int, packets: int, seed: int) -> tuple[float, tuple[float, float]]:
-    """Residual loss of a two-state loss chain: stationary loss p, P(loss | loss) = p + rho (1 - p)."""
-    rng = np.random.Generator(np.random.PCG64(seed))
-    stay = p + rho * (1 - p)
-    enter = p * (1 - stay) / (1 - p) if p < 1 else 1.0
-    state = rng.random(packets) < p
-    all_lost = state.copy()
-    for _ in range(retries):
-        u = rng.random(packets)
-        state = np.where(state, u < stay, u < enter)
-        all_lost &= state
-    hits = int(np.count_nonzero(all_lost))
-    return hits / packets, _wilson(hits, packets)
+def simulate_all(prep: PreparedSite, sequences, packets: int, seed: int, rms_delay_spread_s: float,
+                 reach: np.ndarray | None = None) -> list[RetryFigures]:
+    """`simulate_retries` for every system, the orders laid out once."""
+    orders = Orders.of(prep, sequences)
+    return [simulate_retries(prep, orders, v, packets, seed, rms_delay_spread_s, None if reach is None else reach[v])
+            for v in range(prep.n_systems)]

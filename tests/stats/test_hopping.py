@@ -1,9 +1,12 @@
-"""Sequence theory against the published family properties and bounds (brute force)."""
+"""Hopping-sequence theory against the published family properties and bounds, and brute force."""
 
 import numpy as np
 import pytest
 
-from cohop.sequences import theory
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from cohop.stats import hopping as theory
 
 
 @pytest.mark.parametrize("p", [5, 7, 11, 13, 17])
@@ -36,8 +39,8 @@ def test_peng_fan_bound_worked_values():
 
 
 def test_common_relabelling_keeps_the_correlation():
-    # Relabelling every member with one permutation of the channels keeps the Hamming correlation (domain
-    # reference section 5): coincidences are equalities, which a bijection preserves.
+    # Relabelling every member with one permutation of the channels keeps the Hamming correlation (Shaar and
+    # Davies 1984): coincidences are equalities, which a bijection preserves.
     rng = np.random.default_rng(4)
     p = 11
     perm = rng.permutation(p)
@@ -71,3 +74,61 @@ def test_order_statistics_and_visits():
     assert theory.max_visits_in_window([0, 1, 2, 3], 2, 4) == 1
     assert theory.max_visits_in_window([0, 1, 0, 2], 0, 3) == 2
     assert theory.max_visits_in_window([0, 1, 2, 3], 1, 9) == 3  # windows of 9 hops see 2 or 3 visits
+
+
+def _brute_counts(x, y) -> list[int]:
+    """H_xy(tau) for tau = 0..lcm-1, walking the whole common period (the definition)."""
+    x, y = np.asarray(x), np.asarray(y)
+    period = int(np.lcm(x.size, y.size))
+    t = np.arange(period)
+    return [int(np.count_nonzero(x[t % x.size] == y[(t + tau) % y.size])) for tau in range(period)]
+
+
+sequences = st.lists(st.integers(0, 6), min_size=1, max_size=14)
+
+
+@settings(max_examples=300, deadline=None)
+@given(sequences, sequences)
+def test_counting_by_offset_class_matches_walking_the_common_period(x, y):
+    # The Chinese-remainder count (module docstring) against the definition, every shift of the period.
+    counts = theory.coincidence_counts(x, y)
+    brute = _brute_counts(x, y)
+    g = np.gcd(len(x), len(y))
+    assert counts.size == g
+    assert brute == [int(counts[tau % g]) for tau in range(len(brute))]
+    assert theory.coincidences_over_common_period(x, y) == (max(brute), len(brute))
+
+
+def test_heavily_repeated_channels_are_counted_by_fft_exactly():
+    # 60 visits to channel 0 in x and 45 in y over a gcd of 15: 2700 pairs > 8 x 15, the FFT path.
+    rng = np.random.default_rng(3)
+    x = np.where(rng.random(120) < 0.5, 0, rng.integers(1, 9, 120))
+    y = np.where(rng.random(90) < 0.5, 0, rng.integers(1, 9, 90))
+    counts = theory.coincidence_counts(x, y)
+    assert [int(counts[tau % 30]) for tau in range(360)] == _brute_counts(x, y)
+
+
+def test_coprime_lengths_at_the_cap_are_counted_without_the_common_period():
+    # 8191 and 8192 hops (the hostile corpus' case): the common period is 67 million hops, but g = 1, so
+    # every coincidence falls in one class: the 8191 shared channels meet once each.
+    x, y = np.arange(8191), np.arange(8192)
+    best, period = theory.coincidences_over_common_period(x, y)
+    assert (best, period) == (8191, 8191 * 8192)
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(sequences, min_size=2, max_size=4))
+def test_all_pairs_at_once_match_pair_by_pair(orders):
+    matrix = theory.max_coincidences_between(orders)
+    for i, x in enumerate(orders):
+        for j, y in enumerate(orders):
+            if i != j:
+                assert matrix[i, j] == max(_brute_counts(x, y))
+    assert theory.max_coincidences_between(orders, work=0) is None or matrix.max() == 0
+
+
+def test_the_family_with_a_shared_prime_set_is_one_coincidence_all_pairs_at_once():
+    # Titlebaum 1981: s_a(t) = a t mod p meet exactly once per period at every shift.
+    family = theory.linear_congruence_family(13)
+    matrix = theory.max_coincidences_between(family)
+    assert (matrix + np.eye(12, dtype=int) == 1).all()
