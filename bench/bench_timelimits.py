@@ -134,7 +134,8 @@ def phases() -> None:
     from cohop.jobs.plan import plan_answer
     from cohop.jobs.requests import load_plan_request
     from cohop.assess import assess_site
-    from cohop.planning import costs, cpsat, model, search
+    from cohop import cpsat
+    from cohop.planning import costs, model, search
     from cohop.planning.instance import build_instance
     from cohop.planning.linear import hop_sets_of
     from cohop.planning.engine import SolveSettings, _baselines, plan_site

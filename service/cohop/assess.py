@@ -1,6 +1,6 @@
 """Analytic evaluation of hop sets on a prepared site.
 
-For victim v on channel c of its hop set A_v (domain reference section 4):
+For victim v on channel c of its hop set A_v (random-phase overlap [derived], uniform hopping):
 
 1. Source system a hurts the hop when one of its overlapped bursts lands on a
    channel c' of A_a with |c - c'| <= window[v, a] (`cohop.prepare`). With h

@@ -41,7 +41,7 @@ import traceback
 from typing import Any, Callable
 
 from cohop.errors import DomainError, SolveAbandoned, SolverCrashed
-from cohop.planning import deadline as deadlines
+from cohop import deadline as deadlines
 
 log = logging.getLogger("cohop.solver")
 

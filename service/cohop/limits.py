@@ -12,8 +12,8 @@ verbatim). Two kinds of bound:
   the request is bounded by (overlap counts, survey integration, simulated
   hops, error lists).
 
-Sources marked [mem] are recalled, not checked against the original (see
-the domain reference's marks); "our choice" is a round figure with headroom.
+Sources marked [mem] are recalled, not checked against the original;
+"our choice" is a round figure with headroom.
 """
 
 from __future__ import annotations
@@ -49,8 +49,8 @@ AIRTIME_S = Bound(1e-6, 10.0, "s", "a packet of a few symbols lasts microseconds
 BURST_S = Bound(1e-6, 3600.0, "s", "an interferer's burst: a radar pulse lasts about 1 us; at most its period")
 PERIOD_S = Bound(1e-6, 3600.0, "s", "an interferer that returns less often than hourly is better given as "
                                     "continuous or left out")
-DELAY_SPREAD_S = Bound(10e-9, 10e-6, "s", "factory RMS delay spreads are 30-300 ns (Rappaport 1989, domain reference "
-                                          "section 5); 10 ns covers small rooms, 10 us hilly outdoor sites [mem]")
+DELAY_SPREAD_S = Bound(10e-9, 10e-6, "s", "factory RMS delay spreads are 30-300 ns (Rappaport, IEEE Trans. "
+                                          "Antennas Propag. 37(8), 1989); 10 ns covers small rooms, 10 us hilly outdoor sites [mem]")
 TIME_LIMIT_S = Bound(0.1, 3600.0, "s", "a search budget; the server's COHOP_MAX_SOLVE_S clamps it further")
 
 #: Most bursts of one source that one packet can overlap, (T_v + T_a) / D_a (and (T_v + burst) / period).

@@ -6,7 +6,7 @@ import itertools
 
 import numpy as np
 
-from cohop.planning.deadline import Deadline
+from cohop.deadline import Deadline
 from cohop.planning.instance import build_instance
 from cohop.planning.linear import objective_value, occupancy, system_estimates
 from cohop.planning.requirements import PlanRequirements, SystemRequirement

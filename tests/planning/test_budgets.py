@@ -12,8 +12,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from cohop import samples
-from cohop.planning import cpsat, search
-from cohop.planning.deadline import Deadline
+from cohop import cpsat
+from cohop.planning import search
+from cohop.deadline import Deadline
 from cohop.planning.diagnose import diagnose
 from cohop.planning.replan import RE_SHARES, CurrentSystem, ReplanMode, replan_site
 from cohop.planning.requirements import PlanRequirements

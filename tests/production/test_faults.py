@@ -58,7 +58,7 @@ def test_the_client_watch_tells_an_open_connection_from_a_closed_one():
 
 
 def _announces_a_late_end() -> str:
-    from cohop.planning.deadline import Deadline
+    from cohop.deadline import Deadline
 
     Deadline.of(1.0, 1.0).expect(time.monotonic() + 20.0)  # a site whose closing phases outlast its limit
     time.sleep(3.0)

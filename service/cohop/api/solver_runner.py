@@ -29,7 +29,7 @@ from cohop.isolation import SolveSlots, run_isolated
 from cohop.jobs.plan import run_plan
 from cohop.jobs.replan import run_replan
 from cohop.jobs.requests import PlanRequest, ReplanRequest
-from cohop.planning.deadline import Deadline
+from cohop.deadline import Deadline
 from cohop.planning.engine import SolveSettings
 
 log = logging.getLogger("cohop.solver")

@@ -12,7 +12,7 @@ from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, assessment_answ
                                 planned_systems, prepared)
 from cohop.jobs.requests import PlanRequest
 from cohop.jobs.sequence_answers import SequencesAnswer, sequences_answer
-from cohop.planning.deadline import Deadline
+from cohop.deadline import Deadline
 from cohop.planning.engine import NO_PLAN, BaselineResult, PlanResult, SolveSettings, plan_site
 from cohop.planning.requirements import Progress
 from cohop.planning.validate import Violation

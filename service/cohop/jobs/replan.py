@@ -11,7 +11,7 @@ from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, assessment_answ
                                 planned_systems, prepared)
 from cohop.jobs.requests import ReplanRequest
 from cohop.jobs.sequence_answers import SequencesAnswer, sequences_answer
-from cohop.planning.deadline import Deadline
+from cohop.deadline import Deadline
 from cohop.planning.engine import PlanResult, SolveSettings, evaluated_objective
 from cohop.planning.replan import ReplanMode, ReplanResult, replan_site
 

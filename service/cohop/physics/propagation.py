@@ -52,7 +52,7 @@ def p1238_loss_db(frequency_hz, distance_m, power_loss_coefficient, floor_loss_d
 
 
 # [3] table 2: distance power-loss coefficient N, by frequency range and
-# environment. Only the entries reproduced in our domain reference are here.
+# environment. Only the entries of the early edition's table that several texts reproduce are here.
 _P1238_N = {
     "900MHz": {"office": 33.0, "commercial": 20.0},
     "1.8-2GHz": {"residential": 28.0, "office": 30.0, "commercial": 22.0},

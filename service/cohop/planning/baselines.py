@@ -1,4 +1,4 @@
-"""What a practitioner would do without a planner (domain reference section 7).
+"""What a practitioner would do without a planner (common practice).
 
 Each baseline returns one hop set per system. They use each system's allowed
 channels (usable, not excluded) and channel count where that makes sense, but

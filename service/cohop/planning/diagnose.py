@@ -18,9 +18,9 @@ import numpy as np
 from ortools.sat.python import cp_model
 
 from cohop.errors import Conflict
-from cohop.planning import cpsat
+from cohop import cpsat
 from cohop.planning import model as groups
-from cohop.planning.deadline import Budget, Deadline
+from cohop.deadline import Budget, Deadline
 from cohop.planning.instance import PlanningInstance, runs
 
 #: Calibrated seconds of CP-SAT work for a diagnosis when the caller gives no budget.

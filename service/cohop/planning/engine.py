@@ -23,8 +23,9 @@ import numpy as np
 from cohop.assess import Assessment, assess_site
 from cohop.config import default_of
 from cohop.errors import PlanInfeasible
-from cohop.planning import baselines, bound, costs, cpsat, model, search
-from cohop.planning.deadline import Budget, Deadline
+from cohop import cpsat
+from cohop.planning import baselines, bound, costs, model, search
+from cohop.deadline import Budget, Deadline
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import PlanningInstance, build_instance, without_inter_system_terms
 from cohop.planning.linear import hop_sets_of, marginal_costs, objective_value, system_estimates

@@ -22,7 +22,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Callable
+from typing import Callable, NamedTuple
 
 import numpy as np
 from ortools.sat.python import cp_model
@@ -32,10 +32,30 @@ from cohop.planning.instance import PlanningInstance
 Enforce = Callable[[str, tuple], "cp_model.IntVar | None"]
 
 
+class PairVar(NamedTuple):
+    """The boolean that is 1 when victim-side system v uses channel c and system a uses channel c2."""
+
+    var: cp_model.IntVar
+    v: int
+    c: int
+    a: int
+    c2: int
+
+
+class PairCost(NamedTuple):
+    """The linearised cost of pair boolean `index` (into ModelVars.z): weighted for the objective, and the
+    unweighted parts it adds to v's and to a's per-hop estimate."""
+
+    index: int
+    weighted: float
+    to_victim: float
+    to_source: float
+
+
 @dataclass
 class ModelVars:
     x: dict[tuple[int, int], cp_model.IntVar] = field(default_factory=dict)
-    z: list[tuple[cp_model.IntVar, int, int, int, int]] = field(default_factory=list)  # (z, v, c, a, c')
+    z: list[PairVar] = field(default_factory=list)
     constant: float = 0.0  # linearised cost that no choice of channels changes
 
     def row(self, v: int, n_channels: int) -> list[tuple[int, cp_model.IntVar]]:
@@ -191,7 +211,7 @@ class Costs:
     """Linearised cost per term, in probability units: objective weights and per-victim parts."""
 
     node: dict[tuple[int, int], tuple[float, float]] = field(default_factory=dict)  # (v, c) -> (weighted, own)
-    pair: list[tuple[int, float, float, float]] = field(default_factory=list)  # (z index, weighted, to v, to a)
+    pair: list[PairCost] = field(default_factory=list)
 
 
 class Objective:
@@ -235,8 +255,8 @@ class Objective:
                         continue
                     z = m.new_bool_var("")
                     m.add_bool_or([mv.x[v, c].Not(), mv.x[a, k].Not(), z])
-                    mv.z.append((z, v, c, a, k))
-                    self.costs.pair.append((len(mv.z) - 1, wts[v] * cv + wts[a] * ca, cv, ca))
+                    mv.z.append(PairVar(z, v, c, a, k))
+                    self.costs.pair.append(PairCost(len(mv.z) - 1, wts[v] * cv + wts[a] * ca, cv, ca))
 
 
 class Ceilings:
@@ -254,10 +274,10 @@ class Ceilings:
         terms: dict[int, list] = {v: [] for v in range(inst.n_systems)}
         for (v, c), (_, own) in self.objective.costs.node.items():
             terms[v].append((self.scale(own), mv.x[v, c]))
-        for zi, _, cv, ca in self.objective.costs.pair:
-            z, v, _, a, _ = mv.z[zi]
-            terms[v].append((self.scale(cv), z))
-            terms[a].append((self.scale(ca), z))
+        for cost in self.objective.costs.pair:
+            pair = mv.z[cost.index]
+            terms[pair.v].append((self.scale(cost.to_victim), pair.var))
+            terms[pair.a].append((self.scale(cost.to_source), pair.var))
         for v in range(inst.n_systems):
             if not math.isfinite(inst.ceilings[v]):
                 continue
@@ -300,13 +320,13 @@ def rounding_excess(objective: Objective, mv: ModelVars, inst: PlanningInstance,
         node_w[v].append(up(wc))
         node_own[v].append(up(own))
     groups: dict[tuple[int, int], tuple[list, list, list, list]] = {}
-    for zi, wc, cv, ca in objective.costs.pair:
-        _, v, c, a, k = mv.z[zi]
-        w, to_v, to_a, span = groups.setdefault((v, a), ([], [], [], [0]))
-        w.append(up(wc))
-        to_v.append(up(cv))
-        to_a.append(up(ca))
-        span[0] = max(span[0], abs(c - k))
+    for cost in objective.costs.pair:
+        pair = mv.z[cost.index]
+        w, to_v, to_a, span = groups.setdefault((pair.v, pair.a), ([], [], [], [0]))
+        w.append(up(cost.weighted))
+        to_v.append(up(cost.to_victim))
+        to_a.append(up(cost.to_source))
+        span[0] = max(span[0], abs(pair.c - pair.c2))
     parts = [_top(node_w[v], inst.sizes[v]) for v in range(n)]
     per_victim = [[_top(node_own[v], inst.sizes[v])] for v in range(n)]
     for (v, a), (w, to_v, to_a, span) in groups.items():
@@ -331,7 +351,7 @@ def weighted_sum(mv: ModelVars, objective: Objective, scale: Scale):
     """The scaled weighted-sum objective (without the plan-independent constant)."""
     costs = objective.costs
     expr = sum(scale(wc) * mv.x[v, c] for (v, c), (wc, _) in costs.node.items() if scale(wc))
-    return expr + sum(scale(wc) * mv.z[zi][0] for zi, wc, _, _ in costs.pair if scale(wc))
+    return expr + sum(scale(cost.weighted) * mv.z[cost.index].var for cost in costs.pair if scale(cost.weighted))
 
 
 def full_model(inst: PlanningInstance, start: np.ndarray | None = None):
@@ -340,7 +360,7 @@ def full_model(inst: PlanningInstance, start: np.ndarray | None = None):
     objective = Objective()
     m, mv = build(inst, [ChannelVariables(), ChannelCounts(), Pins(), Separation(), Guards(), objective])
     c = objective.costs
-    costs = [w for pair in c.node.values() for w in pair] + [w for _, wc, cv, ca in c.pair for w in (wc, cv, ca)]
+    costs = [w for pair in c.node.values() for w in pair] + [w for cost in c.pair for w in cost[1:]]
     scale = Scale.choose(np.array(costs))
     Ceilings(objective, scale).add(m, mv, inst, lambda kind, key: None)
     if start is not None:
@@ -355,10 +375,10 @@ def minimise(m: cp_model.CpModel, mv: ModelVars, inst: PlanningInstance, objecti
         per_victim: dict[int, list] = {v: [] for v in range(inst.n_systems)}
         for (v, c), (_, own) in costs.node.items():
             per_victim[v].append(scale(own) * mv.x[v, c])
-        for zi, _, cv, ca in costs.pair:
-            z, v, _, a, _ = mv.z[zi]
-            per_victim[v].append(scale(cv) * z)
-            per_victim[a].append(scale(ca) * z)
+        for cost in costs.pair:
+            pair = mv.z[cost.index]
+            per_victim[pair.v].append(scale(cost.to_victim) * pair.var)
+            per_victim[pair.a].append(scale(cost.to_source) * pair.var)
         worst = m.new_int_var(0, 2**62 - 1, "worst")  # CP-SAT domains lie within +-(2^63 - 1) / 2
         for v, terms in per_victim.items():
             m.add(worst >= sum(terms) + scale(_constant_of(inst, v)))
@@ -390,8 +410,8 @@ def build(inst: PlanningInstance, groups: list, enforce: Enforce | None = None,
 def hint(m: cp_model.CpModel, mv: ModelVars, x: np.ndarray) -> None:
     for (v, c), var in mv.x.items():
         m.add_hint(var, bool(x[v, c]))
-    for z, v, c, a, k in mv.z:
-        m.add_hint(z, bool(x[v, c] and x[a, k]))
+    for pair in mv.z:
+        m.add_hint(pair.var, bool(x[pair.v, pair.c] and x[pair.a, pair.c2]))
 
 
 def solution(solver: cp_model.CpSolver, mv: ModelVars, shape) -> np.ndarray:

@@ -35,8 +35,9 @@ import numpy as np
 
 from cohop.assess import Assessment, assess_site
 from cohop.errors import Conflict, PlanInfeasible
-from cohop.planning import costs, cpsat, model
-from cohop.planning.deadline import Budget, Deadline
+from cohop import cpsat
+from cohop.planning import costs, model
+from cohop.deadline import Budget, Deadline
 from cohop.planning.instance import PlanningInstance, build_instance, without_inter_system_terms
 from cohop.planning.linear import hop_sets_of, objective_value, system_estimates
 from cohop.planning.requirements import PlanRequirements

@@ -2,7 +2,7 @@
 
 Each limit is data: its value in watts, the quantity it bounds (conducted
 output, e.i.r.p. or e.r.p.), where it comes from and how sure we are of it
-(domain reference section 6). Its level in dBm is computed from the watts
+(47 CFR 15.247(b), RSS-247, ETSI EN 300 328, CEPT ERC Rec 70-03 Annex 1). Its level in dBm is computed from the watts
 (10 log10(W / 1 mW)), never typed in rounded: 0.25 W is 23.979 dBm, not 24,
 and 0.125 W is 20.969 dBm, not 21. A measured level passes when it is at
 most the limit; the only allowance is `TOLERANCE_DB` of floating-point noise

@@ -1,7 +1,7 @@
 """Regulatory profiles: band edges and the rules a hop set is checked against.
 
-Each rule carries its citation and how sure we are of it (domain reference
-section 6). These are planning aids: the operator is responsible for
+Each rule carries its citation and how sure we are of it (the rule's
+own text where it was seen: 47 CFR 15.247, RSS-247, ETSI EN 300 328, CEPT ERC Rec 70-03). These are planning aids: the operator is responsible for
 compliance, and local rules and the regulator's current text prevail.
 """
 

@@ -9,7 +9,7 @@ import numpy as np
 
 from cohop.site import Band, System
 
-#: How sure we are of a rule's text, as in the domain reference section 6.
+#: How sure we are of a rule's text, published, seen quoted, partly seen, from memory, or common practice.
 PUBLISHED = "published"
 SEEN_QUOTED = "seen quoted"
 PARTLY_SEEN = "partly seen"

@@ -58,8 +58,8 @@ from dataclasses import dataclass
 import numpy as np
 from ortools.sat.python import cp_model
 
-from cohop.planning import cpsat
-from cohop.planning.deadline import Budget, Deadline
+from cohop import cpsat
+from cohop.deadline import Budget, Deadline
 from cohop.prepare import PreparedSite
 from cohop.stats import hopping
 
@@ -71,7 +71,7 @@ RESPACE_WORK = 100_000
 RESPACE_TRIES = 64
 #: Pairs of positions the coincidence count of a component may enumerate at most.
 FAMILY_CHECK_WORK = 1_000_000
-#: Calibrated seconds of CP-SAT work per slot-aligned group (`cohop.planning.cpsat`): 2 deterministic units.
+#: Calibrated seconds of CP-SAT work per slot-aligned group (`cohop.cpsat`): 2 deterministic units.
 GROUP_WORK_S = 4.0
 #: Most spacing clauses a slot-aligned group's model may hold (a tiny delay spread asks for wide spacing).
 GROUP_CLAUSES = 200_000
@@ -321,7 +321,7 @@ class CommonRelabelling:
                 steps += len(self.chans[m])
                 fails, level = [0] * members, n
                 continue
-            ch, times, target = self.chans[m], self.times[m], self.target[m]
+            times = self.times[m]
             i, looked = self._next_close(m)
             steps += looked
             u = self._index_of(m, times[i - rng.randrange(2)])

@@ -180,7 +180,7 @@ def outcome(prep: PreparedSite, sequences: list[Sequence], notes: list[str], pac
 def plan_sequences(prep: PreparedSite, hop_sets, seed: int, packets: int = DEFAULT_PACKETS,
                    work: SequenceWork | None = None, budget=None) -> SequenceOutcome:
     """Sequences for `hop_sets` and what they do; `work` bounds the analysis and simulation, `budget`
-    (a `cohop.planning.deadline.Budget`) the slot-aligned construction's CP-SAT calls."""
+    (a `cohop.deadline.Budget`) the slot-aligned construction's CP-SAT calls."""
     group_work = work.group_work_s if work is not None else GROUP_WORK_S
     sequences, notes = build_sequences(prep, hop_sets, seed, delay_spread(prep), group_work, budget=budget)
     return outcome(prep, sequences, notes, packets, seed, work)

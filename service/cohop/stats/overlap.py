@@ -1,6 +1,6 @@
 """How many of a source's bursts a victim's packet overlaps in time.
 
-Model [der, domain reference section 4]: source a starts a burst of length
+Model [derived: random phase between periodic bursts and a packet]: source a starts a burst of length
 T_a at the start of each of its dwells (period D_a), in a share alpha_a of
 them; the victim's packet lasts T_v. A burst overlaps the packet when it
 starts inside a window of length W = T_v + T_a. With a random phase between

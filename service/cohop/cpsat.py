@@ -25,7 +25,7 @@ from typing import Callable
 
 from ortools.sat.python import cp_model
 
-from cohop.planning.deadline import Budget
+from cohop.deadline import Budget
 
 #: CP-SAT deterministic time units per calibrated second of work. Measured on our 2-core machines with two
 #: interleaved workers (batches of one task per worker): 0.34 to 0.8 units per wall second on the samples'
