@@ -91,7 +91,7 @@ def hostile_shapes() -> None:
     order = np.arange(79)
     body = sites.site([sites.system("v", range(79), dwell_s=1e-4, packet_airtime_s=1e-4),
                        sites.system("a", range(79), dwell_s=10.0, packet_airtime_s=1e-3)], n_channels=79)
-    prep = prepare_site(SiteSchema().load(body))
+    prep = prepare_site(sites.load(body))
     t = median_time(lambda: longest_runs(prep, [(0, 1), (1, 0)], {0: order, 1: order}), 5)
     print(f"longest runs of 0.1 ms dwells beside 10 s ones (horizon cut at 4096 hops): {t * 1e3:.1f} ms")
 
