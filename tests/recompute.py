@@ -124,7 +124,7 @@ def expected_window(excess_db: float, table: list[dict], spacing_hz: float, coun
 def expected_overlap(victim_airtime_s: float, burst_s: float, period_s: float) -> tuple[dict[int, float], float]:
     """Distribution of the number of overlapped bursts, and the tolerance it is known to.
 
-    Domain reference section 4 gives P0, P1, P2 for (Tv + Ta) <= 2 D; longer
+    A uniformly random relative phase (geometric probability, derived) gives P0, P1, P2 for (Tv + Ta) <= 2 D; longer
     packets are counted by brute force over 20000 phases (tolerance 1e-4).
     """
     w = (victim_airtime_s + burst_s) / period_s

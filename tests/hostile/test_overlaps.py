@@ -2,8 +2,8 @@
 
 The site of issue 9: a system with 0.4 s dwells and 0.1 s packets beside one hopping every 625 us with
 366 us packets (k0 = floor((0.1 + 366e-6) / 625e-6) = 160 overlapped bursts). The simulation used to
-count overlaps in int8 and crashed; it must now agree with the analytic model (domain reference
-section 4, E[(1 - p)^K]) within its confidence interval, through the API and in the domain.
+count overlaps in int8 and crashed; it must now agree with the analytic model (the geometric-probability overlap
+model of cohop.stats.overlap, E[(1 - p)^K]) within its confidence interval, through the API and in the domain.
 """
 
 from __future__ import annotations

@@ -1,4 +1,4 @@
-"""The Monte Carlo simulation agrees with the analytic model (domain reference section 4).
+"""The Monte Carlo simulation agrees with the analytic model (the overlap model of cohop.stats.overlap: a uniformly random relative phase; derived, DEVELOPERS.md's model paragraph).
 
 Agreement is a test, not a proof; the published closed forms anchor the model
 (test_published_forms.py). Seeds are fixed, so these tests are deterministic;

@@ -55,18 +55,20 @@ def test_wideband_interferer_covers_k_of_n(k):
 
 
 def test_wideband_interferer_duty_scales_the_hit_rate():
-    # Garg ch. 21: k/N "while it is on"; on a share alpha of the time the rate is alpha k / N.
-    itf = {"id": "wlan", "low_hz": 2412e6, "high_hz": 2431e6, "activity_fraction": 0.3,
-           "levels": [{"system": "victim", "level_dbm": -45.0}]}
+    # Garg ch. 21: k/N "while it is on"; on a share alpha of the time the rate is alpha k / N. The emitter is
+    # built as in the test above: edges at the centres of channels 10 and 29, so it covers k = 20 channels,
+    # with the in-channel level of the co-channel-only case.
+    lo, k = 2402e6 + 10e6, 20
+    itf = {"id": "wlan", "low_hz": lo, "high_hz": lo + (k - 1) * 1e6, "activity_fraction": 0.3,
+           "levels": [{"system": "victim", "level_dbm": -60.0 + 10 * math.log10(k - 1)}]}
     body = sites.site([sites.system("victim", range(N))], interferers=[itf])
     result = assess_site(prepare_site(sites.load(body)))
-    window = result.prepared.interferer_range[0, 0]
-    k = window[1] - window[0]
+    assert result.prepared.interferer_range[0, 0].tolist() == [10, 10 + k]
     assert result.systems[0].collision_probability == pytest.approx(0.3 * k / N, rel=1e-12)
 
 
 def test_disjoint_hop_sets_do_not_collide():
-    # Domain reference section 4: disjoint hop sets with co-channel-only harm give zero.
+    # Disjoint hop sets with co-channel-only harm give zero (common practice: the point of disjoint sets) hop sets with co-channel-only harm give zero.
     systems = [sites.system("a", range(0, 79, 3)), sites.system("b", range(1, 79, 3)),
                sites.system("c", range(2, 79, 3))]
     result = assess_site(prepare_site(sites.load(sites.site(systems))))
@@ -74,7 +76,7 @@ def test_disjoint_hop_sets_do_not_collide():
 
 
 def test_identical_hop_sets_unsynchronised_first_order():
-    # Domain reference section 4, first order: PER ~ sum alpha (Tv + Ta) / (D N) for light load.
+    # First order (the vulnerable period of unslotted ALOHA, Abramson, AFIPS FJCC 1970, for unequal packets): PER ~ sum alpha (Tv + Ta) / (D N) for light load.
     systems = [sites.system(f"s{i}", range(N), dwell_s=0.01, packet_airtime_s=0.001, activity_fraction=0.2)
                for i in range(4)]
     result = assess_site(prepare_site(sites.load(sites.site(systems))))

@@ -24,7 +24,7 @@ def test_noise_floor(bw, nf, expected):
 @pytest.mark.parametrize("margin_db, expected", [(10.0, 0.0952), (20.0, 0.00995), (30.0, 0.0009995)])
 def test_rayleigh_outage(margin_db, expected):
     # Goldsmith, "Wireless Communications", ch. 3: P_out = 1 - exp(-10^(-M/10));
-    # 10 dB: 0.095, 20 dB: 0.00995 (domain reference).
+    # 10 dB: 0.095, 20 dB: 0.00995 (Rayleigh CDF 1 - exp(-x), Rappaport, "Wireless Communications", 2nd ed., ch. 5).
     assert fading.rayleigh_fade_probability(margin_db) == pytest.approx(expected, rel=2e-3)
 
 

@@ -50,7 +50,7 @@ def test_log_distance_with_exponent_two_equals_free_space():
 
 
 # ITU-R P.1238 table 2 (distance power-loss coefficient N) and table 3 (floor penetration
-# Lf), early editions, as reproduced in our domain reference; check the edition you cite.
+# Lf), early editions, as recalled from memory; check the edition you cite.
 @pytest.mark.parametrize("f_hz, env, n", [
     (915e6, "office", 33.0), (915e6, "commercial", 20.0),
     (1.9e9, "residential", 28.0), (1.9e9, "office", 30.0), (1.9e9, "commercial", 22.0),

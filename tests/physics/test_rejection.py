@@ -28,7 +28,7 @@ def test_float_noise_at_a_table_offset_counts_as_the_offset():
 @pytest.mark.parametrize("excess, bound", [(-3.0, 0.0), (0.0, 0.0), (5.0, 1e6), (11.0, 1e6), (11.5, 2e6),
                                            (45.0, 3e6), (60.0, math.inf)])
 def test_harmful_bound(excess, bound):
-    # Harmful iff R(df) < E (domain reference section 3): E <= 0 harms nothing; above the
+    # Harmful iff R(df) < E (common practice: a neighbour harms when its excess over the capture threshold exceeds the rejection at its offset): E <= 0 harms nothing; above the
     # table's last value every offset is harmful.
     assert harmful_bound_hz(excess, OFFSETS, REJECTIONS) == bound
 

@@ -28,7 +28,7 @@ def test_linear_estimate_never_below_the_evaluated_figure(seed):
 
 def test_linear_estimate_is_exact_for_one_source_with_one_overlap():
     # With a single source whose bursts overlap at most once (T_v + T_a <= D) and no interferer, the
-    # union bound is an equality: E[K] p is exactly 1 - E[(1 - p)^K] (domain reference section 4).
+    # union bound is an equality: E[K] p is exactly 1 - E[(1 - p)^K] (with K in {0, 1} the expectation is linear in p: derived by hand).
     inst = instance(tiny_site(2, 10), [4, 6])
     x = np.zeros_like(inst.allowed)
     x[0, [0, 1, 2, 3]] = True

@@ -18,7 +18,7 @@ from cohop import samples
 from cohop.api import create_app
 from cohop.errors import SolverCrashed
 from cohop.isolation import ClientWatch, run_isolated
-from cohop_client import Client, ServerError
+from cohop_client import Client, ServerError, TransportError
 from tests.production.procs import Server, solver_processes, wait_for
 
 
@@ -158,7 +158,7 @@ def test_connection_errors_back_off_and_give_up():
     waits = []
     api = Client("http://127.0.0.1:9", retries=2, backoff_s=0.01)
     api._sleep = waits.append
-    with pytest.raises(Exception):
+    with pytest.raises(TransportError, match="could not reach"):
         api.health()
     assert len(waits) == 2 and all(0.0 <= w <= 30.0 for w in waits)  # urllib3's backoff, capped at max_wait_s
     assert waits[1] >= 0.01  # the second wait backs off

@@ -1,6 +1,6 @@
 """The fixed point-to-point declaration (47 CFR 15.247(c)(1)): request field, findings, and what it changes.
 
-Rule text (domain reference section 6, [mem, seen quoted; check]): 2400-2483.5 MHz systems used exclusively
+Rule text (47 CFR 15.247(c)(1), from memory, seen quoted; check the current eCFR text): 2400-2483.5 MHz systems used exclusively
 for fixed point-to-point operation may use antennas above 6 dBi with 1 dB less conducted power per 3 dB of
 gain above 6 dBi; 5725-5850 MHz ones with no reduction. The limits at the boundary are in test_power_limits.py.
 """

@@ -1,6 +1,6 @@
 """Every power limit, from its value in watts, at the boundary: just below, at and just above.
 
-Reference: the rule texts as the domain reference (section 6) records them, with its certainty marks; the
+Reference: the rule texts of 47 CFR 15.247(b) and ETSI EN 300 328 / EN 300 220 as recorded in cohop.regulatory.profiles, with their certainty marks; the
 level of a limit is 10 log10(P / 1 mW) (definition of dBm), computed here from the watts the rule states,
 independently of `cohop.regulatory.power`. "Just" is one part in a million of the watts (4.3e-6 dB): far
 above floating-point noise, far below any rounding a user could type.

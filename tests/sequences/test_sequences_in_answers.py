@@ -1,6 +1,7 @@
 """Plans carry sequences; assessments take given sequences; the profile is checked on the real order."""
 
 import copy
+import math
 
 import numpy as np
 import pytest
@@ -69,7 +70,15 @@ def test_plan_returns_a_loadable_sequence_per_system(client):
     for system in answer["assessment"]["systems"]:
         order = [f for f in system["compliance"]["findings"] if f["rule"].endswith(".sequence")][0]
         assert order["status"] == "pass"
-    assert all(f["peng_fan_bound"] >= 0 for f in seqs["families"])
+    for f in seqs["families"]:
+        # Peng and Fan, IEEE Trans. Inf. Theory 50(9), 2004, eq. (1), written out here: a family of M sequences of
+        # length L over q symbols has maximum Hamming correlation >= ceil((L M - q) L / ((L M - 1) q)).
+        # A linear-congruence family has L = q = p (its prime) and M = the members used.
+        length, members, symbols = f["prime"], f["members"], f["prime"]
+        expected = max(0, math.ceil((length * members - symbols) * length / ((length * members - 1) * symbols) - 1e-12))
+        assert f["peng_fan_bound"] == expected
+        if f["measured_max_coincidences"] is not None:
+            assert f["measured_max_coincidences"] >= f["peng_fan_bound"]  # no family beats the bound
 
 
 def test_assessment_accepts_given_sequences(client):

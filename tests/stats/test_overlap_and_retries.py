@@ -1,4 +1,4 @@
-"""Time overlap and retry formulas (domain reference section 4 and 5; derived, checked by hand)."""
+"""Time overlap and retry formulas (geometric probability of a uniformly random relative phase, and independent retries as in Garg, "Wireless Communications and Networking", ch. 21; derived, checked by hand)."""
 
 import pytest
 
@@ -8,7 +8,7 @@ from cohop.stats.overlap import ALIGNED, random_phase_overlap, survival
 
 @pytest.mark.parametrize("tv, ta, d", [(0.002, 0.003, 0.01), (0.01, 0.01, 0.02), (0.0005, 0.0005, 0.1)])
 def test_short_packets_overlap_at_most_one_burst(tv, ta, d):
-    # Domain reference section 4: P0 = 1 - (Tv + Ta)/D, P1 = (Tv + Ta)/D when Tv + Ta <= D.
+    # Uniform phase over one period D (geometric probability, derived): P0 = 1 - (Tv + Ta)/D, P1 = (Tv + Ta)/D when Tv + Ta <= D.
     probs = random_phase_overlap(tv, ta, d).probabilities()
     w = (tv + ta) / d
     assert probs.get(0, 0.0) == pytest.approx(1 - w)
@@ -18,7 +18,7 @@ def test_short_packets_overlap_at_most_one_burst(tv, ta, d):
 
 @pytest.mark.parametrize("tv, ta, d", [(0.01, 0.008, 0.012), (0.02, 0.02, 0.02), (0.015, 0.01, 0.02)])
 def test_long_packets_overlap_one_or_two(tv, ta, d):
-    # Domain reference section 4: P2 = (Tv + Ta - D)/D, P1 = 1 - P2 when D < Tv + Ta <= 2D.
+    # Uniform phase over one period D (geometric probability, derived): P2 = (Tv + Ta - D)/D, P1 = 1 - P2 when D < Tv + Ta <= 2D.
     probs = random_phase_overlap(tv, ta, d).probabilities()
     p2 = (tv + ta - d) / d
     assert probs.get(2, 0.0) == pytest.approx(p2)
@@ -27,13 +27,13 @@ def test_long_packets_overlap_one_or_two(tv, ta, d):
 
 
 def test_mean_overlap_is_window_over_period():
-    # E[K] = (Tv + Ta) / D for any ratio (first-order form of the domain reference).
+    # E[K] = (Tv + Ta) / D for any ratio (linearity of expectation over a uniform phase: derived).
     for tv, ta, d in [(0.001, 0.004, 0.01), (0.03, 0.02, 0.02), (0.1, 0.1, 0.03)]:
         assert random_phase_overlap(tv, ta, d).mean == pytest.approx((tv + ta) / d)
 
 
 def test_survival_is_the_reference_polynomial():
-    # s = P0 + P1 (1 - p) + P2 (1 - p)^2 (domain reference section 4).
+    # s = P0 + P1 (1 - p) + P2 (1 - p)^2 (total probability over the number of overlaps K: derived).
     ov = random_phase_overlap(0.01, 0.008, 0.012)
     p = 0.07
     probs = ov.probabilities()
