@@ -84,7 +84,7 @@ class Server:
                                      stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
 
     def __enter__(self):
-        ok = wait_for(self._healthy, 30)
+        ok = wait_for(self._healthy, 90)  # a loaded 2-core machine can take tens of seconds to import and warm
         if not ok:
             self.stop()
             raise RuntimeError("server did not start: " + (self.proc.stdout.read() if self.proc.stdout else ""))
