@@ -7,12 +7,13 @@ from dataclasses import dataclass
 
 from cohop.assess import SystemFigures
 from cohop.errors import Conflict, PlanInfeasible
-from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, assessment_answer, coordination_caution,
-                                planned_systems, prepared)
+from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, SystemHeadroom, assessment_answer,
+                                coordination_caution, headroom_answer, planned_systems, prepared)
 from cohop.jobs.requests import ReplanRequest
 from cohop.jobs.sequence_answers import SequencesAnswer, sequences_answer
 from cohop.deadline import Deadline
 from cohop.planning.engine import PlanResult, SolveSettings, evaluated_objective
+from cohop.planning.independent import replan_independent
 from cohop.planning.replan import ReplanMode, ReplanResult, replan_site
 
 
@@ -46,6 +47,7 @@ class ReplanAnswer:
     fresh: FreshPlan
     sequences: SequencesAnswer
     assessment: AssessmentAnswer
+    headroom: tuple[SystemHeadroom, ...] = ()  # per system: channels it can lose before its regulatory minimum
 
 
 def _changes(result: ReplanResult) -> tuple[SystemChange, ...]:
@@ -63,11 +65,16 @@ def replan_answer(result: ReplanResult, mode: ReplanMode) -> ReplanAnswer:
                         evaluated_objective=evaluated_objective(result.instance, result.assessment),
                         plan=planned_systems(prep, result.hop_sets), diff=_changes(result),
                         fresh=FreshPlan(result.fresh, planned_systems(prep, result.fresh.hop_sets)),
-                        sequences=sequences_answer(result.sequences, result.assessment), assessment=assessment)
+                        sequences=sequences_answer(result.sequences, result.assessment), assessment=assessment,
+                        headroom=headroom_answer(result.instance.headroom, result.hop_sets))
 
 
 def run_replan(req: ReplanRequest, settings: SolveSettings, deadline: Deadline | None = None) -> ReplanAnswer:
-    result = replan_site(prepared(req.site), req.requirements, list(req.current), req.mode, settings, deadline)
+    if req.requirements.coordination == "independent":  # each affected system re-adapts on its own
+        result = replan_independent(prepared(req.site), req.requirements, list(req.current), req.mode, settings,
+                                    deadline)
+    else:
+        result = replan_site(prepared(req.site), req.requirements, list(req.current), req.mode, settings, deadline)
     if result.violations:
         raise PlanInfeasible([Conflict(v.requirement, v.systems, v.detail, relax="raise the time limit or the "
                                        "change budget, or relax this requirement") for v in result.violations],

@@ -11,7 +11,8 @@ at the worst alignment of the interferer on the grid (`channels_lost`):
 - 5.8 GHz profiles: one 20 MHz Wi-Fi channel (IEEE 802.11a/n, common practice);
 - sub-GHz profiles: a 2 MHz wide emitter (common practice: a wideband
   telemetry or video link of the 900 MHz band);
-- anything else (custom bands): no default spare.
+- anything else, and the custom profile (it has no regulatory minimum to
+  protect): no default spare.
 
 The spare is capped by what fits: the channels the system may use (its
 allowed channels at its separation) and an explicit `max_channels`; the cap
@@ -86,7 +87,7 @@ def headroom_for(prep, v: int, asked: int | None, regulatory_min: int, allowed: 
     """System v's spare channels: `asked` (None: the band's default), capped by the channels it may use
     (`allowed`, at `separation`) and by `max_channels`."""
     system = prep.site.systems[v]
-    typical = typical_interferer(band_centre_hz(prep))
+    typical = None if prep.profile.band is None else typical_interferer(band_centre_hz(prep))  # custom: none
     default = asked is None
     if default:
         asked = 0 if typical is None else channels_lost(typical[0], system.bandwidth_hz, prep.spacing_hz)

@@ -268,3 +268,113 @@ def _report(full, own, hop_sets, assessment, joint, deadline, settings, req, cho
                         objective_kind=req.objective, requested_time_limit_s=deadline.requested_s,
                         stopped_by_wall_clock=deadline.stopped_by_wall_clock, work=dict(deadline.work_done),
                         binding=[], notes=notes)
+
+
+# --- re-planning: each affected system re-adapts ---------------------------------
+
+def _keeps(inst: PlanningInstance, v: int, current: np.ndarray, hop_sets, basis: str) -> bool:
+    """Whether system v's current hop set still stands: every channel allowed (or pinned), none avoided for
+    the occupancy of systems on air before it, its pins held, its count within [minimum, max_channels] and
+    its separation kept."""
+    if current.size == 0 or current.min() < 0 or current.max() >= inst.n_channels:
+        return False
+    if not (inst.allowed[v] | inst.pinned[v])[current].all():
+        return False
+    if not set(np.flatnonzero(inst.pinned[v]).tolist()) <= set(current.tolist()):
+        return False
+    if not inst.min_size[v] <= current.size <= inst.max_size[v]:
+        return False
+    if current.size > 1 and np.diff(current).min() < inst.separation[v]:
+        return False
+    if basis == "occupancy":
+        seen = occupancy_seen(inst.prep, v, hop_sets)[:, current]
+        if (seen > inst.req.interferer_threshold).any():
+            return False
+    return True
+
+
+def replan_order(ids: list[str], stated: tuple[str, ...], current_ids) -> list[int]:
+    """Re-plan order: the stated order first; then the systems already on air (site order), then new ones."""
+    index = {sid: v for v, sid in enumerate(ids)}
+    first = [index[sid] for sid in stated if sid in index]
+    on_air = [v for v, sid in enumerate(ids) if sid in current_ids and v not in first]
+    return first + on_air + [v for v in range(len(ids)) if v not in first and v not in on_air]
+
+
+def replan_independent(prep: PreparedSite, req: PlanRequirements, current, mode, settings: SolveSettings =
+                       SolveSettings(), deadline: Deadline | None = None, budget=None):
+    """Independent re-plan: in commissioning order, a system whose current hop set still stands (`_keeps`)
+    keeps it and its order; any other (and every new system) re-adapts as when it was commissioned
+    (`choose_hop_set`). The fresh independent plan (with the joint plan beside it) is the reference. The
+    re-plan's `mode` (tolerance or change budget) does not steer it: a system that re-adapts takes every
+    channel it may use, and the answer counts the changes."""
+    from cohop.planning.replan import ReplanResult, SystemDiff, lower_bound_changes
+
+    deadline = deadline or (budget.deadline if budget is not None else
+                            Deadline.of(req.time_limit_s, settings.max_solve_s))
+    cur = {c.id: c for c in current}
+    full = build_instance(prep, req)
+    ids = full.ids
+    own = own_instance(full)
+    seq_work = sequence_work(prep, own.max_size.clip(max=prep.n_channels), req.sequence_packets,
+                             costs.SEQUENCE_SHARE * deadline.limit_s)
+    if budget is None:
+        budget = search_budget(deadline, full, costs.replan_after_search_s(full, seq_work)
+                               + costs.after_search_s(full, "system", None))
+    fresh = plan_independent(prep, replace(req, baselines=()), settings, detail="system", with_sequences=False,
+                             deadline=deadline, budget=budget)
+    order = replan_order(ids, req.commissioning_order, cur)
+    sets: list[np.ndarray | None] = [None] * len(ids)
+    kept = [False] * len(ids)
+    for position, v in enumerate(order):
+        c = cur.get(ids[v])
+        now = np.unique(np.asarray(c.hop_set, dtype=int)) if c is not None else np.zeros(0, dtype=int)
+        if c is not None and _keeps(own, v, now, sets, req.independent_basis):
+            sets[v], kept[v] = now, True
+        else:
+            sets[v], _ = choose_hop_set(own, v, sets, req.independent_basis, position)
+    seqs, notes = own_orders(prep, sets, req.seed)
+    changed = []
+    for v, sid in enumerate(ids):
+        c = cur.get(sid)
+        keep = kept[v] and c is not None and c.sequence is not None and sorted(set(c.sequence)) == sets[v].tolist()
+        if keep:
+            seqs[v] = Sequence(system=v, channels=np.asarray(c.sequence), construction="kept", component=-1,
+                               required_spacing=seqs[v].required_spacing)
+        changed.append(not keep)
+    sequences = outcome(prep, seqs, notes, req.sequence_packets, req.seed, seq_work)
+    assessment = assess_site(prep, hop_sets=sets, origin="plan", sequences=sequences.orders)
+    before_sets = [np.array(sorted(cur[sid].hop_set)) if sid in cur else sets[v] for v, sid in enumerate(ids)]
+    before = assess_site(prep, hop_sets=before_sets, detail="system", origin="current")
+    inst = own.with_sizes([h.size for h in sets])
+    old = np.zeros_like(full.allowed)
+    x = np.zeros_like(full.allowed)
+    for v, sid in enumerate(ids):
+        x[v, sets[v]] = True
+        if sid in cur:
+            old[v, [ch for ch in cur[sid].hop_set if 0 <= ch < prep.n_channels]] = True
+    existing = np.array([sid in cur for sid in ids])
+    diffs = []
+    for v, sid in enumerate(ids):
+        if sid not in cur:
+            diffs.append(SystemDiff(sid, "new system", [], sets[v].tolist(), True))
+            continue
+        dropped = sorted(set(np.flatnonzero(old[v]).tolist()) - set(sets[v].tolist()))
+        added = sorted(set(sets[v].tolist()) - set(np.flatnonzero(old[v]).tolist()))
+        diffs.append(SystemDiff(sid, "changed" if added or dropped else "kept", dropped, added, changed[v]))
+    changes = int((x & ~old)[existing].sum())
+    lower = lower_bound_changes(inst.with_sizes(np.where(existing, old.sum(axis=1), inst.sizes).clip(
+        inst.min_size, inst.max_size)), old, existing)
+    sized = full.with_sizes(inst.sizes)
+    notes = [f"independent re-plan: in commissioning order ({', '.join(ids[v] for v in order)}) each system "
+             "kept its hop set while it still stood (allowed, no occupancy above the threshold from systems "
+             "before it, its count and pins kept) and otherwise re-adapted, taking every channel it may use; "
+             "the mode's tolerance or change budget does not steer an independent re-plan"]
+    notes += deadline.notes()
+    return ReplanResult(instance=inst, hop_sets=sets, assessment=assessment, before=before, fresh=fresh,
+                        sequences=sequences, diffs=diffs, changes=changes, lower_bound=min(lower, changes),
+                        proven_minimal=changes <= lower, objective=objective_value(sized, system_estimates(sized, x)),
+                        target=None, removed=sorted(set(cur) - set(ids)),
+                        violations=validate_plan(own, sets, assessment), notes=notes, time_s=deadline.elapsed(),
+                        time_limit_s=deadline.limit_s, requested_time_limit_s=deadline.requested_s,
+                        stopped_by_wall_clock=deadline.stopped_by_wall_clock, work=dict(deadline.work_done))
