@@ -167,3 +167,14 @@ def test_orders_are_each_systems_own_not_a_joint_family():
     assert {s.construction for s in a} == {"own order"} and len({s.component for s in a}) == 2
     for s, hs in zip(a, same):
         assert sorted(s.channels.tolist()) == hs.tolist()
+
+
+def test_a_system_that_cannot_reach_its_minimum_is_a_conflict_not_a_crash():
+    from cohop.errors import PlanInfeasible
+    prep, _ = _dense_first_site()
+    req = PlanRequirements(systems=(SystemRequirement("dense", min_channels=4, max_channels=4),
+                                    SystemRequirement("later", min_channels=3, excluded_channels=tuple(range(18)))),
+                           coordination="independent")
+    with pytest.raises(PlanInfeasible) as err:
+        plan_site(prep, req)
+    assert err.value.conflicts[0].systems == ("later",)

@@ -43,7 +43,7 @@ import numpy as np
 
 from cohop.assess import assess_site, channel_prefix_counts, system_collisions
 from cohop.deadline import Deadline
-from cohop.errors import PlanInfeasible
+from cohop.errors import Conflict, PlanInfeasible
 from cohop.planning import costs
 from cohop.planning.engine import (FEASIBLE, NO_PLAN, PlanResult, SolverReport, SolveSettings, evaluated_objective,
                                    plan_site, search_budget)
@@ -169,6 +169,16 @@ def choose_hop_sets(inst: PlanningInstance, order: list[int], basis: str):
     return sets, choices
 
 
+def _enough(inst: PlanningInstance, hop_sets) -> None:
+    """PlanInfeasible when a system cannot hold its minimum even taking back every avoided channel."""
+    short = [Conflict("channel count", (sid,), f"{sid} may use only {hs.size} channel(s) (band, profile, "
+                      f"interferers, its exclusions), fewer than its minimum {inst.min_size[v]}",
+                      relax="relax its exclusions, the interferer threshold, its spare channels or its count")
+             for v, (sid, hs) in enumerate(zip(inst.ids, hop_sets)) if hs.size < inst.min_size[v]]
+    if short:
+        raise PlanInfeasible(short)
+
+
 def own_orders(prep: PreparedSite, hop_sets, seed: int) -> tuple[list[Sequence], list[str]]:
     """Each system's own hop order: a pseudo-random order of its hop set seeded by `seed` and its id,
     spaced by the coherence bandwidth where its set allows; no family shared with any other system."""
@@ -215,6 +225,7 @@ def plan_independent(prep: PreparedSite, req: PlanRequirements, settings: SolveS
     full = build_instance(prep, req)
     order = commissioning_order(full.ids, req.commissioning_order)
     hop_sets, choices = choose_hop_sets(full, order, req.independent_basis)
+    _enough(full, hop_sets)
     own = own_instance(full).with_sizes([h.size for h in hop_sets])
     seq_work = sequence_work(prep, own.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s) \
         if with_sequences else None
@@ -333,6 +344,7 @@ def replan_independent(prep: PreparedSite, req: PlanRequirements, current, mode,
             sets[v], kept[v] = now, True
         else:
             sets[v], _ = choose_hop_set(own, v, sets, req.independent_basis, position)
+    _enough(full, sets)
     seqs, notes = own_orders(prep, sets, req.seed)
     changed = []
     for v, sid in enumerate(ids):
