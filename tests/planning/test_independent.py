@@ -178,3 +178,13 @@ def test_a_system_that_cannot_reach_its_minimum_is_a_conflict_not_a_crash():
     with pytest.raises(PlanInfeasible) as err:
         plan_site(prep, req)
     assert err.value.conflicts[0].systems == ("later",)
+
+
+def test_spacing_keeps_pins_and_the_separation():
+    from cohop.planning.independent import _select, _spaced
+    assert _spaced(range(10), 3) == [0, 3, 6, 9]
+    assert _spaced(range(10), 3, keep=[4]) == [0, 4, 7]
+    exposure = np.zeros(10)
+    exposure[[0, 9]] = 0.5  # the edges are the most exposed
+    chosen = _select(np.arange(10), np.array([4]), exposure, 3, 2)
+    assert 4 in chosen and len(chosen) == 2 and abs(chosen[0] - chosen[1]) >= 3 and 0 not in chosen

@@ -36,6 +36,7 @@ beside it so the user sees what lawful independence costs.
 
 from __future__ import annotations
 
+import bisect
 import random
 from dataclasses import dataclass, field, replace
 
@@ -91,14 +92,17 @@ def commissioning_order(ids: list[str], stated: tuple[str, ...]) -> list[int]:
 
 
 def _spaced(chans, separation: int, keep=()) -> list[int]:
-    """`keep`, then channels of `chans` in the order given that stay `separation` steps from all taken."""
-    taken = sorted(int(c) for c in keep)
+    """`keep`, then channels of `chans` in the order given that stay `separation` steps from all taken
+    (sorted; a neighbour check by bisection, so large grids stay cheap)."""
+    taken = sorted(set(int(c) for c in keep))
+    if separation <= 1:
+        return sorted(set(taken) | set(int(c) for c in chans))
     for c in chans:
         c = int(c)
-        if c in taken:
+        i = bisect.bisect_left(taken, c)
+        if (i < len(taken) and taken[i] - c < separation) or (i > 0 and c - taken[i - 1] < separation):
             continue
-        if all(abs(c - t) >= separation for t in taken):
-            taken.append(c)
+        taken.insert(i, c)
     return taken
 
 
@@ -143,17 +147,22 @@ def choose_hop_set(inst: PlanningInstance, v: int, hop_sets: list[np.ndarray | N
     if len(_spaced(free, sep, pins)) < lo and avoid.any():
         back = np.flatnonzero(avoid)
         back = back[np.argsort(occupancy[back], kind="stable")]
-        for k in range(1, back.size + 1):  # the fewest least-occupied channels that reach the minimum
-            if len(_spaced(np.concatenate([free, back[:k]]), sep, pins)) >= lo:
-                level = occupancy[back[k - 1]]
-                back = back[occupancy[back] <= level * (1 + 1e-9) + 1e-15]  # ties go together
-                break
+        k_lo, k_hi = 1, back.size  # the fewest least-occupied channels that reach the minimum (bisection:
+        while k_lo < k_hi:  # more channels never fit fewer)
+            mid = (k_lo + k_hi) // 2
+            if len(_spaced(np.concatenate([free, back[:mid]]), sep, pins)) >= lo:
+                k_hi = mid
+            else:
+                k_lo = mid + 1
+        level = occupancy[back[k_lo - 1]]
+        back = back[occupancy[back] <= level * (1 + 1e-9) + 1e-15]  # ties go together
         free = np.union1d(free, back)
         taken_back = int(back.size)
     chosen = _select(free, pins, exposure, sep, hi)
     limited = None if len(chosen) >= np.union1d(free, pins).size else \
         "max_channels" if len(chosen) >= hi else "separation"
-    others = [inst.ids[a] for a in range(inst.n_systems) if (seen[a] > req.interferer_threshold).any() and a != v]
+    heard = (seen > req.interferer_threshold) & (allowed & ~inst.pinned[v])[None, :]
+    others = [inst.ids[a] for a in range(inst.n_systems) if a != v and heard[a].any()]
     hs = np.array(sorted(chosen), dtype=int)
     return hs, SystemChoice(sid, position, int(allowed.sum()), tuple(runs(np.flatnonzero(avoid))),
                             tuple(others) if basis == "occupancy" else (), taken_back, int(hs.size), limited)
