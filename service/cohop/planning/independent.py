@@ -239,7 +239,9 @@ def plan_independent(prep: PreparedSite, req: PlanRequirements, settings: SolveS
     seq_work = sequence_work(prep, own.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s) \
         if with_sequences else None
     if budget is None:
-        after = costs.after_search_s(own, detail, seq_work) + costs.after_search_s(full, "system", None)
+        # the independent plan's closing phases, the joint plan's (no sequences) and the comparison's assessment
+        after = (costs.after_search_s(own, detail, seq_work) + costs.after_search_s(full, "system", None)
+                 + costs.SAFETY * costs.assessment_s(own.n_systems, int(own.sizes.sum())))
         budget = search_budget(deadline, full, after)
     joint, joint_note = _joint(prep, req, settings, progress, deadline, budget)
     sequences = None
