@@ -61,14 +61,14 @@ def test_sample_cautions(sample_plan):
     assert ("15.247(h)" in text) == fcc_like
 
 
-def test_independent_coordination_drops_the_coordination_caution(planned):
+def test_independent_coordination_keeps_the_caution_while_the_joint_plan_is_shown(planned):
     req = sample_request("water_works_us915", requirements={"coordination": "independent"})
     _, status, answer = planned("water-independent", lambda: req)
     assert status == 200, answer
     assert answer["coordination"] == "independent"
     text = " ".join(answer["cautions"]).lower()
     assert "planning estimate" in text and "site survey" in text
-    assert "15.247(h)" not in text
+    assert ("15.247(h)" in text) == (answer["independent"]["joint_plan"] is not None)
 
 
 def test_the_report_states_the_limit_and_the_work_done(planned):

@@ -88,7 +88,8 @@ def test_validator_checks_the_profile():
     body = tiny_site(1, 60)
     body.update(profile="us-915", band=None, grid={"first_centre_hz": 902.1e6, "spacing_hz": 200e3, "count": 60})
     body["systems"][0].update(bandwidth_hz=150e3, rejection=[{"offset_hz": 200e3, "rejection_db": 40.0}])
-    inst = build_instance(prepare_site(sites.load(body)), PlanRequirements())
+    inst = build_instance(prepare_site(sites.load(body)),  # at the bare minimum: no spare channels
+                          PlanRequirements(systems=(SystemRequirement("s0", spare_channels=0),)))
     assert validate_plan(inst, [np.arange(50)]) == []
     kinds = [v.requirement for v in validate_plan(inst, [np.arange(49)])]
     assert "profile rule" in kinds and "channel count" in kinds

@@ -141,3 +141,76 @@ class PlannedSystem:
 def planned_systems(prep: PreparedSite, hop_sets: list[np.ndarray]) -> tuple[PlannedSystem, ...]:
     return tuple(PlannedSystem(s.id, tuple(int(c) for c in hs), tuple(float(prep.centres_hz[c]) for c in hs))
                  for s, hs in zip(prep.site.systems, hop_sets))
+
+
+# --- independent coordination and headroom (issue 14) -------------------------
+
+@dataclass(frozen=True)
+class SystemHeadroom:
+    """How many channels a planned system can lose before it falls below its regulatory minimum, and the
+    spare channels asked for (`cohop.planning.headroom`)."""
+
+    id: str
+    channel_count: int
+    regulatory_min_channels: int
+    can_lose_channels: int  # channel_count - regulatory_min_channels (negative: below it already)
+    spare_channels_asked: int
+    spare_channels_default: bool
+    spare_channels_applied: int
+    spare_capped_by: str | None  # None, "fit" or "max_channels"
+    typical_interferer: str | None
+
+
+def headroom_answer(headroom, hop_sets) -> tuple[SystemHeadroom, ...]:
+    return tuple(SystemHeadroom(h.system, int(hs.size), h.regulatory_min_channels,
+                                int(hs.size) - h.regulatory_min_channels, h.spare_asked, h.spare_default,
+                                h.spare_applied, h.capped_by, h.typical_interferer)
+                 for h, hs in zip(headroom, hop_sets))
+
+
+@dataclass(frozen=True)
+class SideBySide:
+    """One system's figures in the joint plan and in the independent plan (uniform hopping model)."""
+
+    id: str
+    joint_channel_count: int | None
+    joint_collision_probability: float | None
+    joint_residual_loss_probability: float | None
+    independent_channel_count: int
+    independent_collision_probability: float
+    independent_residual_loss_probability: float
+    cost_of_independence: float | None  # independent minus joint per-hop collision probability
+
+
+#: What the side-by-side figures are: both plans evaluated alike, so that the difference is the plans'.
+SIDE_BY_SIDE_BASIS = ("both plans evaluated by the uniform hopping model (cohop.assess without hop orders), "
+                      "so that only the hop sets differ; the independent plan's own figures with its orders "
+                      "are in assessment")
+
+
+@dataclass(frozen=True)
+class CoordinationComparison:
+    """The independent plan beside the joint plan: what lawful independence costs."""
+
+    commissioning_order: tuple[str, ...]
+    independent_basis: str
+    choices: tuple  # cohop.planning.independent.SystemChoice, in commissioning order
+    joint_plan: tuple[PlannedSystem, ...] | None
+    joint_objective: float | None
+    independent_objective: float
+    objective_cost: float | None  # independent minus joint objective
+    systems: tuple[SideBySide, ...]
+    joint_note: str | None = None
+    basis: str = SIDE_BY_SIDE_BASIS
+
+
+def side_by_side(joint: Assessment | None, independent: Assessment) -> tuple[SideBySide, ...]:
+    out = []
+    for k, f in enumerate(independent.systems):
+        j = joint.systems[k] if joint is not None else None
+        out.append(SideBySide(f.id, None if j is None else len(j.hop_set),
+                              None if j is None else j.collision_probability,
+                              None if j is None else j.residual_loss_probability, len(f.hop_set),
+                              f.collision_probability, f.residual_loss_probability,
+                              None if j is None else f.collision_probability - j.collision_probability))
+    return tuple(out)

@@ -8,12 +8,14 @@ from typing import Callable
 
 from cohop.assess import SystemFigures
 from cohop.errors import Conflict, PlanInfeasible
-from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, assessment_answer, coordination_caution,
-                                planned_systems, prepared)
+from cohop.jobs.answers import (AssessmentAnswer, CoordinationComparison, PlannedSystem, SystemHeadroom,
+                                assessment_answer, coordination_caution, headroom_answer, planned_systems, prepared,
+                                side_by_side)
 from cohop.jobs.requests import PlanRequest
 from cohop.jobs.sequence_answers import SequencesAnswer, sequences_answer
 from cohop.deadline import Deadline
-from cohop.planning.engine import NO_PLAN, BaselineResult, PlanResult, SolveSettings, plan_site
+from cohop.planning.engine import NO_PLAN, BaselineResult, PlanResult, SolveSettings, evaluated_objective, plan_site
+from cohop.planning.independent import IndependentPlanResult
 from cohop.planning.requirements import Progress
 from cohop.planning.validate import Violation
 
@@ -47,6 +49,8 @@ class PlanAnswer:
     assessment: AssessmentAnswer
     baselines: tuple[BaselineAnswer, ...]
     comparison: Comparison
+    headroom: tuple[SystemHeadroom, ...] = ()  # per system: channels it can lose before its regulatory minimum
+    independent: CoordinationComparison | None = None  # independent coordination: the joint plan beside it
 
 
 def baseline_answer(b: BaselineResult) -> BaselineAnswer:
@@ -65,13 +69,33 @@ def compare(plan_objective: float, baselines: list[BaselineResult]) -> Compariso
 def plan_answer(result: PlanResult) -> PlanAnswer:
     prep = result.assessment.prepared
     coordination = result.instance.req.coordination
-    caution = coordination_caution(prep.profile, coordination, result.sequences)
+    independent = coordination_comparison(result)
+    caution = coordination_caution(prep.profile, coordination, result.sequences) or (
+        independent is not None and independent.joint_plan is not None and coordination_caution(prep.profile, "joint"))
     sequences = None if result.sequences is None else sequences_answer(result.sequences, result.assessment)
     assessment = assessment_answer(result.assessment, caution)
     return PlanAnswer(result=result, coordination=coordination, cautions=assessment.cautions,
                       plan=planned_systems(prep, result.hop_sets), sequences=sequences, assessment=assessment,
                       baselines=tuple(baseline_answer(b) for b in result.baselines),
-                      comparison=compare(result.report.evaluated_objective, result.baselines))
+                      comparison=compare(result.report.evaluated_objective, result.baselines),
+                      headroom=headroom_answer(result.instance.headroom, result.hop_sets), independent=independent)
+
+
+def coordination_comparison(result: PlanResult) -> CoordinationComparison | None:
+    """The joint plan's and the independent plan's figures side by side (independent coordination only); the
+    joint plan shown keeps the 15.247(h) caution on the answer (`plan_answer`)."""
+    if not isinstance(result, IndependentPlanResult):
+        return None
+    joint = result.joint
+    own = evaluated_objective(result.instance, result.uniform)
+    joint_objective = None if joint is None else joint.report.evaluated_objective
+    return CoordinationComparison(
+        commissioning_order=result.commissioning_order, independent_basis=result.basis, choices=result.choices,
+        joint_plan=None if joint is None else planned_systems(result.assessment.prepared, joint.hop_sets),
+        joint_objective=joint_objective, independent_objective=own,
+        objective_cost=None if joint is None else own - joint_objective,
+        systems=side_by_side(None if joint is None else joint.assessment, result.uniform),
+        joint_note=result.joint_note)
 
 
 def run_plan(req: PlanRequest, settings: SolveSettings, progress: Callable[[Progress], None] | None = None,

@@ -3,16 +3,19 @@ an error, and answer with the changes, the fresh plan it was measured against, a
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from cohop.assess import SystemFigures
 from cohop.errors import Conflict, PlanInfeasible
-from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, assessment_answer, coordination_caution,
-                                planned_systems, prepared)
+from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, SystemHeadroom, assessment_answer,
+                                coordination_caution, headroom_answer, planned_systems, prepared)
 from cohop.jobs.requests import ReplanRequest
 from cohop.jobs.sequence_answers import SequencesAnswer, sequences_answer
 from cohop.deadline import Deadline
 from cohop.planning.engine import PlanResult, SolveSettings, evaluated_objective
+from cohop.planning.independent import replan_independent
+from cohop.planning.instance import build_instance
+from cohop.planning.requirements import PlanRequirements
 from cohop.planning.replan import ReplanMode, ReplanResult, replan_site
 
 
@@ -46,6 +49,7 @@ class ReplanAnswer:
     fresh: FreshPlan
     sequences: SequencesAnswer
     assessment: AssessmentAnswer
+    headroom: tuple[SystemHeadroom, ...] = ()  # per system: channels it can lose before its regulatory minimum
 
 
 def _changes(result: ReplanResult) -> tuple[SystemChange, ...]:
@@ -63,11 +67,34 @@ def replan_answer(result: ReplanResult, mode: ReplanMode) -> ReplanAnswer:
                         evaluated_objective=evaluated_objective(result.instance, result.assessment),
                         plan=planned_systems(prep, result.hop_sets), diff=_changes(result),
                         fresh=FreshPlan(result.fresh, planned_systems(prep, result.fresh.hop_sets)),
-                        sequences=sequences_answer(result.sequences, result.assessment), assessment=assessment)
+                        sequences=sequences_answer(result.sequences, result.assessment), assessment=assessment,
+                        headroom=headroom_answer(result.instance.headroom, result.hop_sets))
+
+
+def replan_requirements(prep, req: PlanRequirements, current) -> PlanRequirements:
+    """The band's default spare channels never force channels onto a system already on air: in a re-plan, a
+    system that states no spare_channels gets at most the spare its current hop set holds (its current count
+    less its regulatory minimum); spare_channels stated in the request apply as given."""
+    counts = {c.id: len(set(c.hop_set)) for c in current}
+    if not any(req.for_system(sid).spare_channels is None for sid in counts):
+        return req
+    systems = []
+    for room in build_instance(prep, req).headroom:
+        r = req.for_system(room.system)
+        if r.spare_channels is None and room.system in counts:
+            held = max(0, counts[room.system] - room.regulatory_min_channels)
+            r = replace(r, spare_channels=min(room.spare_applied, held))
+        systems.append(r)
+    return replace(req, systems=tuple(systems))
 
 
 def run_replan(req: ReplanRequest, settings: SolveSettings, deadline: Deadline | None = None) -> ReplanAnswer:
-    result = replan_site(prepared(req.site), req.requirements, list(req.current), req.mode, settings, deadline)
+    prep = prepared(req.site)
+    requirements = replan_requirements(prep, req.requirements, req.current)
+    if requirements.coordination == "independent":  # each affected system re-adapts on its own
+        result = replan_independent(prep, requirements, list(req.current), req.mode, settings, deadline)
+    else:
+        result = replan_site(prep, requirements, list(req.current), req.mode, settings, deadline)
     if result.violations:
         raise PlanInfeasible([Conflict(v.requirement, v.systems, v.detail, relax="raise the time limit or the "
                                        "change budget, or relax this requirement") for v in result.violations],

@@ -83,7 +83,11 @@ def system_requirement_problems(d: Mapping) -> list[Problem]:
 
 def requirements_problems(d: Mapping) -> list[Problem]:
     ids = [r["system"] for r in d.get("systems") or ()]
-    return [(("systems",), "One entry per system.")] if len(set(ids)) != len(ids) else []
+    out = [(("systems",), "One entry per system.")] if len(set(ids)) != len(ids) else []
+    order = d.get("commissioning_order") or ()
+    if len(set(order)) != len(order):
+        out.append((("commissioning_order",), "Each system at most once."))
+    return out
 
 
 def current_system_problems(d: Mapping) -> list[Problem]:
@@ -135,6 +139,8 @@ def requirements_from(d: Mapping) -> PlanRequirements:
     """The requirements, search options and baselines of a plan or re-plan request form."""
     req = dict(d.get("requirements") or {})
     req["systems"] = tuple(_system_requirement(r) for r in req.get("systems") or ())
+    if "commissioning_order" in req:
+        req["commissioning_order"] = tuple(req["commissioning_order"] or ())
     return PlanRequirements(**req, **(d.get("search") or {}), baselines=baseline_names(d.get("baselines") or ()))
 
 
@@ -170,6 +176,8 @@ def _requirement_references(site: Site, req: PlanRequirements) -> list[Problem]:
         for name in ("excluded_channels", "pinned_channels"):
             out += [(("requirements", "systems", i, name, j), f"Channel {c} is off the grid.")
                     for j, c in enumerate(getattr(r, name)) if c >= site.grid.count]
+    out += [(("requirements", "commissioning_order", j), f"Unknown system {sid!r}.")
+            for j, sid in enumerate(req.commissioning_order) if sid not in ids]
     return out
 
 

@@ -353,6 +353,9 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
     `deadline` is the request's (made here from the request and the server's cap if not given); `budget`,
     when given, is the search's own (the re-plan's fresh plan), else it is what the deadline leaves
     after the closing phases' reserve."""
+    if req.coordination == "independent":  # each system its own plan (cohop.planning.independent imports this)
+        from cohop.planning.independent import plan_independent
+        return plan_independent(prep, req, settings, progress, detail, with_sequences, deadline, budget)
     deadline = deadline or (budget.deadline if budget is not None else
                             Deadline.of(req.time_limit_s, settings.max_solve_s))
     clock = _Clock(deadline, progress)

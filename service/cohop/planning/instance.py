@@ -25,6 +25,7 @@ import numpy as np
 from cohop.assess import interferer_collisions
 from cohop.prepare import PreparedSite
 from cohop.errors import Conflict, PlanInfeasible
+from cohop.planning.headroom import Headroom, headroom_for
 from cohop.planning.requirements import PlanRequirements
 from cohop.regulatory import check_compliance
 from cohop.regulatory.profiles import EU868_SUBBANDS, SubBand
@@ -59,6 +60,7 @@ class PlanningInstance:
     ceilings: np.ndarray  # (S,) max linearised per-hop collision (inf: none)
     exclusions: dict[int, list[tuple[str, list[tuple[int, int]]]]] = field(default_factory=dict)  # v -> (why, runs)
     separation_citation: list[str | None] = field(default_factory=list)
+    headroom: list[Headroom] = field(default_factory=list)  # spare channels per system (cohop.planning.headroom)
 
     @property
     def n_systems(self) -> int:
@@ -199,6 +201,7 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
     ceilings = np.full(s_count, math.inf)
     exclusions: dict[int, list] = {}
     sep_cite = []
+    headroom = []
     conflicts: list[Conflict] = []
     for v, system in enumerate(site.systems):
         r = req.for_system(system.id)
@@ -230,7 +233,9 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
         for f in blockers:
             conflicts.append(Conflict("profile rule", (system.id,), f.message, f.rule.citation,
                                       relax=f"change the system's parameters to meet {f.rule.title.lower()}"))
-        lo = max(need or 1, r.min_channels or 0, len(r.pinned_channels), 1)
+        room = headroom_for(prep, v, r.spare_channels, max(need or 1, 1), allowed[v], gap, r.max_channels)
+        headroom.append(room)
+        lo = max((need or 1) + room.spare_applied, r.min_channels or 0, len(r.pinned_channels), 1)
         hi = r.max_channels if r.max_channels is not None else lo
         if hi < lo:
             conflicts.append(Conflict("channel count", (system.id,), f"max_channels {hi} is below the minimum {lo} "
@@ -253,7 +258,7 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
     return PlanningInstance(prep=prep, req=req, allowed=allowed, pinned=pinned, min_size=min_size, max_size=max_size,
                             sizes=min_size.copy(), separation=separation, interferer_cost=q, beta=beta,
                             window=prep.window.copy(), weights=weights, guards=guards, ceilings=ceilings,
-                            exclusions=exclusions, separation_citation=sep_cite)
+                            exclusions=exclusions, separation_citation=sep_cite, headroom=headroom)
 
 
 def _orthogonal_groups(site, beta: np.ndarray, min_size: np.ndarray, max_size: np.ndarray) -> None:

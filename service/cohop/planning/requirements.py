@@ -13,6 +13,9 @@ DEFAULT_INTERFERER_THRESHOLD = 0.05
 OBJECTIVES = ("weighted_sum", "worst_system")
 COORDINATION = ("joint", "independent")
 BASELINES = ("whole_band", "random", "contiguous", "interleaved", "greedy")
+#: What an independently planned system avoids (`cohop.planning.independent`): the fixed interferers and the
+#: occupancy of the systems commissioned before it, or the interferers alone.
+INDEPENDENT_BASES = ("occupancy", "interferers")
 
 
 @dataclass(frozen=True)
@@ -26,6 +29,7 @@ class SystemRequirement:
     pinned_channels: tuple[int, ...] = ()
     max_attempt_loss: float | None = None
     max_residual_loss: float | None = None
+    spare_channels: int | None = None  # above the profile's minimum; None: the band's default (planning.headroom)
 
 
 @dataclass(frozen=True)
@@ -39,6 +43,10 @@ class PlanRequirements:
     seed: int = 0
     baselines: tuple[str, ...] = ()
     sequence_packets: int = DEFAULT_PACKETS  # simulated packets per system for the sequence-driven retry figures
+    # independent coordination (`cohop.planning.independent`): the order systems go on air (ids; systems not
+    # named follow in the site's order) and what each avoids
+    commissioning_order: tuple[str, ...] = ()
+    independent_basis: str = "occupancy"
 
     def for_system(self, system_id: str) -> SystemRequirement:
         for r in self.systems:

@@ -14,7 +14,7 @@ from cohop.api.schemas.site import SiteSchema, StrictSchema, channel_index, rais
 from cohop.assess import DETAIL_LEVELS
 from cohop.jobs import requests
 from cohop.jobs.requests import PlanRequest
-from cohop.planning.requirements import BASELINES, COORDINATION, OBJECTIVES, PlanRequirements
+from cohop.planning.requirements import BASELINES, COORDINATION, INDEPENDENT_BASES, OBJECTIVES, PlanRequirements
 
 _THRESHOLD = default(PlanRequirements, "interferer_threshold")
 
@@ -32,6 +32,10 @@ class SystemRequirementSchema(StrictSchema):
     max_attempt_loss = Number(limits.FRACTION, metadata={"description": "Ceiling on per-attempt loss."})
     max_residual_loss = Number(limits.FRACTION,
                                metadata={"description": "Ceiling on loss after the retry limit."})
+    spare_channels = Count(validate=validate.Range(min=0, max=limits.MAX_CHANNELS), metadata={
+        "description": "Channels above the profile's minimum, so that losing some keeps the system compliant "
+                       "(default: the channels one typical interferer of the band takes, e.g. a 22 MHz Wi-Fi "
+                       "channel at 2.4 GHz, a 2 MHz emitter below 1 GHz; capped by what fits)."})
 
     @validates_schema
     def _rules(self, data, **kwargs):
@@ -51,6 +55,15 @@ class RequirementsSchema(StrictSchema):
                         metadata={"description": "joint: systems planned together; independent: each only "
                                                  "avoids measured occupancy and its own exclusions."})
     objective = Text(load_default=default(PlanRequirements, "objective"), validate=validate.OneOf(OBJECTIVES))
+    commissioning_order = List(Text(validate=IDENTIFIER), load_default=list, max_length=limits.MAX_SYSTEMS,
+                               metadata={"description": "independent coordination: the order systems go on air "
+                                                        "(each adapts to those before it); systems not named "
+                                                        "follow in the site's order."})
+    independent_basis = Text(load_default=default(PlanRequirements, "independent_basis"),
+                             validate=validate.OneOf(INDEPENDENT_BASES),
+                             metadata={"description": "independent coordination: occupancy (avoid the interferers "
+                                                      "and the occupancy of systems already on air above "
+                                                      "interferer_threshold) or interferers (those alone)."})
 
     @validates_schema
     def _rules(self, data, **kwargs):
@@ -151,7 +164,67 @@ class ComparisonSchema(StrictSchema):  # cohop.jobs.plan.Comparison
     ratio = fields.Float(allow_none=True, metadata={"description": "plan / best baseline, evaluated objectives"})
 
 
+class HeadroomSchema(StrictSchema):  # cohop.jobs.answers.SystemHeadroom
+    id = fields.String()
+    channel_count = fields.Integer()
+    regulatory_min_channels = fields.Integer(metadata={"description": "The least count the profile accepts"})
+    can_lose_channels = fields.Integer(metadata={"description": "channel_count - regulatory_min_channels: channels "
+                                                                "the system can lose and stay compliant"})
+    spare_channels_asked = fields.Integer()
+    spare_channels_default = fields.Boolean(metadata={"description": "The band's default was used"})
+    spare_channels_applied = fields.Integer()
+    spare_capped_by = fields.String(allow_none=True, metadata={"description": "fit (not enough channels the system "
+                                                                             "may use) or max_channels"})
+    typical_interferer = fields.String(allow_none=True, metadata={"description": "What the default is sized for"})
+
+
+class SystemChoiceSchema(StrictSchema):  # cohop.planning.independent.SystemChoice
+    system = fields.String()
+    position = fields.Integer(metadata={"description": "In the commissioning order, 0 first"})
+    may_use = fields.Integer(metadata={"description": "Channels allowed to it (band, profile, interferers, its "
+                                                      "own exclusions)"})
+    avoided_occupancy = fields.List(fields.List(fields.Integer()), metadata={
+        "description": "Inclusive channel ranges avoided for the occupancy of systems already on air"})
+    occupied_by = fields.List(fields.String())
+    taken_back = fields.Integer(metadata={"description": "Avoided channels taken back to reach its minimum"})
+    channel_count = fields.Integer()
+    limited_by = fields.String(allow_none=True, metadata={"description": "Why not every channel it may use: "
+                                                                        "max_channels or separation"})
+
+
+class SideBySideSchema(StrictSchema):  # cohop.jobs.answers.SideBySide
+    id = fields.String()
+    joint_channel_count = fields.Integer(allow_none=True)
+    joint_collision_probability = fields.Float(allow_none=True)
+    joint_residual_loss_probability = fields.Float(allow_none=True)
+    independent_channel_count = fields.Integer()
+    independent_collision_probability = fields.Float()
+    independent_residual_loss_probability = fields.Float()
+    cost_of_independence = fields.Float(allow_none=True, metadata={"description": "Independent minus joint "
+                                                                                  "per-hop collision probability"})
+
+
+class CoordinationComparisonSchema(StrictSchema):  # cohop.jobs.answers.CoordinationComparison
+    basis = fields.String(metadata={"description": "How both plans' figures here were evaluated"})
+    commissioning_order = fields.List(fields.String())
+    independent_basis = fields.String()
+    choices = fields.List(fields.Nested(SystemChoiceSchema))
+    joint_plan = fields.List(fields.Nested(PlannedSystemSchema), allow_none=True, metadata={
+        "description": "The jointly assigned plan, for comparison only (see the 15.247(h) caution)"})
+    joint_objective = fields.Float(allow_none=True)
+    independent_objective = fields.Float()
+    objective_cost = fields.Float(allow_none=True, metadata={"description": "independent_objective - "
+                                                                            "joint_objective"})
+    systems = fields.List(fields.Nested(SideBySideSchema))
+    joint_note = fields.String(allow_none=True)
+
+
 class PlanResponseSchema(StrictSchema):  # cohop.jobs.plan.PlanAnswer
+    headroom = fields.List(fields.Nested(HeadroomSchema), metadata={
+        "description": "Per system: how many channels it can lose before it falls below its regulatory minimum"})
+    independent = fields.Nested(CoordinationComparisonSchema, allow_none=True, metadata={
+        "description": "independent coordination: the joint plan's and the independent plan's figures side by "
+                       "side (null for joint coordination)"})
     cautions = fields.List(fields.String())
     coordination = fields.String()
     plan = fields.List(fields.Nested(PlannedSystemSchema))

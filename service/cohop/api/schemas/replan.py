@@ -8,7 +8,7 @@ from cohop import limits
 from cohop.api.schemas.assessment import AssessmentResponseSchema
 from cohop.api.schemas.dump import Part
 from cohop.api.schemas.fields import IDENTIFIER, Count, List, Number, Text, default
-from cohop.api.schemas.plan import BaselineSystemSchema, PlannedSystemSchema, PlanRequestSchema
+from cohop.api.schemas.plan import BaselineSystemSchema, HeadroomSchema, PlannedSystemSchema, PlanRequestSchema
 from cohop.api.schemas.sequences import SequencesSchema
 from cohop.api.schemas.site import StrictSchema, channel_index, raise_problems
 from cohop.jobs import requests
@@ -117,3 +117,5 @@ class ReplanResponseSchema(StrictSchema):  # cohop.jobs.replan.ReplanAnswer
     assessment = fields.Nested(AssessmentResponseSchema)
     notes = fields.List(fields.String(), attribute="result.notes")
     time = Part(ReplanTimeSchema, of="result")
+    headroom = fields.List(fields.Nested(HeadroomSchema), metadata={
+        "description": "Per system: how many channels it can lose before it falls below its regulatory minimum"})
