@@ -13,7 +13,8 @@ from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, assessment_answ
 from cohop.jobs.requests import PlanRequest
 from cohop.jobs.sequence_answers import SequencesAnswer, sequences_answer
 from cohop.deadline import Deadline
-from cohop.planning.engine import NO_PLAN, BaselineResult, PlanResult, SolveSettings, plan_site
+from cohop.planning.engine import NO_PLAN, BaselineResult, PlanResult, SolveSettings
+from cohop.planning.objectives import ObjectiveValues, objective_values, plan_for_objective
 from cohop.planning.requirements import Progress
 from cohop.planning.validate import Violation
 
@@ -47,6 +48,7 @@ class PlanAnswer:
     assessment: AssessmentAnswer
     baselines: tuple[BaselineAnswer, ...]
     comparison: Comparison
+    objectives: ObjectiveValues  # every objective's value for the plan, on its evaluated figures
 
 
 def baseline_answer(b: BaselineResult) -> BaselineAnswer:
@@ -71,12 +73,14 @@ def plan_answer(result: PlanResult) -> PlanAnswer:
     return PlanAnswer(result=result, coordination=coordination, cautions=assessment.cautions,
                       plan=planned_systems(prep, result.hop_sets), sequences=sequences, assessment=assessment,
                       baselines=tuple(baseline_answer(b) for b in result.baselines),
-                      comparison=compare(result.report.evaluated_objective, result.baselines))
+                      comparison=compare(result.report.evaluated_objective, result.baselines),
+                      objectives=objective_values(result.assessment))
 
 
 def run_plan(req: PlanRequest, settings: SolveSettings, progress: Callable[[Progress], None] | None = None,
              deadline: Deadline | None = None) -> PlanAnswer:
-    result = plan_site(prepared(req.site), req.requirements, settings, progress, req.detail, deadline=deadline)
+    result = plan_for_objective(prepared(req.site), req.requirements, settings, progress, req.detail,
+                                deadline=deadline)
     if result.report.status == NO_PLAN:
         raise PlanInfeasible([Conflict(v.requirement, v.systems, v.detail, relax="raise the time limit or relax "
                                        "this requirement") for v in result.violations], proven=False)

@@ -50,7 +50,12 @@ class RequirementsSchema(StrictSchema):
     coordination = Text(load_default=default(PlanRequirements, "coordination"), validate=validate.OneOf(COORDINATION),
                         metadata={"description": "joint: systems planned together; independent: each only "
                                                  "avoids measured occupancy and its own exclusions."})
-    objective = Text(load_default=default(PlanRequirements, "objective"), validate=validate.OneOf(OBJECTIVES))
+    objective = Text(load_default=default(PlanRequirements, "objective"), validate=validate.OneOf(OBJECTIVES),
+                     metadata={"description": "weighted_sum: priority-weighted per-hop collision; worst_system: the "
+                                              "worst system's per-hop collision (both minimised and bounded by the "
+                                              "linear planner); residual_loss: priority-weighted residual loss "
+                                              "after retries, reached by sensitivity-weighted rounds of the linear "
+                                              "planner (no bound proven)."})
 
     @validates_schema
     def _rules(self, data, **kwargs):
@@ -118,7 +123,8 @@ class SolverReportSchema(StrictSchema):  # cohop.planning.engine.SolverReport
                                                                     "(a busy machine): the same request and seed "
                                                                     "may then give another plan"})
     work = fields.Dict(keys=fields.String(), values=fields.Float(), metadata={
-        "description": "Work done: kicks (local search), cp_sat_deterministic_time, pricing_operations (bound)"})
+        "description": "Work done: kicks (local search), cp_sat_deterministic_time, pricing_operations (bound), "
+                       "objective_rounds (rounds of the linear planner, residual_loss objective)"})
     binding = fields.List(fields.String(), metadata={"description": "Requirements the plan presses against"})
     notes = fields.List(fields.String())
 
@@ -151,6 +157,13 @@ class ComparisonSchema(StrictSchema):  # cohop.jobs.plan.Comparison
     ratio = fields.Float(allow_none=True, metadata={"description": "plan / best baseline, evaluated objectives"})
 
 
+class ObjectivesSchema(StrictSchema):  # cohop.planning.objectives.ObjectiveValues
+    weighted_sum = fields.Float(metadata={"description": "sum of priority_weight x per-hop collision"})
+    worst_system = fields.Float(metadata={"description": "the largest per-hop collision"})
+    worst_system_id = fields.String(metadata={"description": "the system with that collision"})
+    residual_loss = fields.Float(metadata={"description": "sum of priority_weight x residual loss after retries"})
+
+
 class PlanResponseSchema(StrictSchema):  # cohop.jobs.plan.PlanAnswer
     cautions = fields.List(fields.String())
     coordination = fields.String()
@@ -161,6 +174,9 @@ class PlanResponseSchema(StrictSchema):  # cohop.jobs.plan.PlanAnswer
     assessment = fields.Nested(AssessmentResponseSchema)
     baselines = fields.List(fields.Nested(BaselineSchema))
     comparison = fields.Nested(ComparisonSchema)
+    objectives = fields.Nested(ObjectivesSchema, metadata={
+        "description": "Every objective's value for this plan, from the assessment's per-system figures "
+                       "(solver.objective_kind says which one was minimised)"})
 
 
 class ConflictSchema(StrictSchema):

@@ -1,0 +1,100 @@
+"""POST /v1/plans with each objective: the answer's `objectives` and the solver's evaluated objective are
+recomputed from the answer's own per-system figures and the request's priority weights."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from cohop.planning.requirements import OBJECTIVES
+from tests import recompute
+from tests.plan_api.conftest import (assert_problem, by_id, plan_ok, post_plan, schema_validator, small_request,
+                                     small_site)
+
+REL = 1e-9
+
+
+def fragile_request(objective: str | None) -> dict:
+    site = small_site()
+    for s in site["systems"]:
+        s["retry_limit"] = 7
+    site["systems"][0].update(retry_limit=0, hops_per_attempt=2)
+    body = small_request(site=site, baselines=["contiguous", "greedy"])
+    body["search"]["time_limit_s"] = 1.0
+    if objective is not None:
+        body["requirements"]["objective"] = objective
+    return body
+
+
+@pytest.fixture(scope="module")
+def answers(client):
+    return {k: plan_ok(client, fragile_request(k)) for k in OBJECTIVES}
+
+
+def recomputed(systems: list[dict], weights: dict[str, float]) -> dict[str, float]:
+    """Every objective from per-system figures (answer) and priority weights (request), plain Python."""
+    coll = {s["id"]: s["per_hop"]["collision_probability"] for s in systems}
+    resid = {s["id"]: s["retries"]["residual_loss_probability"] for s in systems}
+    worst = max(coll, key=coll.get)
+    return {"weighted_sum": math.fsum(weights[i] * coll[i] for i in coll), "worst_system": coll[worst],
+            "worst_system_id": worst, "residual_loss": math.fsum(weights[i] * resid[i] for i in resid)}
+
+
+@pytest.mark.parametrize("objective", OBJECTIVES)
+def test_every_objective_is_reported_and_recomputes(answers, objective):
+    answer = answers[objective]
+    body = fragile_request(objective)
+    weights = {s["id"]: s["priority_weight"] for s in body["site"]["systems"]}
+    recompute.check_assessment(answer["assessment"])  # the per-system figures themselves
+    expected = recomputed(answer["assessment"]["systems"], weights)
+    got = answer["objectives"]
+    assert set(got) == set(expected)
+    assert got["worst_system_id"] == expected["worst_system_id"]
+    for k in OBJECTIVES:
+        assert got[k] == pytest.approx(expected[k], rel=REL, abs=1e-15), k
+    solver = answer["solver"]
+    assert solver["objective_kind"] == objective
+    assert solver["evaluated_objective"] == pytest.approx(expected[objective], rel=REL, abs=1e-15)
+    assert answer["comparison"]["plan_objective"] == pytest.approx(expected[objective], rel=REL, abs=1e-15)
+
+
+@pytest.mark.parametrize("objective", OBJECTIVES)
+def test_baselines_are_scored_by_the_requested_objective(answers, objective):
+    weights = {s["id"]: s["priority_weight"] for s in fragile_request(objective)["site"]["systems"]}
+    for b in answers[objective]["baselines"]:
+        rates = {s["id"]: s["collision_probability"] for s in b["systems"]}
+        resid = {s["id"]: s["residual_loss_probability"] for s in b["systems"]}
+        expected = {"weighted_sum": math.fsum(weights[i] * rates[i] for i in rates),
+                    "worst_system": max(rates.values()),
+                    "residual_loss": math.fsum(weights[i] * resid[i] for i in resid)}[objective]
+        assert b["objective"] == pytest.approx(expected, rel=REL, abs=1e-15), b["name"]
+
+
+def test_residual_objective_lowers_residual_loss_and_shows_the_price(answers):
+    by_sum, by_residual = answers["weighted_sum"]["objectives"], answers["residual_loss"]["objectives"]
+    assert by_residual["residual_loss"] < by_sum["residual_loss"]
+    assert by_residual["weighted_sum"] >= by_sum["weighted_sum"]
+    solver = answers["residual_loss"]["solver"]
+    assert solver["status"] == "feasible" and solver["work"]["objective_rounds"] >= 1
+    fragile = [by_id(answers[k]["assessment"]["systems"])["a"]["per_hop"]["collision_probability"]
+               for k in ("weighted_sum", "residual_loss")]
+    assert fragile[1] < fragile[0]
+
+
+def test_default_objective_is_weighted_sum(client, answers):
+    answer = plan_ok(client, fragile_request(None))
+    assert answer["solver"]["objective_kind"] == "weighted_sum"
+    assert answer["objectives"]["weighted_sum"] == pytest.approx(answer["solver"]["evaluated_objective"], rel=REL)
+
+
+def test_answers_match_the_documented_schema(client, answers):
+    spec = client.get("/openapi.json").get_json()
+    for objective, answer in answers.items():
+        errors = list(schema_validator(spec, "PlanResponse").iter_errors(answer))
+        assert not errors, (objective, [e.message for e in errors[:5]])
+
+
+def test_unknown_objective_is_refused_with_its_pointer(client):
+    problem = assert_problem(post_plan(client, fragile_request("worst_margin_typo")), 422)
+    assert any(e["pointer"] == "/requirements/objective" for e in problem["errors"]), problem
