@@ -61,7 +61,7 @@ ITERATED = ("residual_loss",)
 ROUND_SHARES = (0.4, 0.2, 0.2, 0.2)
 #: A system's round weight is at least this share of the largest, so that no system becomes free to
 #: degrade without limit (its collision would then grow until its own residual loss mattered).
-WEIGHT_FLOOR = 1e-3
+WEIGHT_FLOOR = 1e-2
 
 
 @dataclass(frozen=True)
@@ -159,6 +159,13 @@ def plan_for_objective(prep: PreparedSite, req: PlanRequirements, settings: Solv
     return _iterated(prep, req, settings, progress, detail, deadline)
 
 
+def round_overhead_s(inst) -> float:
+    """What a round costs besides its search work (calibrated seconds): the planner's set-up and greedy start
+    (`costs.before_search_s`), and two assessments with validation (the round's own and the evaluation here).
+    The rounds after the first are reserved like the closing phases."""
+    return costs.before_search_s(inst) + costs.SAFETY * 2 * costs.assessment_s(inst.n_systems, int(inst.sizes.sum()))
+
+
 def _round_progress(progress, r: int):
     if progress is None:
         return None
@@ -171,9 +178,10 @@ def _iterated(prep, req, settings, progress, detail, deadline):
     full = build_instance(prep, req)
     inst = without_inter_system_terms(full) if req.coordination == "independent" else full
     seq_work = sequence_work(prep, full.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s)
-    budget = search_budget(deadline, inst, costs.after_search_s(full, detail, seq_work))
     # independent coordination decouples the systems: the weights change nothing, one round suffices
     shares = (1.0,) if req.coordination == "independent" else ROUND_SHARES
+    after_s = costs.after_search_s(full, detail, seq_work) + (len(shares) - 1) * round_overhead_s(inst)
+    budget = search_budget(deadline, inst, after_s)
     round_req = dataclasses.replace(req, objective="weighted_sum", baselines=())
     priority = np.array([s.priority_weight for s in prep.site.systems], dtype=float)
     weights = priority
