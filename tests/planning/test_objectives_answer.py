@@ -3,6 +3,7 @@ recomputed from the answer's own per-system figures and the request's priority w
 
 from __future__ import annotations
 
+import json
 import math
 
 import pytest
@@ -98,3 +99,17 @@ def test_answers_match_the_documented_schema(client, answers):
 def test_unknown_objective_is_refused_with_its_pointer(client):
     problem = assert_problem(post_plan(client, fragile_request("worst_margin_typo")), 422)
     assert any(e["pointer"] == "/requirements/objective" for e in problem["errors"]), problem
+
+
+def test_replan_refuses_the_residual_objective_with_its_pointer(client):
+    # re-planning's moves and tolerance target are on the linear objective: residual_loss is refused, not
+    # silently planned as weighted_sum
+    from cohop import samples
+
+    body = samples.load("water_works_replan")
+    body["requirements"] = {"objective": "residual_loss"}
+    resp = client.post("/v1/replans", data=json.dumps(body), content_type="application/json")
+    problem = resp.get_json(force=True)
+    assert resp.status_code == 422, problem
+    assert any(e["pointer"] == "/requirements/objective" and "plans only" in e["detail"]
+               for e in problem["errors"]), problem

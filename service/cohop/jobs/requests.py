@@ -24,7 +24,7 @@ from typing import Mapping
 from cohop.errors import SiteError
 from cohop.limits import MAX_SIMULATED_HOPS
 from cohop.planning.replan import CurrentSystem, ReplanMode
-from cohop.planning.requirements import BASELINES, PlanRequirements, SystemRequirement
+from cohop.planning.requirements import BASELINES, LINEAR_OBJECTIVES, PlanRequirements, SystemRequirement
 from cohop.site import Site
 from cohop.site_rules import Problem, load_site, raise_site_error, under
 
@@ -192,6 +192,9 @@ def plan_request_problems(req: PlanRequest | ReplanRequest) -> list[Problem]:
 
 def replan_request_problems(req: ReplanRequest) -> list[Problem]:
     out, seen = plan_request_problems(req), set()
+    if req.requirements.objective not in LINEAR_OBJECTIVES:  # the re-plan's moves and target are linear
+        out.append((("requirements", "objective"), f"Re-planning minimises per-hop collision: one of "
+                    f"{', '.join(LINEAR_OBJECTIVES)} ({req.requirements.objective} is for plans only)."))
     for i, c in enumerate(req.current):
         if c.id in seen:
             out.append((("current", "systems", i, "id"), f"Duplicate id {c.id!r}."))

@@ -46,14 +46,14 @@ from cohop.planning.engine import (FEASIBLE, NO_PLAN, BaselineResult, PlanResult
                                    search_budget)
 from cohop.planning.instance import build_instance, without_inter_system_terms
 from cohop.planning.linear import occupancy, system_estimates
-from cohop.planning.requirements import PlanRequirements, Progress
+from cohop.planning.requirements import LINEAR_OBJECTIVES, PlanRequirements, Progress
 from cohop.planning.validate import Violation, validate_plan
 from cohop.prepare import PreparedSite
 from cohop.sequences.report import plan_sequences, sequence_work
 from cohop.stats import retries
 
 #: Objectives the linear planner minimises directly.
-LINEAR = ("weighted_sum", "worst_system")
+LINEAR = LINEAR_OBJECTIVES
 #: Objectives on the evaluated figures, reached by rounds of the linear planner.
 ITERATED = ("residual_loss",)
 #: Shares of the search budget per round (sum 1): the first (priority weights) gets the most, since the
