@@ -11,7 +11,8 @@ import pytest
 
 from cohop.assess import assess_site
 from cohop.planning.engine import SolveSettings
-from cohop.planning.objectives import (ROUND_SHARES, WEIGHT_FLOOR, objective_values, plan_for_objective,
+from cohop.planning.objectives import (ROUND_SHARES, WEIGHT_FLOOR, attempt_loss_of, attempt_sensitivity,
+                                       ceiling_shares, margin_gradient, objective_values, plan_for_objective,
                                        residual_gradient, residual_of, residual_sensitivity, round_weights,
                                        with_weights)
 from cohop.planning.requirements import OBJECTIVES, PlanRequirements, SystemRequirement
@@ -32,6 +33,8 @@ def test_sensitivity_matches_a_central_difference_of_the_retry_model(c, f, n, k)
     lo, hi = max(c - h, 0.0), c + h
     fd = (float(residual_of(hi, f, n, k)) - float(residual_of(lo, f, n, k))) / (hi - lo)
     assert float(residual_sensitivity(c, f, n, k)) == pytest.approx(fd, rel=1e-5, abs=1e-9)
+    fd = (float(attempt_loss_of(hi, f, n)) - float(attempt_loss_of(lo, f, n))) / (hi - lo)
+    assert float(attempt_sensitivity(c, f, n)) == pytest.approx(fd, rel=1e-5, abs=1e-9)
 
 
 def fragile_site(retry_limit=0, hops=2) -> dict:
@@ -110,7 +113,7 @@ def test_objective_values_agree_with_the_assessment_summary(prep):
     assert v.worst_system == pytest.approx(a.worst_collision, rel=1e-12) and v.worst_system_id == a.worst_system
     p = [s.priority_weight for s in prep.site.systems]
     assert v.residual_loss == pytest.approx(sum(w * f.residual_loss_probability for w, f in zip(p, a.systems)))
-    assert [v.of(k) for k in OBJECTIVES] == [v.weighted_sum, v.worst_system, v.residual_loss]
+    assert [v.of(k) for k in OBJECTIVES] == [v.weighted_sum, v.worst_system, v.residual_loss, None]
 
 
 @pytest.fixture(scope="module")
@@ -159,3 +162,56 @@ def test_independent_coordination_plans_one_round():
     r = plan_for_objective(prep, req, SolveSettings(), detail="system")
     assert r.report.work["objective_rounds"] == 1
     assert math.isfinite(r.report.evaluated_objective)
+
+
+CEILINGS = {"a": {"max_attempt_loss": 0.3}, "b": {"max_residual_loss": 1e-6}, "c": {"max_attempt_loss": 0.2}}
+
+
+def ceiling_requirements(**kw) -> PlanRequirements:
+    return PlanRequirements(systems=tuple(SystemRequirement(system=s, min_channels=n, max_channels=n,
+                                                            **CEILINGS.get(s, {})) for s, n in SIZES.items()),
+                            **{"time_limit_s": 1.0, **kw})
+
+
+def test_ceiling_shares_take_the_larger_share_and_skip_systems_without_ceilings():
+    nan = float("nan")
+    shares = ceiling_shares(np.array([1e-3, 1e-3, 0.2, 0.0, 0.1]), np.array([0.2, 0.2, 0.3, 0.0, 0.1]),
+                            (np.array([1e-2, nan, nan, 0.0, 0.0]), np.array([0.4, 0.1, nan, nan, nan])))
+    assert shares[:2].tolist() == pytest.approx([0.5, 2.0])
+    assert math.isnan(shares[2])
+    assert shares[3:].tolist() == [0.0, 1.1]  # a zero ceiling: met, or missed (1 + loss, finite)
+
+
+def test_margin_gradient_matches_a_difference_of_the_worst_share(prep):
+    # for the worst system the smoothing factor is 1: its weight is the slope of its share of its binding
+    # ceiling, checked against a central difference of that share evaluated directly (common practice)
+    req = ceiling_requirements(objective="worst_margin")
+    c = np.array([0.08, 0.02, 0.05, 0.03])
+    g = margin_gradient(prep, req, c)
+    s = prep.site.systems
+    def shares(cc):
+        resid = np.array([float(residual_of(cc[v], prep.fade_probability[v], x.hops_per_attempt, x.retry_limit))
+                          for v, x in enumerate(s)])
+        att = np.array([float(attempt_loss_of(cc[v], prep.fade_probability[v], x.hops_per_attempt))
+                        for v, x in enumerate(s)])
+        ceil = (np.array([np.nan, 1e-6, np.nan, np.nan]), np.array([0.3, np.nan, 0.2, np.nan]))
+        return ceiling_shares(resid, att, ceil)
+    worst = int(np.nanargmax(shares(c)))
+    h = 1e-7
+    up, down = c.copy(), c.copy()
+    up[worst] += h
+    down[worst] -= h
+    assert g[worst] == pytest.approx((shares(up)[worst] - shares(down)[worst]) / (2 * h), rel=1e-5)
+    assert g[3] == 0.0  # no ceiling
+    assert all(0 < g[v] for v in (0, 1, 2))
+
+
+def test_worst_margin_plan_widens_the_worst_margin():
+    prep = prepare_site(load_site(fragile_site()))
+    values = {}
+    for k in ("weighted_sum", "worst_margin"):
+        req = ceiling_requirements(objective=k)
+        r = plan_for_objective(prep, req, SolveSettings(), detail="system")
+        assert not r.violations
+        values[k] = objective_values(r.assessment, req).worst_margin
+    assert values["worst_margin"] < values["weighted_sum"] < 1.0

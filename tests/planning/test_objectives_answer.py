@@ -10,10 +10,11 @@ import pytest
 
 from cohop.planning.requirements import OBJECTIVES
 from tests import recompute
-from tests.plan_api.conftest import (assert_problem, by_id, plan_ok, post_plan, schema_validator, small_request,
-                                     small_site)
+from tests.plan_api.conftest import (assert_problem, by_id, plan_ok, post_plan, requirement, schema_validator,
+                                     small_request, small_site)
 
 REL = 1e-9
+CEILINGS = {"a": {"max_attempt_loss": 0.3}, "b": {"max_residual_loss": 1e-6}, "c": {"max_attempt_loss": 0.2}}
 
 
 def fragile_request(objective: str | None) -> dict:
@@ -23,6 +24,8 @@ def fragile_request(objective: str | None) -> dict:
     site["systems"][0].update(retry_limit=0, hops_per_attempt=2)
     body = small_request(site=site, baselines=["contiguous", "greedy"])
     body["search"]["time_limit_s"] = 1.0
+    for sid, ceilings in CEILINGS.items():
+        requirement(body, sid).update(ceilings)
     if objective is not None:
         body["requirements"]["objective"] = objective
     return body
@@ -34,12 +37,20 @@ def answers(client):
 
 
 def recomputed(systems: list[dict], weights: dict[str, float]) -> dict[str, float]:
-    """Every objective from per-system figures (answer) and priority weights (request), plain Python."""
+    """Every objective from per-system figures (answer), priority weights and ceilings (request), plain
+    Python: a system's share of a ceiling is its loss over that ceiling."""
     coll = {s["id"]: s["per_hop"]["collision_probability"] for s in systems}
     resid = {s["id"]: s["retries"]["residual_loss_probability"] for s in systems}
+    attempt = {s["id"]: s["per_attempt"]["loss_probability"] for s in systems}
+    shares = {}
+    for sid, ceilings in CEILINGS.items():
+        figure = {"max_attempt_loss": attempt[sid], "max_residual_loss": resid[sid]}
+        shares[sid] = max(figure[name] / limit for name, limit in ceilings.items())
     worst = max(coll, key=coll.get)
+    margin = max(shares, key=shares.get)
     return {"weighted_sum": math.fsum(weights[i] * coll[i] for i in coll), "worst_system": coll[worst],
-            "worst_system_id": worst, "residual_loss": math.fsum(weights[i] * resid[i] for i in resid)}
+            "worst_system_id": worst, "residual_loss": math.fsum(weights[i] * resid[i] for i in resid),
+            "worst_margin": shares[margin], "worst_margin_system_id": margin}
 
 
 @pytest.mark.parametrize("objective", OBJECTIVES)
@@ -52,6 +63,7 @@ def test_every_objective_is_reported_and_recomputes(answers, objective):
     got = answer["objectives"]
     assert set(got) == set(expected)
     assert got["worst_system_id"] == expected["worst_system_id"]
+    assert got["worst_margin_system_id"] == expected["worst_margin_system_id"]
     for k in OBJECTIVES:
         assert got[k] == pytest.approx(expected[k], rel=REL, abs=1e-15), k
     solver = answer["solver"]
@@ -66,6 +78,13 @@ def test_baselines_are_scored_by_the_requested_objective(answers, objective):
     for b in answers[objective]["baselines"]:
         rates = {s["id"]: s["collision_probability"] for s in b["systems"]}
         resid = {s["id"]: s["residual_loss_probability"] for s in b["systems"]}
+        if objective == "worst_margin":  # attempt loss from the residual: R = L^(k + 1) (cohop.stats.retries)
+            retry = {s["id"]: s["retry_limit"] for s in fragile_request(objective)["site"]["systems"]}
+            shares = [max({"max_attempt_loss": resid[i] ** (1.0 / (retry[i] + 1)),
+                           "max_residual_loss": resid[i]}[name] / limit for name, limit in ceilings.items())
+                      for i, ceilings in CEILINGS.items()]
+            assert b["objective"] == pytest.approx(max(shares), rel=1e-7), b["name"]
+            continue
         expected = {"weighted_sum": math.fsum(weights[i] * rates[i] for i in rates),
                     "worst_system": max(rates.values()),
                     "residual_loss": math.fsum(weights[i] * resid[i] for i in resid)}[objective]
@@ -99,6 +118,20 @@ def test_answers_match_the_documented_schema(client, answers):
 def test_unknown_objective_is_refused_with_its_pointer(client):
     problem = assert_problem(post_plan(client, fragile_request("worst_margin_typo")), 422)
     assert any(e["pointer"] == "/requirements/objective" for e in problem["errors"]), problem
+
+
+def test_worst_margin_needs_a_ceiling(client):
+    body = small_request()
+    body["requirements"]["objective"] = "worst_margin"
+    problem = assert_problem(post_plan(client, body), 422)
+    assert any(e["pointer"] == "/requirements/objective" and "ceiling" in e["detail"]
+               for e in problem["errors"]), problem
+
+
+def test_worst_margin_plan_widens_the_margin(answers):
+    by_sum, by_margin = answers["weighted_sum"]["objectives"], answers["worst_margin"]["objectives"]
+    assert by_margin["worst_margin"] < by_sum["worst_margin"] < 1.0
+    assert answers["worst_margin"]["solver"]["status"] == "feasible"
 
 
 def test_replan_refuses_the_residual_objective_with_its_pointer(client):

@@ -74,7 +74,7 @@ def plan_answer(result: PlanResult) -> PlanAnswer:
                       plan=planned_systems(prep, result.hop_sets), sequences=sequences, assessment=assessment,
                       baselines=tuple(baseline_answer(b) for b in result.baselines),
                       comparison=compare(result.report.evaluated_objective, result.baselines),
-                      objectives=objective_values(result.assessment))
+                      objectives=objective_values(result.assessment, result.instance.req))
 
 
 def run_plan(req: PlanRequest, settings: SolveSettings, progress: Callable[[Progress], None] | None = None,

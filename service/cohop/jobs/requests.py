@@ -185,9 +185,18 @@ def _simulated_hops(site: Site, sequence_packets: int) -> list[Problem]:
     return []
 
 
+def _objective_needs(req: PlanRequirements) -> list[Problem]:
+    """worst_margin is measured against the ceilings: at least one system must set one."""
+    if req.objective == "worst_margin" and not any(r.max_residual_loss is not None or r.max_attempt_loss is not None
+                                                   for r in req.systems):
+        return [(("requirements", "objective"), "worst_margin needs a ceiling (max_residual_loss or "
+                 "max_attempt_loss) on at least one system.")]
+    return []
+
+
 def plan_request_problems(req: PlanRequest | ReplanRequest) -> list[Problem]:
     return (_simulated_hops(req.site, req.requirements.sequence_packets)
-            + _requirement_references(req.site, req.requirements))
+            + _requirement_references(req.site, req.requirements) + _objective_needs(req.requirements))
 
 
 def replan_request_problems(req: ReplanRequest) -> list[Problem]:

@@ -22,9 +22,18 @@ search budget (what the closing phases leave) is split between them
 (`ROUND_SHARES`, `cohop.deadline.Budget.split`), and the sequences, the
 assessment and the baselines run once, on the plan kept.
 
+"worst_margin" minimises the largest share of a ceiling that a system's
+evaluated loss takes: max over systems and their ceilings of
+R_v / max_residual_loss_v and L_v / max_attempt_loss_v (below 1 every ceiling
+is met, by a margin of 1 minus it; systems without a ceiling do not count,
+and a request needs one). Its round weights are each system's slope of its
+binding share times exp((s_v - s_max) / (TEMPERATURE s_max)), a smoothed
+maximum, and move only halfway (DAMPING) from the last round's: a maximum is
+not smooth, and undamped rounds oscillate between the systems.
+
 The linear planner's objective, bound and gap in the answer are then those of
 the round that found the kept plan (its weights are in the notes); no bound
-on the residual loss is proven, so such a plan is never called optimal.
+on these figures is proven, so such a plan is never called optimal.
 
 Every answer reports the value of each objective for its plan
 (`ObjectiveValues`), each recomputable from the answer's per-system figures.
@@ -55,13 +64,18 @@ from cohop.stats import retries
 #: Objectives the linear planner minimises directly.
 LINEAR = LINEAR_OBJECTIVES
 #: Objectives on the evaluated figures, reached by rounds of the linear planner.
-ITERATED = ("residual_loss",)
+ITERATED = ("residual_loss", "worst_margin")
 #: Shares of the search budget per round (sum 1): the first (priority weights) gets the most, since the
 #: later rounds start from scratch on a nearby objective.
 ROUND_SHARES = (0.4, 0.2, 0.2, 0.2)
 #: A system's round weight is at least this share of the largest, so that no system becomes free to
 #: degrade without limit (its collision would then grow until its own residual loss mattered).
 WEIGHT_FLOOR = 1e-2
+#: worst_margin: the systems' shares of their ceilings are smoothed into weights exp((s_v - s_max) / (TEMPERATURE
+#: s_max)), so that the systems near the worst one count and the others hardly.
+TEMPERATURE = 0.1
+#: worst_margin: each round's weights move this share of the way from the last round's to the new gradient's.
+DAMPING = 0.5
 
 
 @dataclass(frozen=True)
@@ -74,18 +88,52 @@ class ObjectiveValues:
     worst_system: float
     worst_system_id: str
     residual_loss: float
+    worst_margin: float | None = None  # the largest share of a ceiling; None when the request sets none
+    worst_margin_system_id: str | None = None
 
     def of(self, kind: str) -> float:
         return getattr(self, kind)
 
 
-def objective_values(assessment: Assessment) -> ObjectiveValues:
+def ceilings_of(prep: PreparedSite, req: PlanRequirements | None) -> tuple[np.ndarray, np.ndarray]:
+    """Each system's ceilings on residual loss and on per-attempt loss (nan: none)."""
+    residual = np.full(prep.n_systems, np.nan)
+    attempt = np.full(prep.n_systems, np.nan)
+    if req is not None:
+        for v, s in enumerate(prep.site.systems):
+            r = req.for_system(s.id)
+            residual[v] = np.nan if r.max_residual_loss is None else r.max_residual_loss
+            attempt[v] = np.nan if r.max_attempt_loss is None else r.max_attempt_loss
+    return residual, attempt
+
+
+def ceiling_shares(residual: np.ndarray, attempt: np.ndarray, ceilings) -> np.ndarray:
+    """Per system, the larger of residual / its ceiling and attempt loss / its ceiling (nan without one).
+    A ceiling of 0 has share 0 when the loss is 0, else 1 + the loss (missed, and finite for the answer)."""
+    out = np.full(residual.shape, np.nan)
+    for figure, ceiling in zip((residual, attempt), ceilings):
+        with np.errstate(divide="ignore", invalid="ignore"):
+            share = np.where(ceiling > 0, figure / ceiling, np.where(figure > 0, 1.0 + figure, 0.0))
+        share = np.where(np.isnan(ceiling), np.nan, share)
+        out = np.fmax(out, share)
+    return out
+
+
+def objective_values(assessment: Assessment, req: PlanRequirements | None = None) -> ObjectiveValues:
+    """Every objective's value; worst_margin needs the request's ceilings (`req`)."""
     p = np.array([s.priority_weight for s in assessment.prepared.site.systems], dtype=float)
     c = np.array([f.collision_probability for f in assessment.systems])
     r = np.array([f.residual_loss_probability for f in assessment.systems])
+    att = np.array([f.attempt_loss_probability for f in assessment.systems])
     worst = int(np.argmax(c))
+    shares = ceiling_shares(r, att, ceilings_of(assessment.prepared, req))
+    margin, margin_id = None, None
+    if not np.isnan(shares).all():
+        m = int(np.nanargmax(shares))
+        margin, margin_id = float(shares[m]), assessment.systems[m].id
     return ObjectiveValues(weighted_sum=float(p @ c), worst_system=float(c[worst]),
-                           worst_system_id=assessment.systems[worst].id, residual_loss=float(p @ r))
+                           worst_system_id=assessment.systems[worst].id, residual_loss=float(p @ r),
+                           worst_margin=margin, worst_margin_system_id=margin_id)
 
 
 # --- the retry model and its sensitivity to per-hop collision ---------------------------------------
@@ -107,6 +155,52 @@ def residual_sensitivity(collision, fade_probability, hops_per_attempt: int, ret
     return (k + 1) * attempt**k * n * (1.0 - c) ** (n - 1) * keep
 
 
+def attempt_loss_of(collision, fade_probability, hops_per_attempt: int):
+    """L(c) = 1 - (1 - c)^n (1 - f)^n (`cohop.stats.retries`)."""
+    return retries.combine_independent(retries.per_attempt(collision, hops_per_attempt),
+                                       retries.per_attempt(fade_probability, hops_per_attempt))
+
+
+def attempt_sensitivity(collision, fade_probability, hops_per_attempt: int):
+    """dL/dc = n (1 - c)^(n-1) (1 - f)^n [chain rule on L above]."""
+    c = np.asarray(collision, dtype=float)
+    n = hops_per_attempt
+    return n * (1.0 - c) ** (n - 1) * (1.0 - np.asarray(fade_probability, dtype=float)) ** n
+
+
+def margin_gradient(prep: PreparedSite, req: PlanRequirements, collision: np.ndarray) -> np.ndarray:
+    """Weights for worst_margin at per-hop collisions `collision`: per system the sensitivity of its share of
+    its binding ceiling (the larger share) to its collision, times exp((s_v - s_max) / (TEMPERATURE s_max))
+    (a smoothed maximum); zero for systems without a ceiling."""
+    ceil_r, ceil_a = ceilings_of(prep, req)
+    s_sys = prep.site.systems
+    resid = np.array([float(residual_of(collision[v], prep.fade_probability[v], s.hops_per_attempt, s.retry_limit))
+                      for v, s in enumerate(s_sys)])
+    att = np.array([float(attempt_loss_of(collision[v], prep.fade_probability[v], s.hops_per_attempt))
+                    for v, s in enumerate(s_sys)])
+    shares = ceiling_shares(resid, att, (ceil_r, ceil_a))
+    out = np.zeros(prep.n_systems)
+    finite = np.isfinite(shares)
+    if not finite.any():
+        return out
+    top = float(shares[finite].max())
+    for v, s in enumerate(s_sys):
+        if not finite[v]:
+            continue
+        r_share = resid[v] / ceil_r[v] if ceil_r[v] > 0 else -np.inf  # nan and zero ceilings: no slope
+        a_share = att[v] / ceil_a[v] if ceil_a[v] > 0 else -np.inf
+        if r_share == a_share == -np.inf:
+            continue
+        if r_share >= a_share:
+            slope = float(residual_sensitivity(collision[v], prep.fade_probability[v], s.hops_per_attempt,
+                                               s.retry_limit)) / ceil_r[v]
+        else:
+            slope = float(attempt_sensitivity(collision[v], prep.fade_probability[v], s.hops_per_attempt)) / ceil_a[v]
+        soft = math.exp((shares[v] - top) / (TEMPERATURE * top)) if top > 0 else 1.0
+        out[v] = slope * soft
+    return out
+
+
 def residual_gradient(prep: PreparedSite, collision: np.ndarray) -> np.ndarray:
     """d(sum_v p_v R_v)/dc_v for every system at per-hop collisions `collision`."""
     out = np.zeros(prep.n_systems)
@@ -114,6 +208,18 @@ def residual_gradient(prep: PreparedSite, collision: np.ndarray) -> np.ndarray:
         out[v] = s.priority_weight * float(residual_sensitivity(collision[v], prep.fade_probability[v],
                                                                 s.hops_per_attempt, s.retry_limit))
     return out
+
+
+def value_at(prep: PreparedSite, req: PlanRequirements, collision: np.ndarray) -> float:
+    """The request's iterated objective at the given per-hop collisions (e.g. the linearised estimates)."""
+    if req.objective == "residual_loss":
+        return residual_estimate(prep, collision)
+    s_sys = prep.site.systems
+    resid = np.array([float(residual_of(collision[v], prep.fade_probability[v], s.hops_per_attempt, s.retry_limit))
+                      for v, s in enumerate(s_sys)])
+    att = np.array([float(attempt_loss_of(collision[v], prep.fade_probability[v], s.hops_per_attempt))
+                    for v, s in enumerate(s_sys)])
+    return float(np.nanmax(ceiling_shares(resid, att, ceilings_of(prep, req))))
 
 
 def residual_estimate(prep: PreparedSite, collision: np.ndarray) -> float:
@@ -195,14 +301,18 @@ def _iterated(prep, req, settings, progress, detail, deadline):
                            _round_progress(progress, r), detail="system", with_sequences=False, budget=part)
         deadline.count("objective_rounds", 1)
         evaluated = assess_site(prep, hop_sets=result.hop_sets, detail="system", origin="plan")
-        value = objective_values(evaluated).of(req.objective)
+        value = objective_values(evaluated, req).of(req.objective)
         rounds.append(Round(tuple(float(w) for w in weights), value, result.report.objective))
         if value < best_value and not result.violations:
             best, best_value, best_round = result, value, r
         elif best is None:
             best, best_round = result, r
         collision = np.array([f.collision_probability for f in evaluated.systems])
-        weights = round_weights(residual_gradient(prep, collision))
+        if req.objective == "residual_loss":
+            weights = round_weights(residual_gradient(prep, collision))
+        else:  # a maximum is not smooth: the weights move halfway towards the new gradient's (damped)
+            new = round_weights(margin_gradient(prep, req, collision))
+            weights = new if r == 0 else round_weights(DAMPING * new + (1 - DAMPING) * weights)
     return _finish(prep, req, full, inst, best, best_round, rounds, deadline, detail, seq_work, settings)
 
 
@@ -215,7 +325,7 @@ def _evaluated_baselines(full, req: PlanRequirements) -> list[BaselineResult]:
             out.append(BaselineResult(name, None, None, [Violation("construction", (), "no plan built")], None))
             continue
         a = assess_site(full.prep, hop_sets=sets, detail="system", origin="baseline")
-        out.append(BaselineResult(name, sets, a, validate_plan(full, sets, a), objective_values(a).of(req.objective)))
+        out.append(BaselineResult(name, sets, a, validate_plan(full, sets, a), objective_values(a, req).of(req.objective)))
     return out
 
 
@@ -227,16 +337,16 @@ def _finish(prep, req, full, inst, best: PlanResult, best_round: int, rounds: li
     sequences = plan_sequences(prep, hop_sets, req.seed, req.sequence_packets, seq_work, closing)
     assessment = assess_site(prep, hop_sets=hop_sets, detail=detail, origin="plan", sequences=sequences.orders)
     violations = validate_plan(full, hop_sets, assessment)
-    evaluated = objective_values(assessment).of(req.objective)
+    evaluated = objective_values(assessment, req).of(req.objective)
     x = occupancy(hop_sets, full.n_systems, full.n_channels)
-    estimate = residual_estimate(prep, system_estimates(full, x))
+    estimate = value_at(prep, req, system_estimates(full, x))
     kept = rounds[best_round]
     notes = [f"objective {req.objective}: {len(rounds)} round(s) of the linear planner with per-system weights "
-             "from the sensitivity of the weighted residual loss to per-hop collision; the plan kept is round "
+             "from the sensitivity of that figure to per-hop collision; the plan kept is round "
              f"{best_round + 1}'s (weights " + ", ".join(f"{w:.3g}" for w in kept.weights) + "). The solver's "
-             "objective, bound and gap are that round's weighted per-hop collision; no bound on the residual "
-             "loss is proven",
-             "evaluated residual loss by round: " + ", ".join(f"{rd.value:.6g}" for rd in rounds)]
+             "objective, bound and gap are that round's weighted per-hop collision; no bound on "
+             f"{req.objective} is proven",
+             f"evaluated {req.objective} by round: " + ", ".join(f"{rd.value:.6g}" for rd in rounds)]
     notes += [n for n in best.report.notes if not n.startswith("the wall clock") and not n.startswith("the time")]
     notes += deadline.notes()
     report = dataclasses.replace(

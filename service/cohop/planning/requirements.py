@@ -12,9 +12,11 @@ DEFAULT_INTERFERER_THRESHOLD = 0.05
 
 #: weighted_sum and worst_system: the linearised per-hop collision (priority-weighted sum, worst system), which
 #: the linear planner minimises and bounds; residual_loss: the priority-weighted residual loss after retries
-#: on the evaluated figures, reached by sensitivity-weighted rounds of it (`cohop.planning.objectives`).
+#: on the evaluated figures, and worst_margin: the largest share of a system's loss ceiling (max_residual_loss,
+#: max_attempt_loss) its evaluated loss takes, both reached by sensitivity-weighted rounds of it
+#: (`cohop.planning.objectives`).
 LINEAR_OBJECTIVES = ("weighted_sum", "worst_system")  # also what re-planning accepts (its moves are linear)
-OBJECTIVES = LINEAR_OBJECTIVES + ("residual_loss",)
+OBJECTIVES = LINEAR_OBJECTIVES + ("residual_loss", "worst_margin")
 COORDINATION = ("joint", "independent")
 BASELINES = ("whole_band", "random", "contiguous", "interleaved", "greedy")
 

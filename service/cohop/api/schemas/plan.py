@@ -55,7 +55,9 @@ class RequirementsSchema(StrictSchema):
                                               "worst system's per-hop collision (both minimised and bounded by the "
                                               "linear planner); residual_loss: priority-weighted residual loss "
                                               "after retries, reached by sensitivity-weighted rounds of the linear "
-                                              "planner (no bound proven)."})
+                                              "planner; worst_margin: the largest share of a system's loss "
+                                              "ceiling its evaluated loss takes (needs a ceiling), reached the "
+                                              "same way (no bound proven for either)."})
 
     @validates_schema
     def _rules(self, data, **kwargs):
@@ -124,7 +126,7 @@ class SolverReportSchema(StrictSchema):  # cohop.planning.engine.SolverReport
                                                                     "may then give another plan"})
     work = fields.Dict(keys=fields.String(), values=fields.Float(), metadata={
         "description": "Work done: kicks (local search), cp_sat_deterministic_time, pricing_operations (bound), "
-                       "objective_rounds (rounds of the linear planner, residual_loss objective)"})
+                       "objective_rounds (rounds of the linear planner: residual_loss, worst_margin)"})
     binding = fields.List(fields.String(), metadata={"description": "Requirements the plan presses against"})
     notes = fields.List(fields.String())
 
@@ -162,6 +164,10 @@ class ObjectivesSchema(StrictSchema):  # cohop.planning.objectives.ObjectiveValu
     worst_system = fields.Float(metadata={"description": "the largest per-hop collision"})
     worst_system_id = fields.String(metadata={"description": "the system with that collision"})
     residual_loss = fields.Float(metadata={"description": "sum of priority_weight x residual loss after retries"})
+    worst_margin = fields.Float(allow_none=True, metadata={
+        "description": "the largest share of a ceiling (max_residual_loss, max_attempt_loss) a system's evaluated "
+                       "loss takes (below 1: every ceiling met, by a margin of 1 minus this); null without ceilings"})
+    worst_margin_system_id = fields.String(allow_none=True, metadata={"description": "the system with that share"})
 
 
 class PlanResponseSchema(StrictSchema):  # cohop.jobs.plan.PlanAnswer
