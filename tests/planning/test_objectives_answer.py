@@ -10,7 +10,7 @@ import pytest
 
 from cohop.planning.requirements import OBJECTIVES
 from tests import recompute
-from tests.plan_api.conftest import (assert_problem, by_id, plan_ok, post_plan, requirement, schema_validator,
+from tests.plan_api.conftest import (assert_problem, assert_repeats, by_id, plan_ok, post_plan, requirement, schema_validator,
                                      small_request, small_site)
 
 REL = 1e-9
@@ -118,6 +118,17 @@ def test_answers_match_the_documented_schema(client, answers):
 def test_unknown_objective_is_refused_with_its_pointer(client):
     problem = assert_problem(post_plan(client, fragile_request("worst_margin_typo")), 422)
     assert any(e["pointer"] == "/requirements/objective" for e in problem["errors"]), problem
+
+
+def test_same_request_and_seed_give_the_same_answer(client, answers):
+    # the rounds' seeds derive from the request's: the answer repeats unless the wall clock cut a phase
+    assert_repeats(answers["residual_loss"], plan_ok(client, fragile_request("residual_loss")))
+
+
+def test_without_ceilings_worst_margin_is_null(client):
+    answer = plan_ok(client, small_request())
+    assert answer["objectives"]["worst_margin"] is None and answer["objectives"]["worst_margin_system_id"] is None
+    assert answer["objectives"]["residual_loss"] > 0
 
 
 def test_worst_margin_needs_a_ceiling(client):
