@@ -10,8 +10,8 @@ import pytest
 
 from cohop.planning.requirements import OBJECTIVES
 from tests import recompute
-from tests.plan_api.conftest import (assert_problem, assert_repeats, by_id, plan_ok, post_plan, requirement, schema_validator,
-                                     small_request, small_site)
+from tests.plan_api.conftest import (assert_problem, assert_repeats, by_id, plan_ok, post_plan, requirement,
+                                     schema_validator, small_request, small_site)
 
 REL = 1e-9
 CEILINGS = {"a": {"max_attempt_loss": 0.3}, "b": {"max_residual_loss": 1e-6}, "c": {"max_attempt_loss": 0.2}}

@@ -168,16 +168,23 @@ def attempt_sensitivity(collision, fade_probability, hops_per_attempt: int):
     return n * (1.0 - c) ** (n - 1) * (1.0 - np.asarray(fade_probability, dtype=float)) ** n
 
 
+def losses_at(prep: PreparedSite, collision: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Every system's residual loss and per-attempt loss at the given per-hop collisions."""
+    systems = prep.site.systems
+    resid = np.array([float(residual_of(collision[v], prep.fade_probability[v], s.hops_per_attempt, s.retry_limit))
+                      for v, s in enumerate(systems)])
+    att = np.array([float(attempt_loss_of(collision[v], prep.fade_probability[v], s.hops_per_attempt))
+                    for v, s in enumerate(systems)])
+    return resid, att
+
+
 def margin_gradient(prep: PreparedSite, req: PlanRequirements, collision: np.ndarray) -> np.ndarray:
     """Weights for worst_margin at per-hop collisions `collision`: per system the sensitivity of its share of
     its binding ceiling (the larger share) to its collision, times exp((s_v - s_max) / (TEMPERATURE s_max))
     (a smoothed maximum); zero for systems without a ceiling."""
     ceil_r, ceil_a = ceilings_of(prep, req)
     s_sys = prep.site.systems
-    resid = np.array([float(residual_of(collision[v], prep.fade_probability[v], s.hops_per_attempt, s.retry_limit))
-                      for v, s in enumerate(s_sys)])
-    att = np.array([float(attempt_loss_of(collision[v], prep.fade_probability[v], s.hops_per_attempt))
-                    for v, s in enumerate(s_sys)])
+    resid, att = losses_at(prep, collision)
     shares = ceiling_shares(resid, att, (ceil_r, ceil_a))
     out = np.zeros(prep.n_systems)
     finite = np.isfinite(shares)
@@ -214,11 +221,7 @@ def value_at(prep: PreparedSite, req: PlanRequirements, collision: np.ndarray) -
     """The request's iterated objective at the given per-hop collisions (e.g. the linearised estimates)."""
     if req.objective == "residual_loss":
         return residual_estimate(prep, collision)
-    s_sys = prep.site.systems
-    resid = np.array([float(residual_of(collision[v], prep.fade_probability[v], s.hops_per_attempt, s.retry_limit))
-                      for v, s in enumerate(s_sys)])
-    att = np.array([float(attempt_loss_of(collision[v], prep.fade_probability[v], s.hops_per_attempt))
-                    for v, s in enumerate(s_sys)])
+    resid, att = losses_at(prep, collision)
     return float(np.nanmax(ceiling_shares(resid, att, ceilings_of(prep, req))))
 
 
@@ -325,7 +328,8 @@ def _evaluated_baselines(full, req: PlanRequirements) -> list[BaselineResult]:
             out.append(BaselineResult(name, None, None, [Violation("construction", (), "no plan built")], None))
             continue
         a = assess_site(full.prep, hop_sets=sets, detail="system", origin="baseline")
-        out.append(BaselineResult(name, sets, a, validate_plan(full, sets, a), objective_values(a, req).of(req.objective)))
+        value = objective_values(a, req).of(req.objective)
+        out.append(BaselineResult(name, sets, a, validate_plan(full, sets, a), value))
     return out
 
 
