@@ -23,7 +23,7 @@ def fragile_request(objective: str | None) -> dict:
         s["retry_limit"] = 7
     site["systems"][0].update(retry_limit=0, hops_per_attempt=2)
     body = small_request(site=site, baselines=["contiguous", "greedy"])
-    body["search"]["time_limit_s"] = 1.0
+    body["search"]["time_limit_s"] = 2.0
     for sid, ceilings in CEILINGS.items():
         requirement(body, sid).update(ceilings)
     if objective is not None:

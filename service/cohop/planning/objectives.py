@@ -19,7 +19,8 @@ plan (a first-order model of the objective around it: the weights of a
 Frank-Wolfe step); the first round uses the priority weights. The best plan
 by the evaluated figure is kept. Rounds share the one time limit: the
 search budget (what the closing phases leave) is split between them
-(`ROUND_SHARES`, `cohop.deadline.Budget.split`), and the sequences, the
+(`ROUND_SHARES`, `cohop.deadline.Budget.split`; fewer rounds on a short limit,
+`round_count`), and the sequences, the
 assessment and the baselines run once, on the plan kept.
 
 "worst_margin" minimises the largest share of a ceiling that a system's
@@ -65,9 +66,14 @@ from cohop.stats import retries
 LINEAR = LINEAR_OBJECTIVES
 #: Objectives on the evaluated figures, reached by rounds of the linear planner.
 ITERATED = ("residual_loss", "worst_margin")
-#: Shares of the search budget per round (sum 1): the first (priority weights) gets the most, since the
-#: later rounds start from scratch on a nearby objective.
-ROUND_SHARES = (0.4, 0.2, 0.2, 0.2)
+#: Shares of the search budget per round (each sum 1), by the number of rounds: the first (priority weights)
+#: gets the most, since the later rounds start from scratch on a nearby objective.
+ROUND_SHARES = {1: (1.0,), 2: (0.6, 0.4), 3: (0.5, 0.25, 0.25), 4: (0.4, 0.2, 0.2, 0.2)}
+#: A later round runs only if its share is at least this much calibrated work, and at least
+#: MIN_ROUND_OVERHEADS times its own set-up and assessments (`round_overhead_s`): on a short limit fewer,
+#: longer rounds, down to one (the weighted_sum plan with the whole budget, kept or not by the figure).
+MIN_ROUND_WORK_S = 0.2
+MIN_ROUND_OVERHEADS = 1.5
 #: A system's round weight is at least this share of the largest, so that no system becomes free to
 #: degrade without limit (its collision would then grow until its own residual loss mattered).
 WEIGHT_FLOOR = 1e-2
@@ -268,6 +274,17 @@ def plan_for_objective(prep: PreparedSite, req: PlanRequirements, settings: Solv
     return _iterated(prep, req, settings, progress, detail, deadline)
 
 
+def round_count(work_s: float, overhead_s: float) -> int:
+    """The most rounds (at most max(ROUND_SHARES)) whose later rounds each get their minimum, when the search
+    has about `work_s` seconds before the later rounds' set-up (`overhead_s` each) is reserved."""
+    least = max(MIN_ROUND_WORK_S, MIN_ROUND_OVERHEADS * overhead_s)
+    for k in sorted(ROUND_SHARES, reverse=True):
+        later = min(ROUND_SHARES[k][1:], default=1.0)
+        if k == 1 or later * (work_s - (k - 1) * overhead_s) >= least:
+            return k
+    return 1
+
+
 def round_overhead_s(inst) -> float:
     """What a round costs besides its search work (calibrated seconds): the planner's set-up and greedy start
     (`costs.before_search_s`), and two assessments with validation (the round's own and the evaluation here).
@@ -287,10 +304,13 @@ def _iterated(prep, req, settings, progress, detail, deadline):
     full = build_instance(prep, req)
     inst = without_inter_system_terms(full) if req.coordination == "independent" else full
     seq_work = sequence_work(prep, full.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s)
+    closing_s = costs.after_search_s(full, detail, seq_work)
+    overhead = round_overhead_s(inst)
     # independent coordination decouples the systems: the weights change nothing, one round suffices
-    shares = (1.0,) if req.coordination == "independent" else ROUND_SHARES
-    after_s = costs.after_search_s(full, detail, seq_work) + (len(shares) - 1) * round_overhead_s(inst)
-    budget = search_budget(deadline, inst, after_s)
+    rounds_wanted = 1 if req.coordination == "independent" else \
+        round_count(deadline.limit_s - closing_s - costs.before_search_s(inst), overhead)
+    shares = ROUND_SHARES[rounds_wanted]
+    budget = search_budget(deadline, inst, closing_s + (rounds_wanted - 1) * overhead)
     round_req = dataclasses.replace(req, objective="weighted_sum", baselines=())
     priority = np.array([s.priority_weight for s in prep.site.systems], dtype=float)
     weights = priority
