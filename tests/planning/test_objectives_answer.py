@@ -10,7 +10,7 @@ import pytest
 
 from cohop.planning.requirements import OBJECTIVES
 from tests import recompute
-from tests.plan_api.conftest import (assert_problem, assert_repeats, by_id, plan_ok, post_plan, requirement,
+from tests.plan_api.conftest import (INFEASIBLE, assert_problem, assert_repeats, by_id, plan_ok, post_plan, requirement,
                                      schema_validator, small_request, small_site)
 
 REL = 1e-9
@@ -129,6 +129,14 @@ def test_without_ceilings_worst_margin_is_null(client):
     answer = plan_ok(client, small_request())
     assert answer["objectives"]["worst_margin"] is None and answer["objectives"]["worst_margin_system_id"] is None
     assert answer["objectives"]["residual_loss"] > 0
+
+
+@pytest.mark.parametrize("objective", ("residual_loss", "worst_margin"))
+def test_an_impossible_request_is_a_proven_conflict_under_the_iterated_objectives(client, objective):
+    body = fragile_request(objective)
+    requirement(body, "a")["excluded_channels"] = list(range(25))  # 5 channels left for a count of 10
+    problem = assert_problem(post_plan(client, body), 422, INFEASIBLE)
+    assert problem["proven"] is True and any("a" in c["systems"] for c in problem["conflicts"])
 
 
 def test_worst_margin_needs_a_ceiling(client):

@@ -51,6 +51,7 @@ import numpy as np
 
 from cohop.assess import Assessment, assess_site
 from cohop.deadline import Deadline
+from cohop.errors import PlanInfeasible
 from cohop.planning import baselines as baseline_builders, costs
 from cohop.planning.engine import (FEASIBLE, NO_PLAN, BaselineResult, PlanResult, SolveSettings, plan_site,
                                    search_budget)
@@ -320,8 +321,14 @@ def _iterated(prep, req, settings, progress, detail, deadline):
             break
         # each round its own seed (derived from the request's), so that a round whose weights repeat an
         # earlier round's still searches afresh
-        result = plan_site(with_weights(prep, weights), dataclasses.replace(round_req, seed=req.seed + r), settings,
-                           _round_progress(progress, r), detail="system", with_sequences=False, budget=part)
+        try:
+            result = plan_site(with_weights(prep, weights), dataclasses.replace(round_req, seed=req.seed + r),
+                               settings, _round_progress(progress, r), detail="system", with_sequences=False,
+                               budget=part)
+        except PlanInfeasible:
+            if best is None:
+                raise  # the first round's answer: no plan exists, or none was found (the diagnosis says which)
+            break  # a later round found no plan in its share: keep the best so far
         deadline.count("objective_rounds", 1)
         evaluated = assess_site(prep, hop_sets=result.hop_sets, detail="system", origin="plan")
         value = objective_values(evaluated, req).of(req.objective)
