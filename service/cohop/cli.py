@@ -281,7 +281,9 @@ def build_parser() -> argparse.ArgumentParser:
     p = _site_command(sub, "plan", "assign hop sets to every system, with a proven bound and baselines",
                       "site or plan request JSON", "water_works_us915")
     p.add_argument("--seed", type=int, help="search seed (same request and seed, same plan)")
-    p.add_argument("--objective", choices=("weighted_sum", "worst_system"))
+    p.add_argument("--objective", choices=("weighted_sum", "worst_system", "residual_loss", "worst_margin"),
+                   help="what the plan minimises: weighted per-hop collision, the worst system's, weighted residual "
+                        "loss after retries, or the largest share of a loss ceiling")
     p.add_argument("--coordination", choices=("joint", "independent"))
     p.add_argument("--compare", action="store_true", help="also evaluate every practitioner's baseline")
     p.add_argument("--detail", choices=("system", "channel", "source"))

@@ -14,8 +14,9 @@ from cohop.jobs.answers import (AssessmentAnswer, CoordinationComparison, Planne
 from cohop.jobs.requests import PlanRequest
 from cohop.jobs.sequence_answers import SequencesAnswer, sequences_answer
 from cohop.deadline import Deadline
-from cohop.planning.engine import NO_PLAN, BaselineResult, PlanResult, SolveSettings, evaluated_objective, plan_site
 from cohop.planning.independent import IndependentPlanResult
+from cohop.planning.engine import NO_PLAN, BaselineResult, PlanResult, SolveSettings, evaluated_objective
+from cohop.planning.objectives import ObjectiveValues, objective_values, plan_for_objective
 from cohop.planning.requirements import Progress
 from cohop.planning.validate import Violation
 
@@ -49,6 +50,7 @@ class PlanAnswer:
     assessment: AssessmentAnswer
     baselines: tuple[BaselineAnswer, ...]
     comparison: Comparison
+    objectives: ObjectiveValues  # every objective's value for the plan, on its evaluated figures
     headroom: tuple[SystemHeadroom, ...] = ()  # per system: channels it can lose before its regulatory minimum
     independent: CoordinationComparison | None = None  # independent coordination: the joint plan beside it
 
@@ -78,7 +80,8 @@ def plan_answer(result: PlanResult) -> PlanAnswer:
                       plan=planned_systems(prep, result.hop_sets), sequences=sequences, assessment=assessment,
                       baselines=tuple(baseline_answer(b) for b in result.baselines),
                       comparison=compare(result.report.evaluated_objective, result.baselines),
-                      headroom=headroom_answer(result.instance.headroom, result.hop_sets), independent=independent)
+                      headroom=headroom_answer(result.instance.headroom, result.hop_sets), independent=independent,
+                      objectives=objective_values(result.assessment, result.instance.req))
 
 
 def coordination_comparison(result: PlanResult) -> CoordinationComparison | None:
@@ -100,7 +103,8 @@ def coordination_comparison(result: PlanResult) -> CoordinationComparison | None
 
 def run_plan(req: PlanRequest, settings: SolveSettings, progress: Callable[[Progress], None] | None = None,
              deadline: Deadline | None = None) -> PlanAnswer:
-    result = plan_site(prepared(req.site), req.requirements, settings, progress, req.detail, deadline=deadline)
+    result = plan_for_objective(prepared(req.site), req.requirements, settings, progress, req.detail,
+                                deadline=deadline)
     if result.report.status == NO_PLAN:
         raise PlanInfeasible([Conflict(v.requirement, v.systems, v.detail, relax="raise the time limit or relax "
                                        "this requirement") for v in result.violations], proven=False)

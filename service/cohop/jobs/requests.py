@@ -24,7 +24,7 @@ from typing import Mapping
 from cohop.errors import SiteError
 from cohop.limits import MAX_SIMULATED_HOPS
 from cohop.planning.replan import CurrentSystem, ReplanMode
-from cohop.planning.requirements import BASELINES, PlanRequirements, SystemRequirement
+from cohop.planning.requirements import BASELINES, LINEAR_OBJECTIVES, PlanRequirements, SystemRequirement
 from cohop.site import Site
 from cohop.site_rules import Problem, load_site, raise_site_error, under
 
@@ -193,13 +193,25 @@ def _simulated_hops(site: Site, sequence_packets: int) -> list[Problem]:
     return []
 
 
+def _objective_needs(req: PlanRequirements) -> list[Problem]:
+    """worst_margin is measured against the ceilings: at least one system must set one."""
+    if req.objective == "worst_margin" and not any(r.max_residual_loss is not None or r.max_attempt_loss is not None
+                                                   for r in req.systems):
+        return [(("requirements", "objective"), "worst_margin needs a ceiling (max_residual_loss or "
+                 "max_attempt_loss) on at least one system.")]
+    return []
+
+
 def plan_request_problems(req: PlanRequest | ReplanRequest) -> list[Problem]:
     return (_simulated_hops(req.site, req.requirements.sequence_packets)
-            + _requirement_references(req.site, req.requirements))
+            + _requirement_references(req.site, req.requirements) + _objective_needs(req.requirements))
 
 
 def replan_request_problems(req: ReplanRequest) -> list[Problem]:
     out, seen = plan_request_problems(req), set()
+    if req.requirements.objective not in LINEAR_OBJECTIVES:  # the re-plan's moves and target are linear
+        out.append((("requirements", "objective"), f"Re-planning minimises per-hop collision: one of "
+                    f"{', '.join(LINEAR_OBJECTIVES)} ({req.requirements.objective} is for plans only)."))
     for i, c in enumerate(req.current):
         if c.id in seen:
             out.append((("current", "systems", i, "id"), f"Duplicate id {c.id!r}."))

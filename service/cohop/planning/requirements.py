@@ -10,7 +10,13 @@ from cohop.sequences.report import DEFAULT_PACKETS
 #: planner excludes that channel for that system.
 DEFAULT_INTERFERER_THRESHOLD = 0.05
 
-OBJECTIVES = ("weighted_sum", "worst_system")
+#: weighted_sum and worst_system: the linearised per-hop collision (priority-weighted sum, worst system), which
+#: the linear planner minimises and bounds; residual_loss: the priority-weighted residual loss after retries
+#: on the evaluated figures, and worst_margin: the largest share of a system's loss ceiling (max_residual_loss,
+#: max_attempt_loss) its evaluated loss takes, both reached by sensitivity-weighted rounds of it
+#: (`cohop.planning.objectives`).
+LINEAR_OBJECTIVES = ("weighted_sum", "worst_system")  # also what re-planning accepts (its moves are linear)
+OBJECTIVES = LINEAR_OBJECTIVES + ("residual_loss", "worst_margin")
 COORDINATION = ("joint", "independent")
 BASELINES = ("whole_band", "random", "contiguous", "interleaved", "greedy")
 #: What an independently planned system avoids (`cohop.planning.independent`): the fixed interferers and the

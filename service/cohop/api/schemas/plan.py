@@ -54,7 +54,6 @@ class RequirementsSchema(StrictSchema):
     coordination = Text(load_default=default(PlanRequirements, "coordination"), validate=validate.OneOf(COORDINATION),
                         metadata={"description": "joint: systems planned together; independent: each only "
                                                  "avoids measured occupancy and its own exclusions."})
-    objective = Text(load_default=default(PlanRequirements, "objective"), validate=validate.OneOf(OBJECTIVES))
     commissioning_order = List(Text(validate=IDENTIFIER), load_default=list, max_length=limits.MAX_SYSTEMS,
                                metadata={"description": "independent coordination: the order systems go on air "
                                                         "(each adapts to those before it); systems not named "
@@ -64,6 +63,14 @@ class RequirementsSchema(StrictSchema):
                              metadata={"description": "independent coordination: occupancy (avoid the interferers "
                                                       "and the occupancy of systems already on air above "
                                                       "interferer_threshold) or interferers (those alone)."})
+    objective = Text(load_default=default(PlanRequirements, "objective"), validate=validate.OneOf(OBJECTIVES),
+                     metadata={"description": "weighted_sum: priority-weighted per-hop collision; worst_system: the "
+                                              "worst system's per-hop collision (both minimised and bounded by the "
+                                              "linear planner); residual_loss: priority-weighted residual loss "
+                                              "after retries, reached by sensitivity-weighted rounds of the linear "
+                                              "planner; worst_margin: the largest share of a system's loss "
+                                              "ceiling its evaluated loss takes (needs a ceiling), reached the "
+                                              "same way (no bound proven for either)."})
 
     @validates_schema
     def _rules(self, data, **kwargs):
@@ -131,7 +138,8 @@ class SolverReportSchema(StrictSchema):  # cohop.planning.engine.SolverReport
                                                                     "(a busy machine): the same request and seed "
                                                                     "may then give another plan"})
     work = fields.Dict(keys=fields.String(), values=fields.Float(), metadata={
-        "description": "Work done: kicks (local search), cp_sat_deterministic_time, pricing_operations (bound)"})
+        "description": "Work done: kicks (local search), cp_sat_deterministic_time, pricing_operations (bound), "
+                       "objective_rounds (rounds of the linear planner: residual_loss, worst_margin)"})
     binding = fields.List(fields.String(), metadata={"description": "Requirements the plan presses against"})
     notes = fields.List(fields.String())
 
@@ -217,6 +225,15 @@ class CoordinationComparisonSchema(StrictSchema):  # cohop.jobs.answers.Coordina
                                                                             "joint_objective"})
     systems = fields.List(fields.Nested(SideBySideSchema))
     joint_note = fields.String(allow_none=True)
+class ObjectivesSchema(StrictSchema):  # cohop.planning.objectives.ObjectiveValues
+    weighted_sum = fields.Float(metadata={"description": "sum of priority_weight x per-hop collision"})
+    worst_system = fields.Float(metadata={"description": "the largest per-hop collision"})
+    worst_system_id = fields.String(metadata={"description": "the system with that collision"})
+    residual_loss = fields.Float(metadata={"description": "sum of priority_weight x residual loss after retries"})
+    worst_margin = fields.Float(allow_none=True, metadata={
+        "description": "the largest share of a ceiling (max_residual_loss, max_attempt_loss) a system's evaluated "
+                       "loss takes (below 1: every ceiling met, by a margin of 1 minus this); null without ceilings"})
+    worst_margin_system_id = fields.String(allow_none=True, metadata={"description": "the system with that share"})
 
 
 class PlanResponseSchema(StrictSchema):  # cohop.jobs.plan.PlanAnswer
@@ -234,6 +251,9 @@ class PlanResponseSchema(StrictSchema):  # cohop.jobs.plan.PlanAnswer
     assessment = fields.Nested(AssessmentResponseSchema)
     baselines = fields.List(fields.Nested(BaselineSchema))
     comparison = fields.Nested(ComparisonSchema)
+    objectives = fields.Nested(ObjectivesSchema, metadata={
+        "description": "Every objective's value for this plan, from the assessment's per-system figures "
+                       "(solver.objective_kind says which one was minimised)"})
 
 
 class ConflictSchema(StrictSchema):
