@@ -15,7 +15,7 @@ from marshmallow import fields, post_load, pre_load, validate, validates_schema
 from cohop import limits, site_rules
 from cohop.api.schemas.fields import IDENTIFIER, Count, Flag, List, Number, Text, default
 from cohop.regulatory import PROFILES
-from cohop.site import Interferer, Position, Propagation, Site, Survey, System
+from cohop.site import Grid, Interferer, Position, Propagation, Site, Survey, System
 from cohop.site_form import site_from
 
 FADING_MODELS = ("rayleigh", "rician", "none")
@@ -83,6 +83,11 @@ class GridSchema(StrictSchema):
                              metadata={"description": "Centre of channel 0."})
     spacing_hz = Number(limits.CHANNEL_SPACING_HZ, required=True)
     count = Count(required=True, validate=validate.Range(min=1, max=limits.MAX_CHANNELS))
+    first_channel_number = Count(limits.CHANNEL_NUMBER, load_default=default(Grid, "first_channel_number"),
+                                 metadata={"description": "Your own number of channel 0 (hop tables only)."})
+    channel_number_step = Count(limits.CHANNEL_NUMBER_STEP, load_default=default(Grid, "channel_number_step"),
+                                metadata={"description": "Your own number goes up by this per grid channel "
+                                                         "(hop tables only)."})
 
 
 class RejectionPointSchema(StrictSchema):
