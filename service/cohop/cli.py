@@ -17,6 +17,7 @@ import sys
 import threading
 import time
 from pathlib import Path
+from types import SimpleNamespace
 
 from cohop import __version__
 
@@ -382,17 +383,25 @@ def _cmd_compare(args) -> int:
 
 # --- profiles, samples, chart, serve -----------------------------------------------------------------------
 
+def _profile_view(body: dict) -> SimpleNamespace:
+    """What cohop_client.Profile.from_json gives, without importing the client (and requests)."""
+    band = body["band"]
+    return SimpleNamespace(id=body["id"], name=body["name"], region=body["region"],
+                           band_hz=None if band is None else (band["low_hz"], band["high_hz"]),
+                           coordination_caution=body["coordination_caution"],
+                           rules=tuple(SimpleNamespace(**r) for r in body["rules"]))
+
+
 def _cmd_profiles(args) -> int:
     from cohop.cli_text import profiles_table
-    from cohop_client import Profile
 
     if args.server:
         with _client(args) as api:
             profiles = api.profiles()
-    else:  # static data: no app, no solver stack
+    else:  # static data: no app, no solver stack, no HTTP client
         from cohop.workflow import profiles_json
 
-        profiles = [Profile.from_json(p) for p in profiles_json()]
+        profiles = [_profile_view(p) for p in profiles_json()]
     print(json.dumps([p.__dict__ for p in profiles], default=lambda o: o.__dict__, indent=2) if args.json
           else profiles_table(profiles))
     return EXIT_OK
@@ -596,22 +605,28 @@ def _report(failure: CliFailure, as_json: bool) -> int:
     return failure.code
 
 
+def _client_error(err: Exception) -> bool:
+    """True for the client's errors (without importing the client when no command did)."""
+    client = sys.modules.get("cohop_client")
+    return client is not None and isinstance(err, client.CohopError)
+
+
 def main(argv: list[str] | None = None) -> int:
     args = build_parser().parse_args(argv)
     as_json = bool(getattr(args, "json", False))
-    try:
-        from cohop_client import CohopError
-    except ImportError as err:  # the client's one dependency
-        return _report(fail(EXIT_EXTRA, f"cohop: the client needs {err.name}: pip install requests",
-                            "missing-extra"), as_json)
     try:
         return args.func(args)
     except CliFailure as failure:
         return _report(failure, as_json)
     except ImportError as err:
+        if (err.name or "").split(".")[0] == "requests":
+            return _report(fail(EXIT_EXTRA, "cohop: the client needs requests: pip install requests",
+                                "missing-extra"), as_json)
         return _report(_service_missing(err), as_json)
-    except CohopError as err:
-        return _report(_failure_from(err), as_json)
+    except Exception as err:
+        if _client_error(err):
+            return _report(_failure_from(err), as_json)
+        raise
 
 
 if __name__ == "__main__":

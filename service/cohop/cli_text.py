@@ -5,8 +5,10 @@ from __future__ import annotations
 import math
 import textwrap
 import time
+from typing import TYPE_CHECKING
 
-from cohop_client import Assessment, Plan, Replan
+if TYPE_CHECKING:  # the client's types, for annotations only (profiles and samples start without requests)
+    from cohop_client import Assessment, Plan, Replan
 
 
 SMALLEST_PCT = 1e-6  # below this a percentage reads "<0.000001%" (never scientific notation)

@@ -6,9 +6,6 @@ client's plan helpers (`cohop_client.plans`, standard library only), so nothing 
 
 from __future__ import annotations
 
-from cohop_client.plans import PlanShapeError, planned_systems
-from cohop_client.plans import apply_plan as _apply_plan
-
 
 class WorkflowError(ValueError):
     """A document of the wrong shape for the step asked."""
@@ -16,6 +13,9 @@ class WorkflowError(ValueError):
 
 def apply_plan(site: dict, plan: dict) -> dict:
     """A copy of the site whose systems carry the plan's hop sets and hop orders (cohop_client.apply_plan)."""
+    from cohop_client.plans import PlanShapeError
+    from cohop_client.plans import apply_plan as _apply_plan
+
     try:
         return _apply_plan(site, plan)
     except PlanShapeError as err:
@@ -33,6 +33,8 @@ def current_plan(document) -> dict:
         raise WorkflowError("holds neither a current plan, a saved plan answer, nor a site with hop sets")
     if isinstance(document.get("current"), dict):
         document = document["current"]
+    from cohop_client.plans import PlanShapeError, planned_systems
+
     try:
         return {"systems": planned_systems(document)}
     except PlanShapeError as err:
