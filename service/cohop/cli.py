@@ -374,6 +374,9 @@ def _cmd_compare(args) -> int:
                 raise fail(EXIT_USAGE, f"cohop: {path} must hold a JSON object")
             body = _with_current_plan(body if "site" in body else {"site": body})
             rows.append((path, api.assess(body["site"])))
+    names = [Path(p).name for p, _ in rows]
+    if len(set(names)) == len(names):  # short column heads unless two files share a name
+        rows = [(name, result) for name, (_, result) in zip(names, rows)]
     if args.json:
         print(json.dumps([{"scenario": p, "answer": r.raw} for p, r in rows], indent=2))
     else:
