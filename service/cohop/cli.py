@@ -443,8 +443,9 @@ def _cmd_serve(args) -> int:
 
 # --- the parser --------------------------------------------------------------------------------------------
 
-DETAIL_HELP = ("per-system figures only ('system'), plus each source's share ('source'), or plus every channel's "
-               "hit probability and dominant source ('channel'); the table shows what is asked")
+DETAIL_HELP = ("per-system figures only ('system', the default), plus each source's share and every channel's hit "
+               "probability and dominant source ('channel'), or plus each channel's breakdown by source ('source'); "
+               "the table shows what is asked")
 OBJECTIVE_HELP = ("what the planner minimises: 'weighted_sum' (the priority-weighted sum of per-hop collision "
                   "probabilities) or 'worst_system' (the worst system's)")
 COORDINATION_HELP = ("'joint' plans every system's hop set together; 'independent' lets each system choose from "

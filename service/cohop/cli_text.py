@@ -52,27 +52,38 @@ def _cautions(cautions) -> list[str]:
                                 for c in cautions]
 
 
+def _channel_row(c: dict) -> str:
+    row = f"  {c['channel']:5d} {c['centre_hz'] / 1e6:12.6f} {_pct(c['collision_probability']):>12s}  "
+    if c.get("by_source"):
+        shares = sorted(c["by_source"].items(), key=lambda kv: -kv[1])
+        return row + ", ".join(f"{sid} {_pct(p)}" for sid, p in shares)
+    return row + (c.get("dominant_source") or "-")
+
+
 def _detail_lines(result: Assessment, detail: str | None) -> list[str]:
-    """The per-source shares ('source', 'channel') and every channel's figures ('channel') of each system."""
-    if detail not in ("source", "channel"):
+    """Each system's sources and every channel's figures ('channel'), with each channel's breakdown by
+    source ('source'); 'system' (the service's default) shows the systems table alone."""
+    if detail not in ("channel", "source"):
         return []
     out = []
     for s in result.systems:
         sources = sorted(s.raw.get("sources") or [], key=lambda x: -x["collision_probability"])
         out += ["", f"{s.id}: hit/hop by source"]
-        out += [f"  {x['id']:24s} {x['kind']:10s} {_pct(x['collision_probability']):>12s}  window "
-                f"{x['window_channels']} ch" for x in sources] or ["  (no source reaches it)"]
+        out += [f"  {x['id']:24s} {x['kind']:10s} {_pct(x['collision_probability']):>12s}"
+                + ("" if x.get("window_channels") is None else f"  window {x['window_channels']} ch")
+                for x in sources] or ["  (no source reaches it)"]
         channels = s.raw.get("channels") or []
-        if detail == "channel" and channels:
-            out.append(f"{s.id}: per channel (channel, centre MHz, hit/hop, dominant source)")
-            out += [f"  {c['channel']:5d} {c['centre_hz'] / 1e6:12.6f} {_pct(c['collision_probability']):>12s}  "
-                    f"{c.get('dominant_source') or '-'}" for c in channels]
+        if channels:
+            what = "its sources" if detail == "source" else "dominant source"
+            out.append(f"{s.id}: per channel (channel, centre MHz, hit/hop, {what})")
+            out += [_channel_row(c) for c in channels]
     return out
 
 
 def assessment_table(result: Assessment, detail: str | None = None) -> str:
     out = [f"profile {result.profile_id}; priority-weighted hit/hop sum {result.weighted_collision_probability:.4f}; "
            f"worst system {result.worst_system}", ""] + _systems_table(result)
+    out += _detail_lines(result, detail)
     flagged = [(s.id, f) for s in result.systems for f in s.findings if f.status in ("fail", "warning")]
     if flagged:
         out += ["", "compliance failures and warnings (each with its reason):"]
