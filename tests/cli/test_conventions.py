@@ -149,3 +149,18 @@ def test_percentages_never_in_scientific_notation():
 
 def test_simulated_zero_shows_its_interval():
     assert cli_text._pct_interval(0.0, [0.0, 0.000768]) == "0% [0%, 0.077%]"
+
+
+def test_every_solving_command_takes_a_seed():
+    parser = cli.build_parser()
+    for command in ("plan", "replan"):
+        assert parser.parse_args([command, "--seed", "3"]).seed == 3
+
+
+def test_elapsed_time_progress_line():
+    stream = io.StringIO()  # not a terminal: one line per tick
+    line = cli_text.ProgressLine(stream)
+    line.tick("re-planning", 2.04, 10.0)
+    line.tick("re-planning", 3.0, None)
+    line.finish()
+    assert stream.getvalue().splitlines() == ["   2.0 s of at most 10 s  (re-planning)", "   3.0 s  (re-planning)"]
