@@ -15,7 +15,6 @@ from typing import Iterable
 
 FORMAT = "cohop-hop-tables/1"
 CSV_COLUMNS = ("system", "table", "position", "grid_index", "channel_number", "centre_mhz")
-SAFE_NAME = re.compile(r"[^A-Za-z0-9._-]")
 
 
 class ExportError(ValueError):
