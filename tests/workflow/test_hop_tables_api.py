@@ -59,3 +59,11 @@ def test_unknown_format_is_refused(client):
     resp = client.post("/v1/hop-tables?format=xml", json={"site": SITE, "answer": ANSWER})
     assert resp.status_code == 422
     assert resp.get_json()["errors"][0]["pointer"] == "/query/format"
+
+
+def test_client_method_gives_the_same_document():
+    from cohop.embedded import EMBEDDED_URL, embedded_session
+    from cohop_client import Client
+
+    with Client(EMBEDDED_URL, session=embedded_session(create_app({"TESTING": True}))) as api:
+        assert api.hop_tables(SITE, ANSWER) == json.loads(json.dumps(hop_tables(SITE, ANSWER)))
