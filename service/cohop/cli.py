@@ -560,8 +560,17 @@ def _add_other_commands(sub) -> None:
     p.set_defaults(func=_cmd_serve, json=False)
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse, whose usage errors become CliFailure (exit 2; problem details with --json)."""
+
+    def error(self, message: str):
+        self.print_usage(sys.stderr)
+        where = self.prog.removeprefix("cohop").strip()
+        raise CliFailure(EXIT_USAGE, f"cohop: {where + ': ' if where else ''}{message}", "usage")
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(prog="cohop", description="Channel planning for co-located FHSS networks. "
+    parser = _Parser(prog="cohop", description="Channel planning for co-located FHSS networks. "
                                      "Every figure is a planning estimate: confirm with a site survey.",
                                      epilog=f"exit codes: {EXIT_OK} ok, {EXIT_REJECTED} request rejected, "
                                      f"{EXIT_USAGE} usage, {EXIT_INFEASIBLE} no feasible plan, {EXIT_COMPLIANCE} "
@@ -616,7 +625,11 @@ def _client_error(err: Exception) -> bool:
 
 
 def main(argv: list[str] | None = None) -> int:
-    args = build_parser().parse_args(argv)
+    argv = sys.argv[1:] if argv is None else list(argv)
+    try:
+        args = build_parser().parse_args(argv)
+    except CliFailure as failure:
+        return _report(failure, "--json" in argv)
     as_json = bool(getattr(args, "json", False))
     try:
         return args.func(args)

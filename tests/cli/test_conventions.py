@@ -55,9 +55,13 @@ def test_version(capsys):
 
 
 def test_usage_error_exits_2(capsys):
-    code, _, err = run_cli(capsys, "plan", "--objective", "cheapest")
+    code, out, err = run_cli(capsys, "plan", "--objective", "cheapest")
     assert code == cli.EXIT_USAGE
-    assert "invalid choice" in err
+    assert "invalid choice" in err and "usage:" in err and out == ""
+    code, out, _ = run_cli(capsys, "plan", "--objective", "cheapest", "--json")
+    assert code == cli.EXIT_USAGE
+    problem = json.loads(out)
+    assert problem["type"] == cli.PROBLEM_BASE + "usage" and "invalid choice" in problem["detail"]
 
 
 def test_rejected_request_with_json_gives_problem_details_on_stdout(capsys, monkeypatch):
