@@ -194,11 +194,19 @@ def _export(args, body: dict, raw: dict) -> None:
 
     try:
         paths = write_hop_tables(args.export, body["site"], raw, per=args.export_per)
+    except (KeyError, TypeError, AttributeError) as err:
+        raise _misshapen("the site or the answer", err)
     except ExportError as err:
         raise fail(EXIT_USAGE, f"cohop: {err}")
     except OSError as err:
         raise fail(EXIT_USAGE, f"cohop: could not write hop tables to {args.export}: {err.strerror}")
     print(f"hop tables written to {args.export} ({len(paths)} files)", file=sys.stderr)
+
+
+def _misshapen(what: str, err: Exception) -> CliFailure:
+    """A document that parsed as JSON but lacks what the step reads (a hand-edited file, say)."""
+    return fail(EXIT_USAGE, f"cohop: {what} does not have the expected shape ({type(err).__name__}: {err}); "
+                "give a site, a request, or an answer saved with --save")
 
 
 # --- assess ------------------------------------------------------------------------------------------------
@@ -344,6 +352,8 @@ def _cmd_apply(args) -> int:
         site = apply_plan(body["site"] if "site" in body else body, answer)
     except WorkflowError as err:
         raise fail(EXIT_USAGE, f"cohop: {err}")
+    except (KeyError, TypeError, AttributeError) as err:
+        raise _misshapen(args.plan, err)
     out = {**body, "site": site} if "site" in body else site
     write_text(args.out, _dumps(out))
     if args.out != STDIO:
@@ -359,6 +369,8 @@ def _cmd_diff(args) -> int:
         diff = diff_documents(read_json(args.a, "first file"), read_json(args.b, "second file"))
     except WorkflowError as err:
         raise fail(EXIT_USAGE, f"cohop: {err}")
+    except (KeyError, TypeError, AttributeError) as err:
+        raise _misshapen(f"{args.a} or {args.b}", err)
     print(json.dumps(diff, indent=2) if args.json else diff_table(diff, args.a, args.b))
     return EXIT_OK
 

@@ -168,3 +168,15 @@ def test_elapsed_time_progress_line():
     line.tick("re-planning", 3.0, None)
     line.finish()
     assert stream.getvalue().splitlines() == ["   2.0 s of at most 10 s  (re-planning)", "   3.0 s  (re-planning)"]
+
+
+def test_misshapen_documents_are_usage_errors(capsys, tmp_path):
+    site = tmp_path / "site.json"
+    site.write_text(json.dumps(WATER), encoding="utf-8")
+    broken = tmp_path / "broken.json"
+    broken.write_text(json.dumps({"plan": [{"hop_set": [1]}]}), encoding="utf-8")  # no id
+    for argv in (["apply", str(site), str(broken), "-o", str(tmp_path / "out.json")],
+                 ["diff", str(site), str(broken)]):
+        code, out, err = run_cli(capsys, *argv)
+        assert code == cli.EXIT_USAGE, argv
+        assert "expected shape" in err and "Traceback" not in err
