@@ -69,7 +69,6 @@ def test_plan_table_wording(capsys):
     code, out, err = run_cli(capsys, "plan", "--time-limit", "1")
     assert code == 0
     assert "to assess your own" not in err and "to plan your own" in err
-    raw = None
     code, out, _ = run_cli(capsys, "plan", "--time-limit", "1", "--json")
     raw = json.loads(out)
     raw["solver"]["notes"] = []
