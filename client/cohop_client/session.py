@@ -104,6 +104,11 @@ class Client:
                 body[key] = value
         return self._typed(Replan.from_json, self._call("POST", "/v1/replans", body))
 
+    def hop_tables(self, site: dict, plan: Any) -> dict:
+        """The hop tables (README, "Hop tables") of a plan or re-plan (typed, or its JSON answer) on `site`."""
+        answer = getattr(plan, "raw", plan)
+        return self._call("POST", "/v1/hop-tables", {"site": site, "answer": answer})
+
     # --- transport ---------------------------------------------------------
 
     def _typed(self, build: Callable[[Any], T], body: Any) -> T:

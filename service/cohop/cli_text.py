@@ -2,19 +2,35 @@
 
 from __future__ import annotations
 
+import math
 import textwrap
-
 import time
+from typing import TYPE_CHECKING
 
-from cohop_client import Assessment, Plan, Replan
+if TYPE_CHECKING:  # the client's types, for annotations only (profiles and samples start without requests)
+    from cohop_client import Assessment, Plan, Replan
+
+
+SMALLEST_PCT = 1e-6  # below this a percentage reads "<0.000001%" (never scientific notation)
 
 
 def _pct(p: float) -> str:
-    if p == 0:
-        return "0"
-    if p < 1e-4:
-        return f"{100 * p:.1e}%"
-    return f"{100 * p:.2f}%"
+    """A probability as a percentage in plain decimals: two significant digits below 1 %, two decimals above."""
+    pct = 100 * p
+    if pct == 0:
+        return "0%"
+    if pct < SMALLEST_PCT:
+        return f"<{SMALLEST_PCT:.6f}%"
+    decimals = 2 if pct >= 1 else min(7, 1 - math.floor(math.log10(pct)))
+    return f"{pct:.{decimals}f}%"
+
+
+def _pct_interval(p: float, interval) -> str:
+    """A simulated probability always with its 95 % interval (a 0 from few packets says little alone)."""
+    if not interval:
+        return _pct(p)
+    lo, hi = interval
+    return f"{_pct(p)} [{_pct(lo)}, {_pct(hi)}]"
 
 
 def _systems_table(result: Assessment) -> list[str]:
@@ -36,9 +52,38 @@ def _cautions(cautions) -> list[str]:
                                 for c in cautions]
 
 
-def assessment_table(result: Assessment) -> str:
+def _channel_row(c: dict) -> str:
+    row = f"  {c['channel']:5d} {c['centre_hz'] / 1e6:12.6f} {_pct(c['collision_probability']):>12s}  "
+    if c.get("by_source"):
+        shares = sorted(c["by_source"].items(), key=lambda kv: -kv[1])
+        return row + ", ".join(f"{sid} {_pct(p)}" for sid, p in shares)
+    return row + (c.get("dominant_source") or "-")
+
+
+def _detail_lines(result: Assessment, detail: str | None) -> list[str]:
+    """Each system's sources and every channel's figures ('channel'), with each channel's breakdown by
+    source ('source'); 'system' (the service's default) shows the systems table alone."""
+    if detail not in ("channel", "source"):
+        return []
+    out = []
+    for s in result.systems:
+        sources = sorted(s.raw.get("sources") or [], key=lambda x: -x["collision_probability"])
+        out += ["", f"{s.id}: hit/hop by source"]
+        out += [f"  {x['id']:24s} {x['kind']:10s} {_pct(x['collision_probability']):>12s}"
+                + ("" if x.get("window_channels") is None else f"  window {x['window_channels']} ch")
+                for x in sources] or ["  (no source reaches it)"]
+        channels = s.raw.get("channels") or []
+        if channels:
+            what = "its sources" if detail == "source" else "dominant source"
+            out.append(f"{s.id}: per channel (channel, centre MHz, hit/hop, {what})")
+            out += [_channel_row(c) for c in channels]
+    return out
+
+
+def assessment_table(result: Assessment, detail: str | None = None) -> str:
     out = [f"profile {result.profile_id}; priority-weighted hit/hop sum {result.weighted_collision_probability:.4f}; "
            f"worst system {result.worst_system}", ""] + _systems_table(result)
+    out += _detail_lines(result, detail)
     flagged = [(s.id, f) for s in result.systems for f in s.findings if f.status in ("fail", "warning")]
     if flagged:
         out += ["", "compliance failures and warnings (each with its reason):"]
@@ -48,12 +93,13 @@ def assessment_table(result: Assessment) -> str:
     return "\n".join(out + _cautions(result.cautions))
 
 
-def plan_table(result: Plan) -> str:
+def plan_table(result: Plan, detail: str | None = None) -> str:
     r = result.solver
     gap = "n/a" if r.gap is None else f"{100 * r.gap:.1f}%"
     out = [f"plan: {r.status}; objective {r.objective:.5f} (evaluated {r.evaluated_objective:.5f}), proven bound "
            f"{r.bound:.5f}, gap {gap}, {r.time_s:.1f} s", f"method: {r.method}", ""]
     out += _systems_table(result.assessment)
+    out += _detail_lines(result.assessment, detail)
     out += ["", "hop sets:"]
     out += [textwrap.fill(f"{p.id}: {_ranges(p.hop_set)}", 100, initial_indent="  ", subsequent_indent="      ")
             for p in result.systems]
@@ -68,8 +114,13 @@ def plan_table(result: Plan) -> str:
             out.append(f"  plan / best baseline: {result.ratio_to_best_baseline:.3f}")
     if r.binding:
         out += ["", "binding requirements: " + "; ".join(r.binding)]
-    out += ["", "notes:"] + [f"  - {n}" for n in r.notes]
+    if r.notes:
+        out += ["", "notes:"] + [f"  - {n}" for n in r.notes]
     return "\n".join(out + _cautions(result.cautions))
+
+
+def _simulated(r: dict) -> str:
+    return _pct_interval(r["residual_loss_probability"], r.get("residual_interval"))
 
 
 def _sequence_lines(seqs: dict | None) -> list[str]:
@@ -77,16 +128,15 @@ def _sequence_lines(seqs: dict | None) -> list[str]:
         return []
     out = ["", f"hop sequences (delay spread {seqs['delay_spread_s'] * 1e9:.0f} ns; residual loss after retries: "
                "simulated with these orders / independent attempts / same channels in ascending order / "
-               "every system in one common pattern):"]
+               "every system in one common pattern; simulated figures with their 95% intervals):"]
     for s in seqs["systems"]:
         r = s["retries"]
         sp = s["spacing"]
         out.append(f"  {s['id']}: {s['construction']}, {s['period_hops']} hops = {s['period_s']:.2f} s; closest step "
                    f"{sp['min_channels']} ch (want {sp['required_channels']}), fading corr <= "
-                   f"{sp['fading_correlation_max']:.2f}; {_pct(r['residual_loss_probability'])} / "
-                   f"{_pct(r['independent_residual_probability'])} / "
-                   f"{_pct(r['ascending_order']['residual_loss_probability'])} / "
-                   f"{_pct(r['common_pattern']['residual_loss_probability'])}")
+                   f"{sp['fading_correlation_max']:.2f}; {r['packets']} packets: {_simulated(r)} / "
+                   f"{_pct(r['independent_residual_probability'])} / {_simulated(r['ascending_order'])} / "
+                   f"{_simulated(r['common_pattern'])}")
     if seqs["alignment"]["depends_on_alignment"]:
         out.append("  note: " + seqs["alignment"]["note"])
     out += [f"  note: {n}" for n in seqs["notes"]]
@@ -125,7 +175,14 @@ class ProgressLine:
         obj = "-" if p.objective is None else f"{p.objective:.5f}"
         bound = "-" if p.bound is None else f"{p.bound:.5f}"
         gap = "-" if p.gap is None else f"{100 * p.gap:.1f}%"
-        text = f"{p.elapsed_s:6.1f} s  best {obj}  bound {bound}  gap {gap}  ({p.phase})"
+        self._write(f"{p.elapsed_s:6.1f} s  best {obj}  bound {bound}  gap {gap}  ({p.phase})")
+
+    def tick(self, what: str, elapsed_s: float, limit_s: float | None) -> None:
+        """Elapsed time of a solve that reports nothing else."""
+        of = "" if limit_s is None else f" of at most {limit_s:g} s"
+        self._write(f"{elapsed_s:6.1f} s{of}  ({what})")
+
+    def _write(self, text: str) -> None:
         if self.live:
             self.stream.write("\r" + text.ljust(78))
         else:
@@ -162,11 +219,12 @@ def profiles_table(profiles) -> str:
     return "\n".join(lines)
 
 
-def replan_table(result: Replan) -> str:
+def replan_table(result: Replan, detail: str | None = None) -> str:
     proven = "proven minimal" if result.proven_minimal else f"lower bound {result.change_lower_bound}"
     out = [f"re-plan: {result.change_count} channel change(s) ({proven}); objective {result.objective:.5f} "
            f"against a fresh plan's {result.fresh_objective:.5f}", ""]
     out += _systems_table(result.assessment)
+    out += _detail_lines(result.assessment, detail)
     out += ["", "changes:"]
     for c in result.changes:
         if c.status == "kept":
@@ -183,3 +241,53 @@ def replan_table(result: Replan) -> str:
                        f"{_pct(d['after']['collision_probability'])}")
     out += [f"  note: {n}" for n in result.raw.get("notes", [])]
     return "\n".join(out + _cautions(result.cautions))
+
+
+def _cell(figures: dict | None) -> str:
+    if not figures:
+        return "-"
+    return f"{_pct(figures['collision_probability'])} ({figures['compliance']})"
+
+
+def diff_table(diff: dict, name_a: str, name_b: str) -> str:
+    """`cohop diff`: systems added and removed, channels dropped and added, figures before and after."""
+    out = [f"from {name_a} ({diff['from']}) to {name_b} ({diff['to']})"]
+    out += [f"  system added: {s}" for s in diff["systems_added"]]
+    out += [f"  system removed: {s}" for s in diff["systems_removed"]]
+    out += [f"  interferer added: {i}" for i in diff.get("interferers_added", [])]
+    out += [f"  interferer removed: {i}" for i in diff.get("interferers_removed", [])]
+    out += ["", "system: channels dropped; added; hit/hop (compliance) before -> after"]
+    for s in diff["systems"]:
+        if s["dropped"] is None:
+            change = "hop set not given on both sides"
+        elif not s["dropped"] and not s["added"]:
+            change = "same channels"
+        else:
+            change = f"drop {_ranges(s['dropped']) or '-'}; add {_ranges(s['added']) or '-'}"
+        figures = "" if s["before"] is None and s["after"] is None else \
+            f"; {_cell(s['before'])} -> {_cell(s['after'])}"
+        out.append(f"  {s['id']}: {change}{figures}")
+    return "\n".join(out)
+
+
+def compare_table(rows) -> str:
+    """`cohop compare`: one row per system, one column per scenario (hit/hop, after retries, compliance)."""
+    names = [name for name, _ in rows]
+    systems: list[str] = []
+    for _, result in rows:
+        systems += [s.id for s in result.systems if s.id not in systems]
+    table = [["system"] + names]
+    for sid in systems:
+        line = [sid]
+        for _, result in rows:
+            found = [s for s in result.systems if s.id == sid]
+            line.append("-" if not found else f"{_pct(found[0].collision_probability)} / "
+                        f"{_pct(found[0].residual_loss_probability)} {found[0].compliance_status}")
+        table.append(line)
+    table.append(["weighted sum"] + [f"{r.weighted_collision_probability:.5f}" for _, r in rows])
+    table.append(["worst system"] + [r.worst_system for _, r in rows])
+    widths = [max(len(r[i]) for r in table) for i in range(len(table[0]))]
+    lines = ["  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in table]
+    lines.insert(1, "  ".join("-" * w for w in widths))
+    head = "each cell: predicted hit/hop / loss after retries, compliance status"
+    return "\n".join([head, ""] + lines + _cautions(rows[0][1].cautions))

@@ -117,6 +117,9 @@ SEQUENCE_PACKETS = Bound(1000, 1_000_000, "", "packets simulated per system alon
 MAX_SIMULATED_HOPS = 5_000_000
 MAX_CHANGES = Bound(0, 1_000_000, "", "a re-plan's change budget")
 SEED = Bound(0, 2**31 - 1, "", "a plan's search seed")
+CHANNEL_NUMBER = Bound(0, 1_000_000, "", "the user's number of grid channel 0, for hop tables (radios number "
+                                         "channels from 0 or 1 upwards, some by centre frequency in kHz)")
+CHANNEL_NUMBER_STEP = Bound(1, 1_000_000, "", "the user's channel numbers per grid channel, for hop tables")
 SIMULATION_SEED = Bound(0, 2**63 - 1, "", "the Monte Carlo seed")
 #: Per-channel, per-source entries a "source" detail response may carry.
 MAX_SOURCE_DETAIL_ENTRIES = 500_000
@@ -195,6 +198,8 @@ FIELDS = (
     (MAX_CHANGES, "re-plan mode max_changes"),
     (CHANNEL_INDEX, "hop_set, sequence, excluded_channels, pinned_channels entries (and below grid count)"),
     (SEED, "search seed"),
+    (CHANNEL_NUMBER, "grid first_channel_number"),
+    (CHANNEL_NUMBER_STEP, "grid channel_number_step"),
     (SIMULATION_SEED, "simulation seed"),
 )
 

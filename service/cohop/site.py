@@ -23,6 +23,8 @@ class Grid:
     first_centre_hz: float
     spacing_hz: float
     count: int
+    first_channel_number: int = 0  # the user's number of channel 0 (hop tables only)
+    channel_number_step: int = 1  # the user's numbers per grid channel (hop tables only)
 
     def centre_hz(self, k: int) -> float:
         return self.first_centre_hz + k * self.spacing_hz

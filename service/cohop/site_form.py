@@ -20,8 +20,8 @@ def system_from(d: Mapping) -> System:
     d = dict(d)
     d["rejection"] = tuple(RejectionPoint(**p) for p in d["rejection"])
     fading = d.pop("fading", None)
-    if fading is not None:
-        d["fading"] = Fading(**fading)
+    if fading is not None:  # the model's name alone is shorthand for {"model": name}
+        d["fading"] = Fading(model=fading) if isinstance(fading, str) else Fading(**fading)
     d["position"] = _position(d.get("position"))
     if d.get("sequence") is not None:
         d["sequence"] = tuple(d["sequence"])

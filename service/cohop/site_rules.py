@@ -63,7 +63,9 @@ def band_problems(d: Mapping) -> list[Problem]:
     return [(("high_hz",), "Must be above low_hz.")] if d["high_hz"] <= d["low_hz"] else []
 
 
-def fading_problems(d: Mapping) -> list[Problem]:
+def fading_problems(d: Mapping | str) -> list[Problem]:
+    if isinstance(d, str):  # the model's name alone: shorthand for {"model": name} (site_form)
+        d = {"model": d}
     k = d.get("k_factor_db")
     if d["model"] == "rician" and k is None:
         return [(("k_factor_db",), "A rician channel needs k_factor_db.")]

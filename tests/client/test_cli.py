@@ -11,7 +11,7 @@ from pathlib import Path
 
 import pytest
 
-from cohop import samples
+from cohop import cli, samples
 from tests.cli_helpers import run_cli
 
 POINTER = "/site/systems/0/tx_power_dbm"
@@ -203,7 +203,7 @@ def test_server_invalid_site_reports_pointer(capsys, live_server, tmp_path):
 
 def test_unreachable_server(capsys, free_port):
     code, out, err = run_cli(capsys, "assess", "--server", f"http://127.0.0.1:{free_port}", "--timeout", "5")
-    assert code == 1
+    assert code == cli.EXIT_SERVICE == 5  # README, "Exit codes": service or transport error
     assert "could not reach" in err
     assert "Traceback" not in err
 

@@ -146,11 +146,10 @@ def test_cli_replan_budget_below_the_bound_exits_3(capsys):
     assert "Traceback" not in err
 
 
-def test_cli_replan_rejects_a_file_that_is_not_a_plan(files):
+def test_cli_replan_rejects_a_file_that_is_not_a_plan(files, capsys):
     (files / "junk.json").write_text(json.dumps({"hello": "world"}), encoding="utf-8")
-    with pytest.raises(SystemExit) as info:
-        cli.main(["replan", str(files / "changed.json"), "--current", str(files / "junk.json")])
-    assert "neither a current plan nor a saved plan answer" in str(info.value.code)
+    assert cli.main(["replan", str(files / "changed.json"), "--current", str(files / "junk.json")]) == cli.EXIT_USAGE
+    assert "junk.json: holds no plan" in capsys.readouterr().err
 
 
 def test_cli_chart_from_saved_files(files, capsys):
@@ -186,11 +185,10 @@ def _bad_survey(tmp_path) -> Path:
     return bad
 
 
-def test_cli_malformed_survey_exits_with_a_clear_message(tmp_path):
+def test_cli_malformed_survey_exits_with_a_clear_message(tmp_path, capsys):
     bad = _bad_survey(tmp_path)
-    with pytest.raises(SystemExit) as info:
-        cli.main(["assess", str(SITE_JSON), "--survey", str(bad)])
-    message = str(info.value.code)
+    assert cli.main(["assess", str(SITE_JSON), "--survey", str(bad)]) == cli.EXIT_USAGE
+    message = capsys.readouterr().err
     assert "bad_survey.csv" in message and "level_dbm" in message and "'loud'" in message
     assert "not a number" in message
     proc = subprocess.run([sys.executable, "-m", "cohop", "assess", str(SITE_JSON), "--survey", str(bad)],
@@ -199,9 +197,8 @@ def test_cli_malformed_survey_exits_with_a_clear_message(tmp_path):
     assert "Traceback" not in proc.stderr and "not a number" in proc.stderr
 
 
-def test_cli_survey_without_a_level_column_is_rejected(tmp_path):
+def test_cli_survey_without_a_level_column_is_rejected(tmp_path, capsys):
     bad = tmp_path / "no_levels.csv"
     bad.write_text("frequency_hz,occupancy_fraction\n902000000,0.1\n", encoding="utf-8")
-    with pytest.raises(SystemExit) as info:
-        cli.main(["assess", str(SITE_JSON), "--survey", str(bad)])
-    assert "level_dbm" in str(info.value.code)
+    assert cli.main(["assess", str(SITE_JSON), "--survey", str(bad)]) == cli.EXIT_USAGE
+    assert "level_dbm" in capsys.readouterr().err

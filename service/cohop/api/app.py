@@ -116,9 +116,9 @@ def create_app(config: dict | None = None) -> flask.Flask:
     body.register(app)  # the body is read once, capped, after the checks above and before any parsing
     api = CohopApi(app, spec_kwargs={"extra_plugins": [BearerSecurityPlugin(auth.OPEN_PATHS)]})
     solver_runner.register(app)
-    from cohop.api.views import assessments, meta, plans, profiles, replans
+    from cohop.api.views import assessments, hop_tables, meta, plans, profiles, replans
 
-    for blp in (assessments.blp, plans.blp, replans.blp, profiles.blp, meta.blp):
+    for blp in (assessments.blp, plans.blp, replans.blp, hop_tables.blp, profiles.blp, meta.blp):
         api.register_blueprint(blp)
     api.document_metrics(public=bool(app.config.get("COHOP_METRICS_PUBLIC")))
     return app

@@ -15,7 +15,7 @@ from marshmallow import fields, post_load, pre_load, validate, validates_schema
 from cohop import limits, site_rules
 from cohop.api.schemas.fields import IDENTIFIER, Count, Flag, List, Number, Text, default
 from cohop.regulatory import PROFILES
-from cohop.site import Interferer, Position, Propagation, Site, Survey, System
+from cohop.site import Grid, Interferer, Position, Propagation, Site, Survey, System
 from cohop.site_form import site_from
 
 FADING_MODELS = ("rayleigh", "rician", "none")
@@ -53,6 +53,10 @@ class StrictSchema(ma.Schema):
         unknown = ma.RAISE
         ordered = True
 
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.error_messages = {**self.error_messages, "type": expected_object(self)}
+
     @pre_load
     def _few_unknown(self, data, **kwargs):
         """An object with a flood of unknown keys costs a bounded error list, not one error per key."""
@@ -63,6 +67,26 @@ class StrictSchema(ma.Schema):
         errors = {k: ["Unknown field."] for k in unknown[:limits.MAX_FIELD_ERRORS]}
         errors["_schema"] = [f"{len(unknown)} unknown fields; the object was not read further."]
         raise ma.ValidationError(errors)
+
+
+def expected_object(schema: ma.Schema) -> str:
+    """The message for a value that is not an object: the shape wanted, required fields marked."""
+    names = [f'"{f.data_key or n}"' + ("" if not f.required else " (required)") for n, f in schema.load_fields.items()]
+    shown = ", ".join(names[:12]) + (", ..." if len(names) > 12 else "")
+    return f"Expected a JSON object with {shown}."
+
+
+class FadingField(fields.Nested):
+    """`fading`: an object, or the model's name alone as shorthand ("rayleigh", "none"; "rician" needs its
+    k_factor_db, so only the object form gives it)."""
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if isinstance(value, str):
+            value = {"model": value}
+        elif not isinstance(value, dict):
+            raise ma.ValidationError(f'Expected a fading model name ({", ".join(map(repr, FADING_MODELS))}) or '
+                                     'an object {"model": ..., "k_factor_db": ...} (k_factor_db for rician only).')
+        return super()._deserialize(value, attr, data, **kwargs)
 
 
 def channel_index() -> Count:
@@ -83,6 +107,11 @@ class GridSchema(StrictSchema):
                              metadata={"description": "Centre of channel 0."})
     spacing_hz = Number(limits.CHANNEL_SPACING_HZ, required=True)
     count = Count(required=True, validate=validate.Range(min=1, max=limits.MAX_CHANNELS))
+    first_channel_number = Count(limits.CHANNEL_NUMBER, load_default=default(Grid, "first_channel_number"),
+                                 metadata={"description": "Your own number of channel 0 (hop tables only)."})
+    channel_number_step = Count(limits.CHANNEL_NUMBER_STEP, load_default=default(Grid, "channel_number_step"),
+                                metadata={"description": "Your own number goes up by this per grid channel "
+                                                         "(hop tables only)."})
 
 
 class RejectionPointSchema(StrictSchema):
@@ -128,7 +157,8 @@ class SystemSchema(StrictSchema):
     fade_margin_db = Number(limits.FADE_MARGIN_DB)
     sensitivity_dbm = Number(limits.SIGNAL_DBM)
     noise_figure_db = Number(limits.NOISE_FIGURE_DB)
-    fading = fields.Nested(FadingSchema, load_default=None)
+    fading = FadingField(FadingSchema, load_default=None, metadata={
+        "description": 'An object, or the model name alone: "rayleigh" is {"model": "rayleigh"}.'})
     retry_limit = Count(limits.RETRY_LIMIT, required=True)
     hops_per_attempt = Count(limits.HOPS_PER_ATTEMPT, load_default=default(System, "hops_per_attempt"),
                              metadata={"description": "Hops one attempt needs (e.g. 2 for data and acknowledgement)."})
