@@ -1,0 +1,126 @@
+"""Moving systems over HTTP: the request schema's rules with their JSON pointers, bounds, and the sample."""
+
+from __future__ import annotations
+
+import pytest
+
+from cohop import limits
+from cohop.api.app import create_app
+from cohop.api.schemas.assessment import AssessmentResponseSchema
+from cohop.assess import assess_site
+from cohop.errors import SiteError
+from cohop.jobs.answers import assessment_answer
+from cohop.prepare import prepare_site
+from cohop.site_rules import load_site
+from tests.answer_keys import missing_keys
+from tests.api.conftest import load_sample
+from tests.mobility.helpers import at, moving_site
+from tests.problems import problem_body
+
+ASSESSMENTS = "/v1/assessments"
+
+
+@pytest.fixture(scope="module")
+def client():
+    return create_app({"TESTING": True}).test_client()
+
+
+def _pointers(resp) -> dict[str, str]:
+    body = problem_body(resp, 422)
+    return {e["pointer"]: e["detail"] for e in body["errors"]}
+
+
+def test_position_and_positions_together_are_refused_with_a_pointer(client):
+    body = {"site": moving_site([at(0), at(10)], at(100))}
+    body["site"]["systems"][0]["position"] = at(5)
+    errors = _pointers(client.post(ASSESSMENTS, json=body))
+    assert "at most one of position, positions and area" in errors["/site/systems/0/positions"]
+
+
+def test_positions_and_area_together_point_at_area(client):
+    body = {"site": moving_site([at(0), at(10)], at(100))}
+    body["site"]["systems"][0]["area"] = {"x_min_m": 0, "x_max_m": 10, "y_min_m": 0, "y_max_m": 10, "step_m": 5}
+    assert "/site/systems/0/area" in _pointers(client.post(ASSESSMENTS, json=body))
+
+
+@pytest.mark.parametrize("area, pointer", [
+    ({"x_min_m": 10, "x_max_m": 0, "y_min_m": 0, "y_max_m": 10, "step_m": 5}, "/site/systems/0/area/x_max_m"),
+    # 0..100 every 1 m: 101 x 101 points, above MAX_AREA_POINTS
+    ({"x_min_m": 0, "x_max_m": 100, "y_min_m": 0, "y_max_m": 100, "step_m": 1}, "/site/systems/0/area/step_m"),
+    ({"x_min_m": 0, "x_max_m": 10, "y_min_m": 0, "y_max_m": 10, "step_m": 0.0}, "/site/systems/0/area/step_m"),
+    ({"x_min_m": 0, "x_max_m": 10, "y_min_m": 0, "y_max_m": 10}, "/site/systems/0/area/step_m"),
+])
+def test_bad_areas_point_at_their_field(client, area, pointer):
+    body = {"site": moving_site([at(0)], at(100))}
+    crane = body["site"]["systems"][0]
+    crane.pop("positions")
+    crane["area"] = area
+    assert pointer in _pointers(client.post(ASSESSMENTS, json=body))
+
+
+def test_area_cap_is_the_documented_one():
+    assert 101 * 101 > limits.MAX_AREA_POINTS >= 20 * 20
+
+
+def test_too_many_positions_and_an_unknown_policy(client):
+    body = {"site": moving_site([at(float(i)) for i in range(limits.MAX_POSITIONS + 1)], at(100))}
+    body["site"]["mobility_policy"] = "average"
+    errors = _pointers(client.post(ASSESSMENTS, json=body))
+    assert "/site/systems/0/positions" in errors
+    assert "/site/mobility_policy" in errors
+
+
+def test_sampled_positions_cap_across_the_site(client):
+    # eight systems of 19 x 19 = 361 area points each: 2888 sampled positions, above MAX_SAMPLED_POSITIONS
+    body = {"site": moving_site([at(0)], at(100))}
+    template = body["site"]["systems"][0]
+    template.pop("positions")
+    systems = []
+    for i in range(8):
+        s = dict(template, id=f"v{i}")
+        s["area"] = {"x_min_m": 0, "x_max_m": 180, "y_min_m": 100 * i, "y_max_m": 100 * i + 180, "step_m": 10}
+        systems.append(s)
+    body["site"]["systems"] = systems
+    assert 8 * 19 * 19 > limits.MAX_SAMPLED_POSITIONS
+    errors = _pointers(client.post(ASSESSMENTS, json=body))
+    assert "sampled positions" in errors["/site/systems"]
+
+
+def test_load_site_checks_the_same_rules():
+    body = moving_site([at(0), at(10)], at(100))
+    body["systems"][0]["position"] = at(5)
+    with pytest.raises(SiteError, match="at most one of position"):
+        load_site(body)
+
+
+def test_the_sample_crane_moves_and_its_worst_position_is_named(client):
+    body = load_sample("container_terminal_eu2400.json")
+    resp = client.post(ASSESSMENTS, json=body)
+    assert resp.status_code == 200, resp.get_data(as_text=True)[:2000]
+    answer = resp.get_json()
+    crane = next(s for s in answer["systems"] if s["id"] == "sts-1")
+    sent = next(s for s in body["site"]["systems"] if s["id"] == "sts-1")["positions"]
+    m = crane["mobility"]
+    assert m["policy"] == "worst" and m["positions_sampled"] == len(sent) > 1 and m["mean"] is None
+    worst = m["worst_position"]
+    assert {"x_m": worst["position"]["x_m"], "y_m": worst["position"]["y_m"]} == sent[worst["index"]]
+    assert worst["collision_probability"] <= crane["per_hop"]["collision_probability"] + 1e-15
+    assert any("worst position pair" in a for a in answer["assumptions"])
+    assert missing_keys(AssessmentResponseSchema(), answer) == []
+
+
+def test_mean_policy_in_the_answer(client):
+    body = load_sample("container_terminal_eu2400.json")
+    body["site"]["mobility_policy"] = "mean"
+    answer = client.post(ASSESSMENTS, json=body).get_json()
+    for s in answer["systems"]:
+        m = s["mobility"]
+        assert m["policy"] == "mean"
+        assert m["mean"]["collision_probability"] <= m["worst_position"]["collision_probability"] + 1e-15
+
+
+def test_the_sample_through_load_site():
+    body = load_sample("container_terminal_eu2400.json")
+    answer = assessment_answer(assess_site(prepare_site(load_site(body["site"]))), caution=False)
+    crane = answer.systems[0].mobility
+    assert crane.id == "sts-1" and crane.positions_sampled == 5 and crane.worst is not None
