@@ -128,7 +128,7 @@ MAX_POSITIONS = 64
 #: Grid points of one system's area (x samples x y samples).
 MAX_AREA_POINTS = 400
 #: Sampled positions of all systems together: each moving system is evaluated once per sampled position.
-MAX_SAMPLED_POSITIONS = 2048
+MAX_SAMPLED_POSITIONS = 1024
 #: Path losses computed between systems: sum over ordered pairs of (positions of a) x (positions of v).
 MAX_POSITION_PAIRS = 2_000_000
 #: Field errors listed in one problem-details answer (the rest are counted in `errors_omitted`).
@@ -155,7 +155,7 @@ CAPS = (
     ("source-detail entries", MAX_SOURCE_DETAIL_ENTRIES, "per-channel breakdown by source (detail=source)"),
     ("positions of one system", MAX_POSITIONS, "a rail or route given point by point; use area for more"),
     ("area grid points of one system", MAX_AREA_POINTS, "x samples x y samples (20 x 20): coarsen step_m"),
-    ("sampled positions in all", MAX_SAMPLED_POSITIONS, "each is one evaluation of its system (a few ms each)"),
+    ("sampled positions in all", MAX_SAMPLED_POSITIONS, "each is one more evaluation of its system as a victim (about 3 ms on a 79-channel site)"),
     ("position pairs", MAX_POSITION_PAIRS, "path losses between systems' positions, evaluated in numpy: "
                                            "well under a second"),
     ("field errors listed", MAX_FIELD_ERRORS, "per answer; errors_omitted counts the rest"),

@@ -9,7 +9,7 @@ Definitions (README, "Systems that move"; DEVELOPERS.md):
   every pair of their sampled positions. Every headline figure, the Monte Carlo check and planning use it,
   whatever the policy.
 - *Figures at a position p of system v*: v's figures as a victim with its receiver at p and every source at
-  its own worst position towards p (`cohop.prepare.victim_at`), interferer levels computed at p. A victim's
+  its own worst position towards p (`cohop.prepare.victim_losses`, `victim_at`), interferer levels computed at p. A victim's
   figures depend only on the links into it, so the other systems' figures are not needed.
 - *Worst position*: the sampled position with the highest per-hop collision probability (the first on a tie);
   every other figure is monotone in it, since the wanted signal and fading do not depend on position.
@@ -29,7 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from cohop.assess import Assessment, SystemFigures, assess_system, channel_prefix_counts
-from cohop.prepare import PreparedSite, victim_at
+from cohop.prepare import PreparedSite, victim_at, victim_losses
 from cohop.site import Position
 
 #: The assumption an answer carries when its site has a moving system.
@@ -115,8 +115,9 @@ def system_mobility(prep: PreparedSite, v: int, headline: SystemFigures, sets, p
     if len(positions) == 1:  # its only position: the headline's coupling, exactly
         per = [_at(0, positions[0], headline)]
     else:
-        per = [_at(i, p, assess_system(victim_at(prep, v, p), v, sets, headline.hop_set_origin, prefix, sizes,
-                                       "system", sequences))
+        loss, levels = victim_losses(prep, v, positions)
+        per = [_at(i, p, assess_system(victim_at(prep, v, loss[:, i], levels[:, i]), v, sets,
+                                       headline.hop_set_origin, prefix, sizes, "system", sequences))
                for i, p in enumerate(positions)]
     worst = max(per, key=lambda f: (f.collision_probability, -f.index))
     mean = None

@@ -304,31 +304,47 @@ def worst_path_loss_db(prop: Propagation, f_hz: float, sources: tuple[Position, 
     return float(position_losses_db(prop, f_hz, sources, victims).min())
 
 
-def victim_at(prep: PreparedSite, v: int, at: Position) -> PreparedSite:
-    """The prepared site with victim v's receiver at `at` (one of its sampled positions): the losses to it that
-    are computed from positions (every source at its own worst position towards `at`) and the interferer levels
-    computed from positions, with their links, windows and channel ranges. Given losses and levels hold at
-    every position and are kept; nothing else changes."""
+def victim_losses(prep: PreparedSite, v: int, places: tuple[Position, ...]) -> tuple[np.ndarray, np.ndarray]:
+    """For victim v's receiver at each of `places`: the coupling loss from every source (S, P) and the total
+    level of every fixed interferer (K, P). Losses and levels computed from positions take every source at its
+    own worst position towards each place; given ones hold at every place (nan on the diagonal)."""
     site, prop = prep.site, prep.site.coupling.propagation
     victim = site.systems[v]
     f_mid = float((prep.centres_hz[0] + prep.centres_hz[-1]) / 2)  # as prepare_site
+    loss = np.repeat(prep.coupling_loss_db[:, v][:, None], len(places), axis=1)
+    for a, source in enumerate(site.systems):
+        if a != v and not prep.coupling_explicit[a, v]:
+            path = position_losses_db(prop, f_mid, source.sampled_positions(), places).min(axis=0)
+            loss[a] = path - source.antenna_gain_dbi - victim.antenna_gain_dbi - prop.margin_db
+    levels = np.empty((len(site.interferers), len(places)))
+    for k, itf in enumerate(site.interferers):
+        given = [lv.level_dbm for lv in itf.levels if lv.system == victim.id]
+        if given:
+            levels[k] = given[0]
+        else:  # as _interferer_level: the planning margin lowers the computed loss
+            path = position_losses_db(prop, f_mid, (itf.position,), places)[0]
+            levels[k] = itf.eirp_dbm - (path - prop.margin_db) + victim.antenna_gain_dbi
+    return loss, levels
+
+
+def victim_at(prep: PreparedSite, v: int, loss_db: np.ndarray, interferer_dbm: np.ndarray) -> PreparedSite:
+    """The prepared site with victim v's incoming coupling losses (S,) and interferer levels (K,) replaced (one
+    column of `victim_losses`): its links, windows and interferer channel ranges rebuilt; nothing else changes."""
+    site, victim = prep.site, prep.site.systems[v]
     loss, window = prep.coupling_loss_db.copy(), prep.window.copy()
+    loss[:, v] = loss_db
     links = list(prep.links[v])
     for a, source in enumerate(site.systems):
-        if a == v or prep.coupling_explicit[a, v]:
+        if a == v:
             continue
-        path = worst_path_loss_db(prop, f_mid, source.sampled_positions(), (at,))
-        loss[a, v] = path - source.antenna_gain_dbi - victim.antenna_gain_dbi - prop.margin_db
         old = links[a]
         links[a] = _link(victim, prep.wanted_dbm[v], source.tx_power_dbm - loss[a, v], old.overlap,
                          old.activity_fraction, old.aligned)
         window[v, a] = window_channels(links[a].bound_hz, site.grid.spacing_hz, site.grid.count)
     ilinks, iranges = list(prep.interferer_links[v]), prep.interferer_range.copy()
     for k, itf in enumerate(site.interferers):
-        if any(lv.system == victim.id for lv in itf.levels):
-            continue
-        ilinks[k], iranges[v, k] = _interferer_link(victim, prep.wanted_dbm[v], itf,
-                                                    _interferer_level(site, itf, v, f_mid, at), prep.centres_hz)
+        ilinks[k], iranges[v, k] = _interferer_link(victim, prep.wanted_dbm[v], itf, float(interferer_dbm[k]),
+                                                    prep.centres_hz)
     all_links = prep.links[:v] + (tuple(links),) + prep.links[v + 1:]
     all_ilinks = prep.interferer_links[:v] + (tuple(ilinks),) + prep.interferer_links[v + 1:]
     return replace(prep, coupling_loss_db=loss, links=all_links, window=window, interferer_links=all_ilinks,

@@ -9,6 +9,7 @@ geometry: `cohop.physics.geometry`).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 from cohop.physics.geometry import rectangle_samples
 
@@ -76,8 +77,13 @@ class Area:
     floor: int = 0
 
     def points(self) -> tuple[Position, ...]:
-        xs, ys = rectangle_samples(self.x_min_m, self.x_max_m, self.y_min_m, self.y_max_m, self.step_m)
-        return tuple(Position(float(x), float(y), self.floor) for x, y in zip(xs, ys))
+        return _area_points(self)
+
+
+@lru_cache(maxsize=1024)  # an area is sampled many times per request (rules, coupling, per-position figures)
+def _area_points(area: Area) -> tuple[Position, ...]:
+    xs, ys = rectangle_samples(area.x_min_m, area.x_max_m, area.y_min_m, area.y_max_m, area.step_m)
+    return tuple(Position(float(x), float(y), area.floor) for x, y in zip(xs, ys))
 
 
 @dataclass(frozen=True)
