@@ -124,3 +124,17 @@ def test_the_sample_through_load_site():
     answer = assessment_answer(assess_site(prepare_site(load_site(body["site"]))), caution=False)
     crane = answer.systems[0].mobility
     assert crane.id == "sts-1" and crane.positions_sampled == 5 and crane.worst is not None
+
+
+def test_a_plan_names_the_moving_crane_worst_position(client):
+    # The sample as a plan request (the site and a short search): planning uses the worst-case coupling, and
+    # the plan's assessment carries the crane's mobility block like an assessment does.
+    body = {"site": load_sample("container_terminal_eu2400.json")["site"], "search": {"time_limit_s": 0.5, "seed": 0}}
+    resp = client.post("/v1/plans", json=body)
+    assert resp.status_code == 200, resp.get_data(as_text=True)[:2000]
+    answer = resp.get_json()["assessment"]
+    crane = next(s for s in answer["systems"] if s["id"] == "sts-1")
+    worst = crane["mobility"]["worst_position"]
+    assert worst["index"] in range(5)
+    assert worst["collision_probability"] <= crane["per_hop"]["collision_probability"] + 1e-15
+    assert any("worst position pair" in a for a in answer["assumptions"])
