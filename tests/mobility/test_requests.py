@@ -138,3 +138,39 @@ def test_a_plan_names_the_moving_crane_worst_position(client):
     assert worst["index"] in range(5)
     assert worst["collision_probability"] <= crane["per_hop"]["collision_probability"] + 1e-15
     assert any("worst position pair" in a for a in answer["assumptions"])
+
+
+def test_extreme_areas_are_counted_not_built(client):
+    # The widest area the coordinate bounds allow at the finest step: about 4e14 points, refused by
+    # arithmetic (physics.geometry.axis_sample_count) before any point is made.
+    body = {"site": moving_site([at(0)], at(100))}
+    crane = body["site"]["systems"][0]
+    crane.pop("positions")
+    lo, hi = limits.COORDINATE_M.minimum, limits.COORDINATE_M.maximum
+    crane["area"] = {"x_min_m": lo, "x_max_m": hi, "y_min_m": lo, "y_max_m": hi, "step_m": limits.AREA_STEP_M.minimum}
+    assert "grid points" in _pointers(client.post(ASSESSMENTS, json=body))["/site/systems/0/area/step_m"]
+
+
+def test_positions_at_the_coordinate_bounds_and_on_top_of_each_other(client):
+    # Opposite corners of the coordinate range, and a position on the source itself (models use at least 1 m):
+    # finite figures, and the worst position is the one on the source.
+    lo, hi = limits.COORDINATE_M.minimum, limits.COORDINATE_M.maximum
+    body = {"site": moving_site([at(lo, lo), at(hi, hi), at(100)], at(100), policy="mean")}
+    resp = client.post(ASSESSMENTS, json=body)
+    assert resp.status_code == 200, resp.get_data(as_text=True)[:2000]
+    m = resp.get_json()["systems"][0]["mobility"]
+    assert m["positions_sampled"] == 3 and m["worst_position"]["index"] == 2
+    assert 0.0 <= m["mean"]["collision_probability"] <= m["worst_position"]["collision_probability"] <= 1.0
+
+
+def test_an_area_reports_its_sampled_count(client):
+    body = {"site": moving_site([at(0)], at(100))}
+    crane = body["site"]["systems"][0]
+    crane.pop("positions")
+    crane["area"] = {"x_min_m": 0, "x_max_m": 75, "y_min_m": 0, "y_max_m": 20, "step_m": 25}  # 4 x 2 points
+    m = client.post(ASSESSMENTS, json=body).get_json()["systems"][0]["mobility"]
+    assert m["positions_sampled"] == 8
+    # x = 75 is 25 m from the source: excess 40.9 - 20 log10(25) = 12.9 dB > 11 dB, so the 1 MHz neighbours
+    # are harmed too (tests/mobility/test_policy.py); at 50 m and beyond co-channel only. First such point: y = 0.
+    assert m["worst_position"]["index"] == 3
+    assert m["worst_position"]["position"] == {"x_m": 75.0, "y_m": 0.0, "floor": 0}
