@@ -155,7 +155,8 @@ CAPS = (
     ("source-detail entries", MAX_SOURCE_DETAIL_ENTRIES, "per-channel breakdown by source (detail=source)"),
     ("positions of one system", MAX_POSITIONS, "a rail or route given point by point; use area for more"),
     ("area grid points of one system", MAX_AREA_POINTS, "x samples x y samples (20 x 20): coarsen step_m"),
-    ("sampled positions in all", MAX_SAMPLED_POSITIONS, "each is one more evaluation of its system as a victim (about 3 ms on a 79-channel site)"),
+    ("sampled positions in all", MAX_SAMPLED_POSITIONS, "each is one more evaluation of its system as a victim "
+                                                        "(about 3.6 ms on a 79-channel site)"),
     ("position pairs", MAX_POSITION_PAIRS, "path losses between systems' positions, evaluated in numpy: "
                                            "well under a second"),
     ("field errors listed", MAX_FIELD_ERRORS, "per answer; errors_omitted counts the rest"),

@@ -9,8 +9,8 @@ Definitions (README, "Systems that move"; DEVELOPERS.md):
   every pair of their sampled positions. Every headline figure, the Monte Carlo check and planning use it,
   whatever the policy.
 - *Figures at a position p of system v*: v's figures as a victim with its receiver at p and every source at
-  its own worst position towards p (`cohop.prepare.victim_losses`, `victim_at`), interferer levels computed at p. A victim's
-  figures depend only on the links into it, so the other systems' figures are not needed.
+  its own worst position towards p (`cohop.prepare.victim_losses`, `victim_at`), interferer levels computed
+  at p. A victim's figures depend only on the links into it, so the other systems' figures are not needed.
 - *Worst position*: the sampled position with the highest per-hop collision probability (the first on a tie);
   every other figure is monotone in it, since the wanted signal and fading do not depend on position.
 - *Mean* (policy "mean"): the arithmetic mean of the figures at each sampled position, each position weighted

@@ -36,8 +36,8 @@ def _fixed_at(body, place):
 
 @pytest.fixture(scope="module")
 def body():
-    # excess over the crane's SIR threshold: 40.9 - 20 log10(d / m) dB (P.525 at 2.41 GHz, 10 dBm source, -60 dBm wanted,
-    # 11 dB SIR): none at 120 m, co-channel at 60 and 90 m, co-channel and 1 MHz (11 dB rejection) at 30 m
+    # excess over the crane's SIR threshold: 40.9 - 20 log10(d / m) dB (P.525 at 2.41 GHz, 10 dBm source,
+    # -60 dBm wanted, 11 dB SIR): none at 120 m, co-channel at 60 and 90 m, co-channel and 1 MHz (11 dB rejection) at 30 m
     return moving_site(PLACES, SOURCE, policy="mean", n_channels=20)
 
 
