@@ -102,10 +102,12 @@ def _note(moves: bool, matter: bool, policy: str) -> str:
 
 
 def system_mobility(prep: PreparedSite, v: int, headline: SystemFigures, sets, prefix, sizes,
-                    sequences=None) -> SystemMobility | None:
-    """One system's figures across its sampled positions; None when it has none (coupling given)."""
+                    sequences=None, sampled=None) -> SystemMobility | None:
+    """One system's figures across its sampled positions; None when it has none (coupling given). `sampled`:
+    every system's sampled positions, when the caller has them."""
     system, policy = prep.site.systems[v], prep.site.mobility_policy
-    positions = system.sampled_positions()
+    sampled = sampled or [s.sampled_positions() for s in prep.site.systems]
+    positions = sampled[v]
     if not positions:
         return None
     matter = positions_matter(prep, v)
@@ -115,7 +117,7 @@ def system_mobility(prep: PreparedSite, v: int, headline: SystemFigures, sets, p
     if len(positions) == 1:  # its only position: the headline's coupling, exactly
         per = [_at(0, positions[0], headline)]
     else:
-        loss, levels = victim_losses(prep, v, positions)
+        loss, levels = victim_losses(prep, v, positions, sampled)
         per = [_at(i, p, assess_system(victim_at(prep, v, loss[:, i], levels[:, i]), v, sets,
                                        headline.hop_set_origin, prefix, sizes, "system", sequences))
                for i, p in enumerate(positions)]
@@ -133,5 +135,6 @@ def mobility_figures(assessment: Assessment, sequences=None) -> tuple[SystemMobi
         return None
     sets = [np.asarray(f.hop_set, dtype=int) for f in assessment.systems]
     prefix, sizes = channel_prefix_counts(prep, sets), np.array([s.size for s in sets])
-    return tuple(system_mobility(prep, v, f, sets, prefix, sizes, sequences)
+    sampled = [s.sampled_positions() for s in prep.site.systems]
+    return tuple(system_mobility(prep, v, f, sets, prefix, sizes, sequences, sampled)
                  for v, f in enumerate(assessment.systems))

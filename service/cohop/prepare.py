@@ -160,12 +160,12 @@ def _coupling(site: Site, f_hz: float) -> tuple[np.ndarray, np.ndarray]:
         if not explicit[a, v] and np.isnan(loss[a, v]):
             loss[a, v] = e.loss_db
     prop = site.coupling.propagation
+    places = [s.sampled_positions() for s in site.systems]  # several for a system that moves
     for a in range(n):
         for v in range(n):
             if a == v or not np.isnan(loss[a, v]):
                 continue  # the rest come from positions (every pair has one or the other: site_rules)
-            path = worst_path_loss_db(prop, f_hz, site.systems[a].sampled_positions(),
-                                      site.systems[v].sampled_positions())
+            path = worst_path_loss_db(prop, f_hz, places[a], places[v])
             loss[a, v] = (path - site.systems[a].antenna_gain_dbi - site.systems[v].antenna_gain_dbi
                           - prop.margin_db)
     explicit_any = explicit | explicit.T
@@ -304,17 +304,20 @@ def worst_path_loss_db(prop: Propagation, f_hz: float, sources: tuple[Position, 
     return float(position_losses_db(prop, f_hz, sources, victims).min())
 
 
-def victim_losses(prep: PreparedSite, v: int, places: tuple[Position, ...]) -> tuple[np.ndarray, np.ndarray]:
+def victim_losses(prep: PreparedSite, v: int, places: tuple[Position, ...],
+                  sampled: list[tuple[Position, ...]] | None = None) -> tuple[np.ndarray, np.ndarray]:
     """For victim v's receiver at each of `places`: the coupling loss from every source (S, P) and the total
     level of every fixed interferer (K, P). Losses and levels computed from positions take every source at its
-    own worst position towards each place; given ones hold at every place (nan on the diagonal)."""
+    own worst position towards each place; given ones hold at every place (nan on the diagonal). `sampled`:
+    every system's sampled positions, when the caller has them already."""
     site, prop = prep.site, prep.site.coupling.propagation
     victim = site.systems[v]
     f_mid = float((prep.centres_hz[0] + prep.centres_hz[-1]) / 2)  # as prepare_site
     loss = np.repeat(prep.coupling_loss_db[:, v][:, None], len(places), axis=1)
     for a, source in enumerate(site.systems):
         if a != v and not prep.coupling_explicit[a, v]:
-            path = position_losses_db(prop, f_mid, source.sampled_positions(), places).min(axis=0)
+            here = source.sampled_positions() if sampled is None else sampled[a]
+            path = position_losses_db(prop, f_mid, here, places).min(axis=0)
             loss[a] = path - source.antenna_gain_dbi - victim.antenna_gain_dbi - prop.margin_db
     levels = np.empty((len(site.interferers), len(places)))
     for k, itf in enumerate(site.interferers):

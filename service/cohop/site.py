@@ -80,7 +80,7 @@ class Area:
         return _area_points(self)
 
 
-@lru_cache(maxsize=1024)  # an area is sampled many times per request (rules, coupling, per-position figures)
+@lru_cache(maxsize=64)  # sampled by the rules and by prepare_site; small: it outlives the request
 def _area_points(area: Area) -> tuple[Position, ...]:
     xs, ys = rectangle_samples(area.x_min_m, area.x_max_m, area.y_min_m, area.y_max_m, area.step_m)
     return tuple(Position(float(x), float(y), area.floor) for x, y in zip(xs, ys))
