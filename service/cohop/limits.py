@@ -126,9 +126,9 @@ MAX_SOURCE_DETAIL_ENTRIES = 500_000
 #: Positions listed for one moving system.
 MAX_POSITIONS = 64
 #: Grid points of one system's area (x samples x y samples).
-MAX_AREA_POINTS = 400
+MAX_AREA_POINTS = 256
 #: Sampled positions of all systems together: each moving system is evaluated once per sampled position.
-MAX_SAMPLED_POSITIONS = 1024
+MAX_SAMPLED_POSITIONS = 512
 #: Path losses computed between systems: sum over ordered pairs of (positions of a) x (positions of v).
 MAX_POSITION_PAIRS = 2_000_000
 #: Field errors listed in one problem-details answer (the rest are counted in `errors_omitted`).
@@ -154,9 +154,9 @@ CAPS = (
     ("simulated hops per system", MAX_SIMULATED_HOPS, "sequence_packets x (retry_limit + 1) x hops_per_attempt"),
     ("source-detail entries", MAX_SOURCE_DETAIL_ENTRIES, "per-channel breakdown by source (detail=source)"),
     ("positions of one system", MAX_POSITIONS, "a rail or route given point by point; use area for more"),
-    ("area grid points of one system", MAX_AREA_POINTS, "x samples x y samples (20 x 20): coarsen step_m"),
+    ("area grid points of one system", MAX_AREA_POINTS, "x samples x y samples (16 x 16): coarsen step_m"),
     ("sampled positions in all", MAX_SAMPLED_POSITIONS, "each is one more evaluation of its system as a victim "
-                                                        "(about 3.6 ms on a 79-channel site)"),
+                                                        "(about 3.6 ms on a 79-channel site: 2 s in all)"),
     ("position pairs", MAX_POSITION_PAIRS, "path losses between systems' positions, evaluated in numpy: "
                                            "well under a second"),
     ("field errors listed", MAX_FIELD_ERRORS, "per answer; errors_omitted counts the rest"),

@@ -119,7 +119,8 @@ def system_mobility(prep: PreparedSite, v: int, headline: SystemFigures, sets, p
     else:
         loss, levels = victim_losses(prep, v, positions, sampled)
         per = [_at(i, p, assess_system(victim_at(prep, v, loss[:, i], levels[:, i]), v, sets,
-                                       headline.hop_set_origin, prefix, sizes, "system", sequences))
+                                       headline.hop_set_origin, prefix, sizes, "system", sequences,
+                                       compliance=False))
                for i, p in enumerate(positions)]
     worst = max(per, key=lambda f: (f.collision_probability, -f.index))
     mean = None

@@ -59,7 +59,7 @@ def test_bad_areas_point_at_their_field(client, area, pointer):
 
 
 def test_area_cap_is_the_documented_one():
-    assert 101 * 101 > limits.MAX_AREA_POINTS >= 20 * 20
+    assert 101 * 101 > limits.MAX_AREA_POINTS >= 16 * 16
 
 
 def test_too_many_positions_and_an_unknown_policy(client):
@@ -71,17 +71,17 @@ def test_too_many_positions_and_an_unknown_policy(client):
 
 
 def test_sampled_positions_cap_across_the_site(client):
-    # eight systems of 19 x 19 = 361 area points each: 2888 sampled positions, above MAX_SAMPLED_POSITIONS
+    # three systems of 16 x 16 = 256 area points each: 768 sampled positions, above MAX_SAMPLED_POSITIONS
     body = {"site": moving_site([at(0)], at(100))}
     template = body["site"]["systems"][0]
     template.pop("positions")
     systems = []
-    for i in range(8):
+    for i in range(3):
         s = dict(template, id=f"v{i}")
-        s["area"] = {"x_min_m": 0, "x_max_m": 180, "y_min_m": 100 * i, "y_max_m": 100 * i + 180, "step_m": 10}
+        s["area"] = {"x_min_m": 0, "x_max_m": 150, "y_min_m": 200 * i, "y_max_m": 200 * i + 150, "step_m": 10}
         systems.append(s)
     body["site"]["systems"] = systems
-    assert 8 * 19 * 19 > limits.MAX_SAMPLED_POSITIONS
+    assert 3 * 16 * 16 > limits.MAX_SAMPLED_POSITIONS
     errors = _pointers(client.post(ASSESSMENTS, json=body))
     assert "sampled positions" in errors["/site/systems"]
 
