@@ -174,3 +174,20 @@ def test_an_area_reports_its_sampled_count(client):
     # are harmed too (tests/mobility/test_policy.py); at 50 m and beyond co-channel only. First such point: y = 0.
     assert m["worst_position"]["index"] == 3
     assert m["worst_position"]["position"] == {"x_m": 75.0, "y_m": 0.0, "floor": 0}
+
+
+def test_a_survey_beside_a_moving_system(client):
+    # Survey-derived interferers carry a level for every system (given levels): they hold at every position,
+    # while the source's coupling still follows the crane.
+    body = {"site": moving_site([at(0), at(60), at(30), at(90)], at(120))}
+    freqs = [2402e6 + 1e5 * i for i in range(190)]  # every 100 kHz over the grid; a carrier near 2405 MHz
+    levels = [-40.0 if abs(f - 2405e6) < 3e5 else -120.0 for f in freqs]
+    body["site"]["surveys"] = [{"id": "walk", "applies_to": ["crane"], "frequencies_hz": freqs,
+                                "levels_dbm": levels, "resolution_bandwidth_hz": 1e5}]
+    resp = client.post(ASSESSMENTS, json=body)
+    assert resp.status_code == 200, resp.get_data(as_text=True)[:2000]
+    answer = resp.get_json()
+    assert answer["derived_interferers"]
+    m = answer["systems"][0]["mobility"]
+    assert m["positions_matter"] and m["worst_position"]["index"] == 3
+    assert m["worst_position"]["collision_probability"] <= answer["systems"][0]["per_hop"]["collision_probability"]
