@@ -202,14 +202,14 @@ def _system_links(site: Site, wanted: np.ndarray, loss: np.ndarray):
     return tuple(links), window
 
 
-def _interferer_level(site: Site, itf: Interferer, v: int, f_hz: float, at: Position | None = None) -> float:
+def _interferer_level(site: Site, itf: Interferer, v: int, f_hz: float) -> float:
     given = {lv.system: lv.level_dbm for lv in itf.levels}
     victim = site.systems[v]
     if victim.id in given:
         return given[victim.id]
     prop = site.coupling.propagation  # given levels or eirp, positions and propagation: site_rules
-    # a moving victim hears the interferer at its nearest (least-loss) position, or at `at`
-    path = worst_path_loss_db(prop, f_hz, (itf.position,), victim.sampled_positions() if at is None else (at,))
+    # a moving victim hears the interferer at its nearest (least-loss) position (victim_losses: at each)
+    path = worst_path_loss_db(prop, f_hz, (itf.position,), victim.sampled_positions())
     # the planning margin lowers the computed loss, as for coupling between systems
     return itf.eirp_dbm - (path - prop.margin_db) + victim.antenna_gain_dbi
 
