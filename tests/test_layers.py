@@ -24,7 +24,7 @@ LAYERS = [
     ("cohop.cautions", 2),
     ("cohop.prepare", 3), ("cohop.surveys", 3),
     ("cohop.kernel", 4), ("cohop.assess", 4), ("cohop.montecarlo", 4), ("cohop.sequences", 4),
-    ("cohop.traffic", 4),
+    ("cohop.traffic", 4), ("cohop.mobility", 4),
     ("cohop.planning", 5),
     ("cohop.jobs", 6),
     ("cohop.api", 7),

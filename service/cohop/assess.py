@@ -200,7 +200,9 @@ def _aligned_exact(prep: PreparedSite, v: int, channels: np.ndarray, x_sys: np.n
 
 
 def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin: str, prefix: np.ndarray,
-                  sizes: np.ndarray, detail: str = "channel", sequences=None) -> SystemFigures:
+                  sizes: np.ndarray, detail: str = "channel", sequences=None, compliance: bool = True) -> SystemFigures:
+    """System v's figures; `compliance` False skips the profile checks (they do not depend on coupling: the
+    per-position figures of systems that move, `cohop.mobility`)."""
     system = prep.site.systems[v]
     channels = hop_sets[v]
     x_sys = system_collisions(prep, v, channels, prefix, sizes)
@@ -217,7 +219,7 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
     attempt_loss = float(retries.combine_independent(attempt_collision, attempt_fade))
     ids = [s.id for a, s in enumerate(prep.site.systems) if a != v] + [i.id for i in prep.site.interferers]
     findings = check_compliance(prep.profile, system, channels, prep.centres_hz[channels], prep.band,
-                                None if sequences is None else sequences[v])
+                                None if sequences is None else sequences[v]) if compliance else ()
     noise = None
     if system.noise_figure_db is not None:
         noise = noise_floor_dbm(system.bandwidth_hz, system.noise_figure_db)

@@ -90,6 +90,8 @@ LINK_DISTANCE_M = Bound(0.01, 1e6, "m", "1 cm to 1000 km (the models use at leas
 REFERENCE_DISTANCE_M = Bound(0.01, 1e4, "m", "log-distance d0: 1 cm to 10 km")
 FLOOR_HEIGHT_M = Bound(1.0, 100.0, "m", "storey height: lower than any storey to a tall hall")
 SURVEY_RADIUS_M = Bound(0.1, 1e4, "m", "how far from a survey's position its trace still stands for a receiver")
+AREA_STEP_M = Bound(0.1, 1e5, "m", "grid step of a moving system's area: finer than a vehicle, coarser than a "
+                                   "whole site")
 FLOOR = Bound(-50, 200, "", "storeys below and above ground")
 
 # --- counts and sizes ---------------------------------------------------------
@@ -123,6 +125,15 @@ CHANNEL_NUMBER_STEP = Bound(1, 1_000_000, "", "the user's channel numbers per gr
 SIMULATION_SEED = Bound(0, 2**63 - 1, "", "the Monte Carlo seed")
 #: Per-channel, per-source entries a "source" detail response may carry.
 MAX_SOURCE_DETAIL_ENTRIES = 500_000
+# --- systems that move (positions, area) ---
+#: Positions listed for one moving system.
+MAX_POSITIONS = 64
+#: Grid points of one system's area (x samples x y samples).
+MAX_AREA_POINTS = 256
+#: Sampled positions of all systems together: each moving system is evaluated once per sampled position.
+MAX_SAMPLED_POSITIONS = 512
+#: Path losses computed between systems: sum over ordered pairs of (positions of a) x (positions of v).
+MAX_POSITION_PAIRS = 2_000_000
 #: Field errors listed in one problem-details answer (the rest are counted in `errors_omitted`).
 MAX_FIELD_ERRORS = 100
 
@@ -145,6 +156,12 @@ CAPS = (
     ("overlapped bursts per packet", MAX_OVERLAPS, MAX_OVERLAPS_REASON),
     ("simulated hops per system", MAX_SIMULATED_HOPS, "sequence_packets x (retry_limit + 1) x hops_per_attempt"),
     ("source-detail entries", MAX_SOURCE_DETAIL_ENTRIES, "per-channel breakdown by source (detail=source)"),
+    ("positions of one system", MAX_POSITIONS, "a rail or route given point by point; use area for more"),
+    ("area grid points of one system", MAX_AREA_POINTS, "x samples x y samples (16 x 16): coarsen step_m"),
+    ("sampled positions in all", MAX_SAMPLED_POSITIONS, "each is one more evaluation of its system as a victim "
+                                                        "(about 3.6 ms on a 79-channel site: 2 s in all)"),
+    ("position pairs", MAX_POSITION_PAIRS, "path losses between systems' positions, evaluated in numpy: "
+                                           "well under a second"),
     ("field errors listed", MAX_FIELD_ERRORS, "per answer; errors_omitted counts the rest"),
 )
 
@@ -185,12 +202,13 @@ FIELDS = (
     (POWER_LOSS_COEFFICIENT, "propagation power_loss_coefficient"),
     (PRIORITY_WEIGHT, "priority_weight"),
     (REPLAN_TOLERANCE, "re-plan mode tolerance"),
-    (COORDINATE_M, "position x_m, y_m"),
+    (COORDINATE_M, "position x_m, y_m; area x_min_m, x_max_m, y_min_m, y_max_m"),
     (LINK_DISTANCE_M, "link_distance_m"),
     (REFERENCE_DISTANCE_M, "propagation reference_distance_m"),
     (FLOOR_HEIGHT_M, "propagation floor_height_m"),
     (SURVEY_RADIUS_M, "survey radius_m"),
-    (FLOOR, "position floor"),
+    (AREA_STEP_M, "area step_m"),
+    (FLOOR, "position floor, area floor"),
     (RETRY_LIMIT, "retry_limit"),
     (HOPS_PER_ATTEMPT, "hops_per_attempt"),
     (TRIALS_PER_SYSTEM, "simulation trials_per_system"),

@@ -9,12 +9,12 @@ position in `site.interferers` (k). Matrices that describe harm are indexed
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from cohop.errors import SiteError
-from cohop.physics import fading, propagation
+from cohop.physics import fading, geometry, propagation
 from cohop.physics.rejection import OFFSET_TOLERANCE, harmful_bound_hz, window_channels
 from cohop.regulatory import get_profile
 from cohop.regulatory.profiles import Profile
@@ -86,21 +86,27 @@ def _distance_m(a: Position, b: Position, floor_height_m: float) -> float:
     return math.sqrt((a.x_m - b.x_m) ** 2 + (a.y_m - b.y_m) ** 2 + dz**2)
 
 
-def path_loss_db(prop: Propagation, frequency_hz: float, distance_m: float, floors: int) -> float:
-    """Median path loss for one link with the site's propagation model.
+def _float_or_array(x, like):
+    return float(x) if np.ndim(like) == 0 else np.asarray(x, dtype=float)
+
+
+def path_loss_db(prop: Propagation, frequency_hz: float, distance_m, floors: int):
+    """Median path loss for one link (a float), or for an array of distances on as many floors apart (an
+    array), with the site's propagation model.
 
     Raises ValueError (with a user-facing message) when the model lacks a
     coefficient it needs.
     """
     per_floor = prop.floor_loss_db
     if prop.model == "free_space":
-        loss = float(propagation.free_space_loss_db(frequency_hz, distance_m))
+        loss = _float_or_array(propagation.free_space_loss_db(frequency_hz, distance_m), distance_m)
         return loss + (per_floor or 0.0) * floors
     if prop.model == "log_distance":
         ref = prop.reference_loss_db
         if ref is None:  # common practice: free-space loss at the reference distance
             ref = float(propagation.free_space_loss_db(frequency_hz, prop.reference_distance_m))
-        loss = float(propagation.log_distance_loss_db(distance_m, prop.exponent, ref, prop.reference_distance_m))
+        loss = _float_or_array(propagation.log_distance_loss_db(distance_m, prop.exponent, ref,
+                                                                 prop.reference_distance_m), distance_m)
         return loss + (per_floor or 0.0) * floors
     if prop.model == "p1238":
         n = prop.power_loss_coefficient
@@ -115,7 +121,7 @@ def path_loss_db(prop: Propagation, frequency_hz: float, distance_m: float, floo
         if lf is None:
             raise ValueError(f"ITU-R P.1238 gives no floor penetration loss for {floors} floor(s), "
                              f"{prop.environment!r} at {frequency_hz / 1e6:.1f} MHz here: set floor_loss_db")
-        return float(propagation.p1238_loss_db(frequency_hz, distance_m, n, lf))
+        return _float_or_array(propagation.p1238_loss_db(frequency_hz, distance_m, n, lf), distance_m)
     raise ValueError(f"unknown propagation model {prop.model!r}")
 
 
@@ -154,11 +160,12 @@ def _coupling(site: Site, f_hz: float) -> tuple[np.ndarray, np.ndarray]:
         if not explicit[a, v] and np.isnan(loss[a, v]):
             loss[a, v] = e.loss_db
     prop = site.coupling.propagation
+    places = [s.sampled_positions() for s in site.systems]  # several for a system that moves
     for a in range(n):
         for v in range(n):
             if a == v or not np.isnan(loss[a, v]):
                 continue  # the rest come from positions (every pair has one or the other: site_rules)
-            path = _link_loss(prop, f_hz, site.systems[a].position, site.systems[v].position, "/coupling/propagation")
+            path = worst_path_loss_db(prop, f_hz, places[a], places[v])
             loss[a, v] = (path - site.systems[a].antenna_gain_dbi - site.systems[v].antenna_gain_dbi
                           - prop.margin_db)
     explicit_any = explicit | explicit.T
@@ -201,7 +208,8 @@ def _interferer_level(site: Site, itf: Interferer, v: int, f_hz: float) -> float
     if victim.id in given:
         return given[victim.id]
     prop = site.coupling.propagation  # given levels or eirp, positions and propagation: site_rules
-    path = _link_loss(prop, f_hz, itf.position, victim.position, "/coupling/propagation")
+    # a moving victim hears the interferer at its nearest (least-loss) position (victim_losses: at each)
+    path = worst_path_loss_db(prop, f_hz, (itf.position,), victim.sampled_positions())
     # the planning margin lowers the computed loss, as for coupling between systems
     return itf.eirp_dbm - (path - prop.margin_db) + victim.antenna_gain_dbi
 
@@ -211,18 +219,23 @@ def _interferer_links(site: Site, wanted: np.ndarray, centres: np.ndarray, f_hz:
     for v, victim in enumerate(site.systems):
         row = []
         for k, itf in enumerate(site.interferers):
-            total = _interferer_level(site, itf, v, f_hz)
-            # share of a wideband emitter's power inside the victim's channel (flat spectrum)
-            width = itf.width_hz
-            share_db = 10 * math.log10(min(1.0, victim.bandwidth_hz / width)) if width > 0 else 0.0
-            overlap = None
-            if itf.burst_s is not None:
-                overlap = random_phase_overlap(victim.packet_airtime_s, itf.burst_s, itf.period_s)
-            link = _link(victim, wanted[v], total + share_db, overlap, itf.activity_fraction)
-            ranges[v, k] = _span_range(centres, itf.low_hz, itf.high_hz, link.bound_hz)
+            link, ranges[v, k] = _interferer_link(victim, wanted[v], itf, _interferer_level(site, itf, v, f_hz),
+                                                  centres)
             row.append(link)
         links.append(tuple(row))
     return tuple(links), ranges
+
+
+def _interferer_link(victim: System, wanted_dbm: float, itf: Interferer, total_dbm: float,
+                     centres: np.ndarray) -> tuple[SourceLink, tuple[int, int]]:
+    # share of a wideband emitter's power inside the victim's channel (flat spectrum)
+    width = itf.width_hz
+    share_db = 10 * math.log10(min(1.0, victim.bandwidth_hz / width)) if width > 0 else 0.0
+    overlap = None
+    if itf.burst_s is not None:
+        overlap = random_phase_overlap(victim.packet_airtime_s, itf.burst_s, itf.period_s)
+    link = _link(victim, wanted_dbm, total_dbm + share_db, overlap, itf.activity_fraction)
+    return link, _span_range(centres, itf.low_hz, itf.high_hz, link.bound_hz)
 
 
 def _span_range(centres: np.ndarray, low_hz: float, high_hz: float, bound_hz: float) -> tuple[int, int]:
@@ -261,3 +274,81 @@ def prepare_site(site: Site) -> PreparedSite:
                         links=links, window=window, overlap_k0=k0, overlap_r=r,
                         activity=np.array([s.activity_fraction for s in site.systems]),
                         interferer_links=ilinks, interferer_range=iranges, derived=tuple(derived))
+
+
+# --- systems that move ----------------------------------------------------------
+
+def position_losses_db(prop: Propagation, f_hz: float, sources: tuple[Position, ...],
+                       victims: tuple[Position, ...]) -> np.ndarray:
+    """Path loss from every source position (rows) to every victim position (columns), margin not applied.
+
+    SiteError when the model lacks a coefficient it needs (an ITU-R P.1238 table entry)."""
+    a = np.array([(p.x_m, p.y_m, p.floor) for p in sources], dtype=float)
+    b = np.array([(p.x_m, p.y_m, p.floor) for p in victims], dtype=float)
+    h = prop.floor_height_m
+    distance = geometry.distances_m(a[:, 0], a[:, 1], a[:, 2] * h, b[:, 0], b[:, 1], b[:, 2] * h)
+    floors = np.abs(a[:, 2][:, None] - b[:, 2][None, :]).astype(int)
+    out = np.empty(distance.shape)
+    for n in np.unique(floors):  # the floor term is one table entry per number of floors crossed
+        here = floors == n
+        try:
+            out[here] = path_loss_db(prop, f_hz, distance[here], int(n))
+        except ValueError as exc:
+            raise SiteError([("/coupling/propagation", str(exc))]) from None
+    return out
+
+
+def worst_path_loss_db(prop: Propagation, f_hz: float, sources: tuple[Position, ...],
+                       victims: tuple[Position, ...]) -> float:
+    """The least path loss over every pair of positions: a moving system coupled where it couples most."""
+    return float(position_losses_db(prop, f_hz, sources, victims).min())
+
+
+def victim_losses(prep: PreparedSite, v: int, places: tuple[Position, ...],
+                  sampled: list[tuple[Position, ...]] | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """For victim v's receiver at each of `places`: the coupling loss from every source (S, P) and the total
+    level of every fixed interferer (K, P). Losses and levels computed from positions take every source at its
+    own worst position towards each place; given ones hold at every place (nan on the diagonal). `sampled`:
+    every system's sampled positions, when the caller has them already."""
+    site, prop = prep.site, prep.site.coupling.propagation
+    victim = site.systems[v]
+    f_mid = float((prep.centres_hz[0] + prep.centres_hz[-1]) / 2)  # as prepare_site
+    loss = np.repeat(prep.coupling_loss_db[:, v][:, None], len(places), axis=1)
+    for a, source in enumerate(site.systems):
+        if a != v and not prep.coupling_explicit[a, v]:
+            here = source.sampled_positions() if sampled is None else sampled[a]
+            path = position_losses_db(prop, f_mid, here, places).min(axis=0)
+            loss[a] = path - source.antenna_gain_dbi - victim.antenna_gain_dbi - prop.margin_db
+    levels = np.empty((len(site.interferers), len(places)))
+    for k, itf in enumerate(site.interferers):
+        given = [lv.level_dbm for lv in itf.levels if lv.system == victim.id]
+        if given:
+            levels[k] = given[0]
+        else:  # as _interferer_level: the planning margin lowers the computed loss
+            path = position_losses_db(prop, f_mid, (itf.position,), places)[0]
+            levels[k] = itf.eirp_dbm - (path - prop.margin_db) + victim.antenna_gain_dbi
+    return loss, levels
+
+
+def victim_at(prep: PreparedSite, v: int, loss_db: np.ndarray, interferer_dbm: np.ndarray) -> PreparedSite:
+    """The prepared site with victim v's incoming coupling losses (S,) and interferer levels (K,) replaced (one
+    column of `victim_losses`): its links, windows and interferer channel ranges rebuilt; nothing else changes."""
+    site, victim = prep.site, prep.site.systems[v]
+    loss, window = prep.coupling_loss_db.copy(), prep.window.copy()
+    loss[:, v] = loss_db
+    links = list(prep.links[v])
+    for a, source in enumerate(site.systems):
+        if a == v:
+            continue
+        old = links[a]
+        links[a] = _link(victim, prep.wanted_dbm[v], source.tx_power_dbm - loss[a, v], old.overlap,
+                         old.activity_fraction, old.aligned)
+        window[v, a] = window_channels(links[a].bound_hz, site.grid.spacing_hz, site.grid.count)
+    ilinks, iranges = list(prep.interferer_links[v]), prep.interferer_range.copy()
+    for k, itf in enumerate(site.interferers):
+        ilinks[k], iranges[v, k] = _interferer_link(victim, prep.wanted_dbm[v], itf, float(interferer_dbm[k]),
+                                                    prep.centres_hz)
+    all_links = prep.links[:v] + (tuple(links),) + prep.links[v + 1:]
+    all_ilinks = prep.interferer_links[:v] + (tuple(ilinks),) + prep.interferer_links[v + 1:]
+    return replace(prep, coupling_loss_db=loss, links=all_links, window=window, interferer_links=all_ilinks,
+                   interferer_range=iranges)

@@ -2,12 +2,16 @@
 
 `cohop.site_rules.load_site` builds these from a request's plain dict (the request schemas
 (`cohop.api.schemas`) delegate to it); the domain reads them. Defaults are defined here once.
-Units are SI and are part of every field name. Nothing here computes physics.
+Units are SI and are part of every field name. Nothing here computes physics (an area's sample points are
+geometry: `cohop.physics.geometry`).
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
+
+from cohop.physics.geometry import rectangle_samples
 
 
 @dataclass(frozen=True)
@@ -56,6 +60,34 @@ class Position:
     floor: int = 0
 
 
+# --- systems that move: several positions, or a sampled rectangle -------------
+
+#: How coupling is taken across a moving system's positions (`Site.mobility_policy`).
+MOBILITY_POLICIES = ("worst", "mean")
+
+
+@dataclass(frozen=True)
+class Area:
+    """Where a system may be: a rectangle on one floor, sampled every `step_m` along x and y, both edges
+    included (`cohop.physics.geometry.axis_samples`)."""
+
+    x_min_m: float
+    x_max_m: float
+    y_min_m: float
+    y_max_m: float
+    step_m: float
+    floor: int = 0
+
+    def points(self) -> tuple[Position, ...]:
+        return _area_points(self)
+
+
+@lru_cache(maxsize=64)  # sampled by the rules and by prepare_site; small: it outlives the request
+def _area_points(area: Area) -> tuple[Position, ...]:
+    xs, ys = rectangle_samples(area.x_min_m, area.x_max_m, area.y_min_m, area.y_max_m, area.step_m)
+    return tuple(Position(float(x), float(y), area.floor) for x, y in zip(xs, ys))
+
+
 @dataclass(frozen=True)
 class System:
     id: str
@@ -78,6 +110,8 @@ class System:
     hops_per_attempt: int = 1
     priority_weight: float = 1.0
     position: Position | None = None
+    positions: tuple[Position, ...] | None = None  # a system that moves: where it may be (instead of position)
+    area: Area | None = None  # ... or a rectangle it moves over, sampled (instead of position)
     time_base_group: str | None = None
     hop_set: tuple[int, ...] | None = None
     sequence: tuple[int, ...] | None = None  # hop order over the hop set (one period), if known
@@ -86,6 +120,19 @@ class System:
     @property
     def eirp_dbm(self) -> float:
         return self.tx_power_dbm + self.antenna_gain_dbi
+
+    def sampled_positions(self) -> tuple[Position, ...]:
+        """Every place the system is evaluated at: its position, its positions, or its area's grid points;
+        empty when it gives none (its coupling is then given explicitly)."""
+        if self.area is not None:
+            return self.area.points()
+        if self.positions is not None:
+            return self.positions
+        return () if self.position is None else (self.position,)
+
+    @property
+    def moves(self) -> bool:
+        return self.area is not None or (self.positions is not None and len(self.positions) > 1)
 
 
 @dataclass(frozen=True)
@@ -194,6 +241,11 @@ class Site:
     name: str = ""
     rms_delay_spread_s: float | None = None  # multipath delay spread; None: the industrial default
     surveys: tuple[Survey, ...] = ()
+    mobility_policy: str = "worst"  # MOBILITY_POLICIES: coupling across a moving system's positions
+
+    @property
+    def has_moving_systems(self) -> bool:
+        return any(s.moves for s in self.systems)
 
     def system_index(self) -> dict[str, int]:
         return {s.id: i for i, s in enumerate(self.systems)}

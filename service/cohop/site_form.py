@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from typing import Mapping
 
-from cohop.site import (Band, Coupling, CouplingEntry, Fading, Grid, Interferer, InterfererLevel, Position,
+from cohop.site import (Area, Band, Coupling, CouplingEntry, Fading, Grid, Interferer, InterfererLevel, Position,
                         Propagation, RejectionPoint, Site, Survey, System)
 
 
@@ -23,6 +23,10 @@ def system_from(d: Mapping) -> System:
     if fading is not None:  # the model's name alone is shorthand for {"model": name}
         d["fading"] = Fading(model=fading) if isinstance(fading, str) else Fading(**fading)
     d["position"] = _position(d.get("position"))
+    if d.get("positions") is not None:  # a system that moves
+        d["positions"] = tuple(Position(**p) for p in d["positions"])
+    if d.get("area") is not None:
+        d["area"] = Area(**d["area"])
     if d.get("sequence") is not None:
         d["sequence"] = tuple(d["sequence"])
         if d.get("hop_set") is None:  # the hop set of a sequence is its channels
@@ -63,6 +67,8 @@ def survey_from(d: Mapping) -> Survey:
 def site_from(d: Mapping) -> Site:
     """The Site a request-form dict describes (no rule checked; defaults are the dataclasses')."""
     plain = {k: d[k] for k in ("profile", "name", "rms_delay_spread_s") if k in d}
+    if d.get("mobility_policy") is not None:  # systems that move
+        plain["mobility_policy"] = d["mobility_policy"]
     return Site(**plain, grid=Grid(**d["grid"]), band=None if d.get("band") is None else Band(**d["band"]),
                 systems=tuple(system_from(s) for s in d["systems"]), coupling=coupling_from(d.get("coupling")),
                 interferers=tuple(interferer_from(i) for i in d.get("interferers") or ()),

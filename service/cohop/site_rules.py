@@ -32,7 +32,8 @@ from typing import Iterable, Mapping
 from cohop import limits
 from cohop.errors import SiteError
 from cohop.regulatory import PROFILES
-from cohop.site import Band, Coupling, Grid, Site, Survey, System
+from cohop.physics.geometry import axis_sample_count
+from cohop.site import MOBILITY_POLICIES, Band, Coupling, Grid, Site, Survey, System
 from cohop.site_form import site_from
 
 Problem = tuple[tuple, str]
@@ -88,12 +89,41 @@ def system_problems(d: Mapping) -> list[Problem]:
             out.append((("rejection", i, "offset_hz"), "Offsets must increase."))
         if table[i]["rejection_db"] < table[i - 1]["rejection_db"]:
             out.append((("rejection", i, "rejection_db"), "Rejection must not decrease with offset."))
+    out += placement_problems(d)
     hs, seq = d.get("hop_set"), d.get("sequence")
     if hs is not None and len(set(hs)) != len(hs):
         out.append((("hop_set",), "Channels must not repeat."))
     if seq is not None and hs is not None and set(seq) != set(hs):
         out.append((("sequence",), "Must visit exactly the channels of hop_set."))
     return out
+
+
+# systems that move: where a system is -------------------------------------
+
+PLACEMENTS = ("position", "positions", "area")
+
+
+def area_point_count(d: Mapping) -> int:
+    """Grid points of an area in request form (`cohop.site.Area.points` builds them)."""
+    return (axis_sample_count(d["x_min_m"], d["x_max_m"], d["step_m"])
+            * axis_sample_count(d["y_min_m"], d["y_max_m"], d["step_m"]))
+
+
+def area_problems(d: Mapping) -> list[Problem]:
+    out = [((f"{axis}_max_m",), f"Must not be below {axis}_min_m.")
+           for axis in ("x", "y") if d[f"{axis}_max_m"] < d[f"{axis}_min_m"]]
+    if not out and (n := area_point_count(d)) > limits.MAX_AREA_POINTS:
+        out.append((("step_m",), f"The area is sampled at {n} grid points; at most {limits.MAX_AREA_POINTS}: "
+                                 "raise step_m or give positions."))
+    return out
+
+
+def placement_problems(d: Mapping) -> list[Problem]:
+    """A system is at one position, at several (it moves), over an area (sampled), or nowhere given."""
+    given = [name for name in PLACEMENTS if d.get(name) is not None]
+    if len(given) > 1:
+        return [((given[1],), "Give at most one of position, positions and area.")]
+    return under(("area",), area_problems(d["area"])) if given == ["area"] else []
 
 
 def propagation_problems(d: Mapping) -> list[Problem]:
@@ -169,10 +199,14 @@ def object_problems(d: Mapping) -> list[Problem]:
 # --- surveys: whose receivers a trace stands for ------------------------------
 
 def survey_distance_m(survey: Survey, system: System) -> float | None:
-    """Horizontal distance from a position survey to a system's receivers; None off its floor or unknown."""
-    if survey.position is None or system.position is None or system.position.floor != survey.position.floor:
+    """Horizontal distance from a position survey to a system's receivers (the nearest of a moving system's
+    positions on the survey's floor); None off its floor or unknown."""
+    if survey.position is None:
         return None
-    return math.hypot(system.position.x_m - survey.position.x_m, system.position.y_m - survey.position.y_m)
+    here = [p for p in system.sampled_positions() if p.floor == survey.position.floor]
+    if not here:
+        return None
+    return min(math.hypot(p.x_m - survey.position.x_m, p.y_m - survey.position.y_m) for p in here)
 
 
 def stands_for(survey: Survey, systems: tuple[System, ...]) -> tuple[str, ...]:
@@ -357,6 +391,22 @@ def _survey_totals(surveys, systems: tuple, channel_count: int) -> list[Problem]
     return []
 
 
+def _mobility(site: Site) -> list[Problem]:
+    """A known policy, and the work caps of moving systems: sampled positions and position pairs."""
+    if site.mobility_policy not in MOBILITY_POLICIES:
+        return [(("mobility_policy",), f"Unknown policy {site.mobility_policy!r}; one of {MOBILITY_POLICIES}.")]
+    counts = [len(s.sampled_positions()) for s in site.systems]
+    total = sum(counts)
+    if total > limits.MAX_SAMPLED_POSITIONS:
+        return [(("systems",), f"The systems hold {total} sampled positions together; at most "
+                               f"{limits.MAX_SAMPLED_POSITIONS}: give fewer positions or coarser areas.")]
+    pairs = total * total - sum(n * n for n in counts)
+    if pairs > limits.MAX_POSITION_PAIRS:
+        return [(("systems",), f"Coupling between the systems' positions takes {pairs} path losses; at most "
+                               f"{limits.MAX_POSITION_PAIRS}: give fewer positions or coarser areas.")]
+    return []
+
+
 def _consistency(site: Site) -> list[Problem]:
     out, ids = _ids(site.systems, site.interferers)
     band = _band(site)
@@ -369,6 +419,7 @@ def _consistency(site: Site) -> list[Problem]:
     out += _surveys(site.surveys, ids, site.systems)
     out += _overlaps(site.systems, site.interferers)
     out += _survey_totals(site.surveys, site.systems, site.grid.count)
+    out += _mobility(site)
     return out
 
 
@@ -380,12 +431,12 @@ def _missing_coupling(site: Site) -> list[Problem]:
     prop = site.coupling.propagation
     missing = [f"{a.id}->{v.id}" for a in site.systems for v in site.systems
                if a is not v and (a.id, v.id) not in given
-               and (prop is None or a.position is None or v.position is None)]
+               and (prop is None or not a.sampled_positions() or not v.sampled_positions())]
     if not missing:
         return []
     more = f" and {len(missing) - 10} more" if len(missing) > 10 else ""
     return [(("coupling",), f"no coupling loss for {', '.join(missing[:10])}{more}: give an entry, or positions "
-                            "for both systems and a propagation model")]
+                            "(position, positions or area) for both systems and a propagation model")]
 
 
 def _missing_levels(site: Site) -> list[Problem]:
@@ -394,7 +445,7 @@ def _missing_levels(site: Site) -> list[Problem]:
     for k, itf in enumerate(site.interferers):
         given = {lv.system for lv in itf.levels}
         computable = itf.eirp_dbm is not None and itf.position is not None and prop is not None
-        missing = [s.id for s in site.systems if s.id not in given and not (computable and s.position is not None)]
+        missing = [s.id for s in site.systems if s.id not in given and not (computable and s.sampled_positions())]
         if missing:
             names = ", ".join(repr(m) for m in missing[:10]) + (f" and {len(missing) - 10} more"
                                                                 if len(missing) > 10 else "")

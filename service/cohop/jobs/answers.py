@@ -17,6 +17,7 @@ from cohop.assess import Assessment, SystemFigures
 from cohop.cautions import MODEL_ASSUMPTIONS, cautions_for
 from cohop.errors import SiteError
 from cohop.jobs.sequence_answers import SequencesAnswer
+from cohop.mobility import MOBILITY_ASSUMPTION, SystemMobility, mobility_figures
 from cohop.montecarlo import SimulatedRate, SiteSimulation
 from cohop.prepare import PreparedSite, prepare_site
 from cohop.regulatory.profiles import Profile
@@ -71,6 +72,7 @@ class SystemResult:
     figures: SystemFigures
     system: System
     compliance: Compliance
+    mobility: SystemMobility | None = None  # sites with a moving system (cohop.mobility)
 
 
 @dataclass(frozen=True)
@@ -121,14 +123,18 @@ def simulation_check(sim: SiteSimulation, assessment: Assessment) -> SimulationC
 
 
 def assessment_answer(assessment: Assessment, caution: bool, simulation: SiteSimulation | None = None,
-                      sequences=None) -> AssessmentAnswer:
+                      sequences=None, hop_orders=None) -> AssessmentAnswer:
+    """`hop_orders`: the sequences the assessment used (one per system, or None), for the figures of moving
+    systems at each position."""
     prep = assessment.prepared
+    mobility = mobility_figures(assessment, hop_orders) or (None,) * len(assessment.systems)
     systems = tuple(SystemResult(f, prep.site.systems[f.index],
-                                 Compliance(prep.profile.id, compliance_status(f.compliance), f.compliance))
-                    for f in assessment.systems)
+                                 Compliance(prep.profile.id, compliance_status(f.compliance), f.compliance), m)
+                    for f, m in zip(assessment.systems, mobility))
+    assumptions = MODEL_ASSUMPTIONS + ((MOBILITY_ASSUMPTION,) if prep.site.has_moving_systems else ())
     return AssessmentAnswer(assessment=assessment, cautions=tuple(cautions_for(caution)), systems=systems,
                             simulation=None if simulation is None else simulation_check(simulation, assessment),
-                            sequences=sequences)
+                            sequences=sequences, assumptions=assumptions)
 
 
 @dataclass(frozen=True)

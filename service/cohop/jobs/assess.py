@@ -37,11 +37,12 @@ def run_assessment(req: AssessmentRequest, max_simulated_attempts: int) -> Asses
     except SiteError as err:
         raise err.under("/site") from None
     _check_caps(req, sets, max_simulated_attempts)
-    assessment = assess_hop_sets(prep, sets, origins, req.detail, site_sequences(prep))
+    hop_orders = site_sequences(prep)
+    assessment = assess_hop_sets(prep, sets, origins, req.detail, hop_orders)
     simulation = None
     if req.simulation is not None:
         simulation = simulate_site(prep, req.simulation.trials_per_system, req.simulation.seed, sets)
     seed = req.simulation.seed if req.simulation is not None else 0
     outcome = given_sequences(prep, DEFAULT_PACKETS, seed)
     sequences = None if outcome is None else sequences_answer(outcome, assessment)
-    return assessment_answer(assessment, coordination_caution(prep.profile), simulation, sequences)
+    return assessment_answer(assessment, coordination_caution(prep.profile), simulation, sequences, hop_orders)

@@ -75,7 +75,8 @@ def plan_answer(result: PlanResult) -> PlanAnswer:
     caution = coordination_caution(prep.profile, coordination, result.sequences) or (
         independent is not None and independent.joint_plan is not None and coordination_caution(prep.profile, "joint"))
     sequences = None if result.sequences is None else sequences_answer(result.sequences, result.assessment)
-    assessment = assessment_answer(result.assessment, caution)
+    orders = None if result.sequences is None else result.sequences.orders  # for moving systems' figures
+    assessment = assessment_answer(result.assessment, caution, hop_orders=orders)
     return PlanAnswer(result=result, coordination=coordination, cautions=assessment.cautions,
                       plan=planned_systems(prep, result.hop_sets), sequences=sequences, assessment=assessment,
                       baselines=tuple(baseline_answer(b) for b in result.baselines),

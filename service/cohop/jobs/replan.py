@@ -62,7 +62,8 @@ def _changes(result: ReplanResult) -> tuple[SystemChange, ...]:
 def replan_answer(result: ReplanResult, mode: ReplanMode) -> ReplanAnswer:
     prep = result.assessment.prepared
     caution = coordination_caution(prep.profile, result.instance.req.coordination, result.sequences)
-    assessment = assessment_answer(result.assessment, caution)
+    orders = None if result.sequences is None else result.sequences.orders  # for moving systems' figures
+    assessment = assessment_answer(result.assessment, caution, hop_orders=orders)
     return ReplanAnswer(result=result, mode=mode, cautions=assessment.cautions,
                         evaluated_objective=evaluated_objective(result.instance, result.assessment),
                         plan=planned_systems(prep, result.hop_sets), diff=_changes(result),

@@ -7,6 +7,7 @@ from marshmallow import fields, post_load, validate
 from cohop import limits
 from cohop.api.schemas.dump import DictOrAbsent, FiniteOrNull, Length, Part
 from cohop.api.schemas.fields import Count, Text, default
+from cohop.api.schemas.mobility import MobilitySchema
 from cohop.api.schemas.sequences import SequencesSchema
 from cohop.api.schemas.site import SiteSchema, StrictSchema
 from cohop.assess import DETAIL_LEVELS
@@ -131,6 +132,9 @@ class SystemResultSchema(StrictSchema):  # cohop.jobs.answers.SystemResult
     sources = fields.List(fields.Nested(SourceSchema), attribute="figures.sources")
     channels = fields.List(fields.Nested(ChannelSchema), attribute="figures.channels")
     compliance = fields.Nested(ComplianceSchema)
+    mobility = fields.Nested(MobilitySchema, allow_none=True, metadata={
+        "description": "Sites with a system that moves: the figures across its positions and where it is worst "
+                       "off (null otherwise)"})
 
 
 class SummarySchema(StrictSchema):  # cohop.assess.Assessment

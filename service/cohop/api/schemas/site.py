@@ -15,7 +15,7 @@ from marshmallow import fields, post_load, pre_load, validate, validates_schema
 from cohop import limits, site_rules
 from cohop.api.schemas.fields import IDENTIFIER, Count, Flag, List, Number, Text, default
 from cohop.regulatory import PROFILES
-from cohop.site import Grid, Interferer, Position, Propagation, Site, Survey, System
+from cohop.site import MOBILITY_POLICIES, Area, Grid, Interferer, Position, Propagation, Site, Survey, System
 from cohop.site_form import site_from
 
 FADING_MODELS = ("rayleigh", "rician", "none")
@@ -134,6 +134,20 @@ class PositionSchema(StrictSchema):
     floor = Count(limits.FLOOR, load_default=default(Position, "floor"))
 
 
+class AreaSchema(StrictSchema):  # a moving system's rectangle, sampled on a grid
+    x_min_m = Number(limits.COORDINATE_M, required=True)
+    x_max_m = Number(limits.COORDINATE_M, required=True)
+    y_min_m = Number(limits.COORDINATE_M, required=True)
+    y_max_m = Number(limits.COORDINATE_M, required=True)
+    step_m = Number(limits.AREA_STEP_M, required=True, metadata={
+        "description": "Grid step along x and y; both edges are sampled too, so points are at most step_m apart."})
+    floor = Count(limits.FLOOR, load_default=default(Area, "floor"))
+
+    @validates_schema
+    def _rules(self, data, **kwargs):
+        raise_problems(site_rules.area_problems(data))
+
+
 class SystemSchema(StrictSchema):
     id = Text(required=True, validate=IDENTIFIER)
     label = Text(load_default=default(System, "label"), validate=validate.Length(max=limits.MAX_TEXT_CHARS))
@@ -164,6 +178,11 @@ class SystemSchema(StrictSchema):
                              metadata={"description": "Hops one attempt needs (e.g. 2 for data and acknowledgement)."})
     priority_weight = Number(limits.PRIORITY_WEIGHT, load_default=default(System, "priority_weight"))
     position = fields.Nested(PositionSchema, load_default=None)
+    positions = List(fields.Nested(PositionSchema), load_default=None, min_length=1, max_length=limits.MAX_POSITIONS,
+                     metadata={"description": "A system that moves: the places it may be (instead of position); "
+                                              "coupling follows the site's mobility_policy."})
+    area = fields.Nested(AreaSchema, load_default=None, metadata={
+        "description": "A system that moves over a rectangle, sampled every step_m (instead of position)."})
     time_base_group = Text(load_default=None, validate=IDENTIFIER,
                            metadata={"description": "Systems in one group have slot-aligned dwells."})
     hop_set = List(channel_index(), load_default=None, min_length=1, max_length=limits.MAX_CHANNELS,
@@ -295,6 +314,11 @@ class SiteSchema(StrictSchema):
     interferers = List(fields.Nested(InterfererSchema), load_default=list, max_length=limits.MAX_INTERFERERS)
     surveys = List(fields.Nested(SurveySchema), load_default=list, max_length=limits.MAX_SURVEYS,
                           metadata={"description": "Measured spectrum traces; each becomes fixed interferers"})
+    mobility_policy = Text(load_default=default(Site, "mobility_policy"), validate=validate.OneOf(MOBILITY_POLICIES),
+                           metadata={"description": "Systems that move: worst (each pair coupled at its worst "
+                                                    "position pair; for safety-related links) or mean (figures "
+                                                    "averaged over each moving system's positions, the worst "
+                                                    "beside). Planning always uses the worst."})
     rms_delay_spread_s = Number(limits.DELAY_SPREAD_S, load_default=None, metadata={
         "description": "RMS multipath delay spread (default 100 ns, the median Rappaport measured in factories); "
                        "sets the consecutive-hop spacing and fading correlation."})
