@@ -21,7 +21,6 @@ from cohop.charts._mpl import (ADDED, CAUTION, DROPPED, HIT_COLOURS, INTERFERER,
                                SOURCE_COLOURS, USED_NOW, pyplot, save)
 
 LABEL_PT = 7.0
-CHAR_EM = 0.62  # a character's width in ems (DejaVu Sans, a little generous so that packed labels never touch)
 
 
 def _title(site: dict, answer: dict) -> str:
@@ -104,40 +103,52 @@ def _to_index(grid: dict, f_hz: float) -> float:
     return (f_hz - grid["first_centre_hz"]) / grid["spacing_hz"]
 
 
-def _draw_interferers(plt, lane_ax, row_ax, site, spans, x_per_pt):
-    """Bars and labels in lanes: each item's extent is its bar or its label, whichever reaches further."""
+def _draw_interferers(plt, fig, lane_ax, row_ax, site, spans):
+    """Bars and labels in lanes: each item spans its bar and its label as the renderer measures it.
+
+    Call once the figure's layout is settled (widths do not depend on the lanes). A label that would run
+    past the band's right edge ends at its bar's end instead.
+    """
     grid = site["grid"]
-    items = []
-    labelled = set()
+    renderer = fig.canvas.get_renderer()
+    x_lo, x_hi = lane_ax.get_xlim()
+    per_px = (x_hi - x_lo) / lane_ax.get_window_extent(renderer).width
+    items, labelled = [], set()
     for s in spans:
         x0, x1 = _to_index(grid, s.low_hz), _to_index(grid, s.high_hz)
         x1 = max(x1, x0 + 0.5)
-        text = ("NEW " if s.new else "") + s.id
-        if s.derived and s.id in labelled:
-            text = ""
+        text = "" if s.derived and s.id in labelled else ("NEW " if s.new else "") + s.id
         labelled.add(s.id)
-        reach = x0 + (len(text) * CHAR_EM * LABEL_PT * x_per_pt if text else 0.0)
-        items.append((s, x0, x1, text, max(x1, reach)))
-    lanes = data.pack_lanes([(x0, end) for _, x0, _, _, end in items], gap=1.0)
+        label = None
+        if text:
+            label = lane_ax.text(x0, 0, text, fontsize=LABEL_PT, va="bottom", ha="left", clip_on=False,
+                                 fontweight="bold" if s.new else "normal", color=NEW_INTERFERER if s.new else "#22223b",
+                                 gid=f"label:{s.id}")
+            width = label.get_window_extent(renderer).width * per_px
+            if x0 + width > x_hi:
+                anchor = min(x1, x_hi)
+                label.set_horizontalalignment("right")
+                label.set_x(anchor)
+                lo, hi = min(x0, anchor - width), max(x1, anchor)
+            else:
+                lo, hi = x0, max(x1, x0 + width)
+        else:
+            lo, hi = x0, x1
+        items.append((s, x0, x1, label, lo, hi))
+    lanes = data.pack_lanes([(lo, hi) for *_, lo, hi in items], gap=6 * per_px)
     n_lanes = max(lanes, default=-1) + 1
-    for (s, x0, x1, text, _), lane in zip(items, lanes):
+    for (s, x0, x1, label, _, _), lane in zip(items, lanes):
         y = n_lanes - 1 - lane
         colour = NEW_INTERFERER if s.new else INTERFERER
         lane_ax.add_patch(plt.Rectangle((x0, y + 0.08), x1 - x0, 0.34, facecolor=colour,
                                         alpha=0.35 if s.derived else 0.8, hatch="////" if s.derived else None,
                                         edgecolor=colour if s.new else "none", linewidth=1.5,
                                         gid=f"interferer:{s.id}"))
-        if text:
-            lane_ax.text(x0, y + 0.5, text, fontsize=LABEL_PT, va="bottom", ha="left", clip_on=False,
-                         fontweight="bold" if s.new else "normal", color=colour if s.new else "#22223b",
-                         gid=f"label:{s.id}")
+        if label is not None:
+            label.set_y(y + 0.5)
         if s.new:
             row_ax.axvspan(x0, x1, color=NEW_INTERFERER, alpha=0.10, zorder=0.5, linewidth=0)
     lane_ax.set_ylim(0, max(n_lanes, 1) + 0.05)
-    lane_ax.set_yticks([])
-    lane_ax.set_ylabel("interferers", fontsize=LABEL_PT, rotation=0, ha="right", va="center")
-    for side in ("left", "right", "bottom"):
-        lane_ax.spines[side].set_visible(False)
     return n_lanes
 
 
@@ -189,9 +200,6 @@ def channel_map(site: dict, answer: dict, path: str | Path | None = None, width_
     corner.text(0.0, 1.0, textwrap.fill(CAUTION, 44), fontsize=5.5, va="top", ha="left", color="#555555",
                 transform=corner.transAxes, gid="caution")
     x_lo, x_hi = -1.0, grid["count"]
-    main_width_pt = width_in * 72 * 4.2 / 5.8 * 0.86
-    n_lanes = _draw_interferers(plt, lane_ax, ax, site, spans, (x_hi - x_lo) / main_width_pt)
-    outer.set_height_ratios([0.6 * max(n_lanes, 1) + 0.8, max(3, len(rows))])
     source_colour = _draw_rows(plt, ax, site, rows, kind, dominant)
     ax.set_xlim(x_lo, x_hi)
     ax.set_ylim(len(rows) - 0.5, -0.5)
@@ -219,5 +227,12 @@ def channel_map(site: dict, answer: dict, path: str | Path | None = None, width_
     fig.legend(handles=handles, loc="outside lower center", ncol=min(5, len(handles)), fontsize=LABEL_PT,
                frameon=False)
     fig.suptitle(_title(site, answer), fontsize=LABEL_PT + 3, x=0.01, ha="left")
+    lane_ax.set_yticks([])
+    lane_ax.set_ylabel("interferers", fontsize=LABEL_PT, rotation=0, ha="right", va="center")
+    for side in ("left", "right", "bottom"):
+        lane_ax.spines[side].set_visible(False)
+    fig.canvas.draw()  # settles the layout, so that labels can be measured
+    n_lanes = _draw_interferers(plt, fig, lane_ax, ax, site, spans)
+    outer.set_height_ratios([0.6 * max(n_lanes, 1) + 0.8, max(3, len(rows))])
     save(fig, path, dpi)
     return fig

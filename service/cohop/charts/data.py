@@ -37,8 +37,8 @@ def hit_bin(p: float) -> int:
 
 
 def bin_label(k: int) -> str:
-    lo, hi = HIT_BINS[k], HIT_BINS[k + 1]
-    return f"< {pct(hi)}" if k == 0 else f"{pct(lo)} - {pct(hi)}"
+    lo, hi = (f"{100 * p:g} %" for p in HIT_BINS[k:k + 2])
+    return f"< {hi}" if k == 0 else f"{lo} - {hi}"
 
 
 def pct(p: float) -> str:
