@@ -77,10 +77,11 @@ def site_map(site: dict, answer: dict, path: str | Path | None = None, width_in:
     pad = 0.12 * max(max(xs) - min(xs), max(ys) - min(ys), 10.0)
     ax.set_xlim(min(xs) - pad, max(xs) + pad)
     ax.set_ylim(min(ys) - pad, max(ys) + pad)
-    ax.set_aspect("equal", adjustable="datalim")
+    ax.set_aspect("equal", adjustable="box")
     ax.set_xlabel("x [m]", fontsize=LABEL_PT + 1)
     ax.set_ylabel("y [m]", fontsize=LABEL_PT + 1)
     ax.tick_params(labelsize=LABEL_PT)
+    ax.tick_params(axis="x", pad=7)  # clears the lowest y label at the corner
     ax.grid(color="#eeeeee", linewidth=0.6)
     fig.canvas.draw()  # fixes the limits the labels are measured against
     _place_labels(fig, ax, [(("NEW " if k in new else "") + k, *v) for k, v in where.items()])
