@@ -37,8 +37,13 @@ def hit_bin(p: float) -> int:
 
 
 def bin_label(k: int) -> str:
-    lo, hi = (f"{100 * p:g} %" for p in HIT_BINS[k:k + 2])
+    lo, hi = (edge_pct(p) for p in HIT_BINS[k:k + 2])
     return f"< {hi}" if k == 0 else f"{lo} - {hi}"
+
+
+def edge_pct(p: float) -> str:
+    """A class edge as a percentage, as short as it goes (0.001 -> '0.1 %')."""
+    return f"{100 * p:g} %"
 
 
 def pct(p: float) -> str:

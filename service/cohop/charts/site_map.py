@@ -92,7 +92,8 @@ def site_map(site: dict, answer: dict, path: str | Path | None = None, width_in:
                               label="new interferer"))
     for k, (colour, lw) in enumerate(PAIR_STYLE):
         hi = data.PAIR_CLASSES[k + 1] if k + 1 < len(data.PAIR_CLASSES) else None
-        span = f"{data.pct(data.PAIR_CLASSES[k])} - {data.pct(hi)}" if hi else f">= {data.pct(data.PAIR_CLASSES[k])}"
+        lo = data.edge_pct(data.PAIR_CLASSES[k])
+        span = f"{lo} - {data.edge_pct(hi)}" if hi else f">= {lo}"
         handles.append(Line2D([], [], color=colour, lw=lw, label=f"source -> victim, hit {span} per hop"))
     fig.legend(handles=handles, loc="outside lower center", ncol=3, fontsize=LABEL_PT, frameon=False)
     unplaced = [s["id"] for s in site.get("systems", []) + site.get("interferers", []) if s["id"] not in where]
