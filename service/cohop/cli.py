@@ -80,6 +80,24 @@ def _chart(args, body: dict, raw: dict) -> None:
     print(f"chart written to {args.chart}", file=sys.stderr)
 
 
+def _report(args, body: dict, raw: dict) -> None:
+    """--report FILE.html: the self-contained HTML report of this answer."""
+    if not getattr(args, "report", None):
+        return
+    from cohop.report import write_report
+
+    try:
+        write_report(args.report, body, raw)
+    except OSError as err:
+        raise SystemExit(f"cohop: could not write {args.report}: {err.strerror}")
+    print(f"report written to {args.report}", file=sys.stderr)
+
+
+def _pictures_detail(args) -> str | None:
+    """Charts and reports shade each channel: without a --detail, ask for the per-channel figures."""
+    return "channel" if getattr(args, "chart", None) or getattr(args, "report", None) else None
+
+
 def _load_request(args) -> dict:
     if args.site is not None:
         body = _read_json(args.site, "site")
@@ -105,12 +123,13 @@ def _cmd_assess(args) -> int:
     simulation = body.get("simulation")
     if args.trials is not None:
         simulation = {"trials_per_system": args.trials, "seed": args.seed}
-    detail = args.detail or body.get("detail")
+    detail = args.detail or body.get("detail") or _pictures_detail(args)
     with _client(args) as api:
         if simulation:
             print("simulating...", file=sys.stderr, flush=True)
         result = api.assess(body["site"], simulation=simulation, detail=detail)
     _chart(args, body, result.raw)
+    _report(args, body, result.raw)
     return _emit(args, result.raw, assessment_table(result))
 
 
@@ -152,10 +171,11 @@ def _cmd_plan(args) -> int:
     with _client(args, config) as api:
         try:
             result = api.plan(body["site"], requirements=requirements or None, search=search or None,
-                              baselines=baselines, detail=args.detail or body.get("detail"))
+                              baselines=baselines, detail=args.detail or body.get("detail") or _pictures_detail(args))
         finally:
             line.finish()
     _chart(args, body, result.raw)
+    _report(args, body, result.raw)
     return _emit(args, result.raw, plan_table(result))
 
 
@@ -189,8 +209,9 @@ def _cmd_replan(args) -> int:
         search["time_limit_s"] = args.time_limit
     with _client(args, {"COHOP_SOLVER_THREADS": args.workers}) as api:
         result = api.replan(body["site"], current, mode=mode or None, requirements=body.get("requirements"),
-                            search=search or None, detail=body.get("detail"))
+                            search=search or None, detail=body.get("detail") or _pictures_detail(args))
     _chart(args, body, result.raw)
+    _report(args, body, result.raw)
     return _emit(args, result.raw, replan_table(result))
 
 
@@ -240,6 +261,8 @@ def _outputs(p: argparse.ArgumentParser) -> None:
                    "(columns frequency_hz, level_dbm[, occupancy_fraction]; '# key: value' lines for its fields)")
     p.add_argument("--chart", metavar="FILE", help="also draw a channel map to FILE (.png or .svg)")
     p.add_argument("--chart-size", default="11x6", metavar="WxH", help="chart size in inches (default 11x6)")
+    p.add_argument("--report", metavar="FILE.html", help="also write a self-contained HTML report (inputs, plan, "
+                   "figures, compliance, baselines, charts, cautions) to FILE.html")
 
 
 def _common(p: argparse.ArgumentParser) -> None:
