@@ -247,7 +247,9 @@ def _cmd_serve(args) -> int:
         from cohop.api import create_app
 
         print(f"cohop development server on http://{args.host}:{args.port} (not for production)", file=sys.stderr)
-        create_app().run(host=args.host, port=args.port)
+        from cohop.report import install
+
+        install(create_app()).run(host=args.host, port=args.port)
         return 0
     try:
         from cohop.server import main as serve

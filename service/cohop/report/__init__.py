@@ -70,3 +70,9 @@ def render_report(body: dict, answer: dict, charts: bool = True) -> str:
 
 def write_report(path: str | Path, body: dict, answer: dict) -> None:
     Path(path).write_text(render_report(body, answer), encoding="utf-8")
+
+
+def install(app):
+    """Let `app` answer `?format=html` with this report (`cohop.api.answer_formats`); returns the app."""
+    app.config["COHOP_REPORT_RENDERER"] = render_report
+    return app
