@@ -64,3 +64,4 @@ class HtmlFormatPlugin(BasePlugin):
         ok = responses.get("200", responses.get(200))
         if isinstance(ok, dict):
             ok.setdefault("content", {})["text/html"] = {"schema": {"type": "string"}}
+        responses.setdefault("406", "NOT_ACCEPTABLE")
