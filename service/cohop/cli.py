@@ -74,7 +74,7 @@ def _chart(args, body: dict, raw: dict) -> None:
     except ValueError:
         raise SystemExit(f"cohop: --chart-size wants WIDTHxHEIGHT in inches, not {args.chart_size!r}")
     try:
-        channel_map(body["site"], raw, args.chart, width, height)
+        channel_map(body["site"], raw, args.chart, width, height, dominant=getattr(args, "dominant", False))
     except PlotUnavailable as err:
         raise SystemExit(f"cohop: {err}")
     print(f"chart written to {args.chart}", file=sys.stderr)
@@ -263,6 +263,8 @@ def _outputs(p: argparse.ArgumentParser) -> None:
                    "(columns frequency_hz, level_dbm[, occupancy_fraction]; '# key: value' lines for its fields)")
     p.add_argument("--chart", metavar="FILE", help="also draw a channel map to FILE (.png or .svg)")
     p.add_argument("--chart-size", default="11x6", metavar="WxH", help="chart size in inches (default 11x6)")
+    p.add_argument("--dominant", action="store_true", help="in the chart, also show under each row the source "
+                   "that hits each channel most")
     p.add_argument("--report", metavar="FILE.html", help="also write a self-contained HTML report (inputs, plan, "
                    "figures, compliance, baselines, charts, cautions) to FILE.html")
 
@@ -322,6 +324,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("answer", help="the answer JSON (assessment, plan or re-plan)")
     p.add_argument("--out", required=True, metavar="FILE", help=".png or .svg")
     p.add_argument("--chart-size", default="11x6", metavar="WxH")
+    p.add_argument("--dominant", action="store_true", help="also show the source that hits each channel most")
     p.set_defaults(func=_cmd_chart)
     p = sub.add_parser("profiles", help="list the regulatory profiles and their rules")
     _common(p)

@@ -28,3 +28,12 @@ def test_replan_writes_a_report(capsys, tmp_path):
 def test_an_unwritable_report_path_is_a_message_not_a_traceback(capsys, tmp_path):
     code, _, err = run_cli(capsys, "assess", "--report", str(tmp_path / "missing" / "r.html"))
     assert code not in (0, None) and "could not write" in str(code) + err
+
+
+def test_chart_dominant_draws_the_source_strip(capsys, tmp_path):
+    path = tmp_path / "map.svg"
+    code, _, err = run_cli(capsys, "assess", "--sample", "container_terminal_eu2400", "--chart", str(path),
+                           "--dominant")
+    assert code == 0, err
+    svg = path.read_text(encoding="utf-8")
+    assert 'id="dominant:sts-1"' in svg and 'id="row:sts-1"' in svg
