@@ -42,3 +42,11 @@ def replanned() -> tuple[dict, dict]:
     body = copy.deepcopy(samples.load("water_works_replan"))
     body.update(detail="channel", search=FAST_SEARCH)
     return body, _post("/v1/replans", body)
+
+
+@functools.lru_cache(maxsize=None)
+def replan_report() -> str:
+    """The re-plan sample's HTML report (charts included), rendered once."""
+    from cohop.report import render_report
+
+    return render_report(*replanned())

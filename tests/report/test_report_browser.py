@@ -13,8 +13,7 @@ import numpy as np
 import pytest
 
 from cohop.charts._mpl import HIT_COLOURS
-from cohop.report import render_report
-from tests.charts.answers import replanned
+from tests.charts.answers import replan_report
 from tests.report import browser
 
 pytestmark = pytest.mark.browser
@@ -44,9 +43,8 @@ def chromium():
 
 @pytest.fixture(scope="module")
 def page(tmp_path_factory):
-    body, answer = replanned()
     path = tmp_path_factory.mktemp("report") / "replan.html"
-    path.write_text(render_report(body, answer), encoding="utf-8")
+    path.write_text(replan_report(), encoding="utf-8")
     return path
 
 

@@ -69,7 +69,9 @@ def render_report(body: dict, answer: dict, charts: bool = True) -> str:
 
 
 def write_report(path: str | Path, body: dict, answer: dict) -> None:
-    Path(path).write_text(render_report(body, answer), encoding="utf-8")
+    """Render the report into `path` (opened first, so that an unwritable path fails before any drawing)."""
+    with Path(path).open("w", encoding="utf-8") as out:
+        out.write(render_report(body, answer))
 
 
 def install(app):
