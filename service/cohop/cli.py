@@ -80,6 +80,19 @@ def _chart(args, body: dict, raw: dict) -> None:
     print(f"chart written to {args.chart}", file=sys.stderr)
 
 
+def _site_map(args, body: dict, raw: dict) -> None:
+    """--site-map FILE: systems and interferers by position, harmful pairs drawn."""
+    if not getattr(args, "site_map", None):
+        return
+    from cohop.charts import PlotUnavailable, site_map
+
+    try:
+        site_map(body["site"], raw, args.site_map)
+    except PlotUnavailable as err:
+        raise SystemExit(f"cohop: {err}")
+    print(f"site map written to {args.site_map}", file=sys.stderr)
+
+
 def _report(args, body: dict, raw: dict) -> None:
     """--report FILE.html: the self-contained HTML report of this answer."""
     if not getattr(args, "report", None):
@@ -95,7 +108,8 @@ def _report(args, body: dict, raw: dict) -> None:
 
 def _pictures_detail(args) -> str | None:
     """Charts and reports shade each channel: without a --detail, ask for the per-channel figures."""
-    return "channel" if getattr(args, "chart", None) or getattr(args, "report", None) else None
+    wanted = (getattr(args, name, None) for name in ("chart", "report", "site_map"))
+    return "channel" if any(wanted) else None
 
 
 def _load_request(args) -> dict:
@@ -130,6 +144,7 @@ def _cmd_assess(args) -> int:
         result = api.assess(body["site"], simulation=simulation, detail=detail)
     _chart(args, body, result.raw)
     _report(args, body, result.raw)
+    _site_map(args, body, result.raw)
     return _emit(args, result.raw, assessment_table(result))
 
 
@@ -176,6 +191,7 @@ def _cmd_plan(args) -> int:
             line.finish()
     _chart(args, body, result.raw)
     _report(args, body, result.raw)
+    _site_map(args, body, result.raw)
     return _emit(args, result.raw, plan_table(result))
 
 
@@ -212,6 +228,7 @@ def _cmd_replan(args) -> int:
                             search=search or None, detail=body.get("detail") or _pictures_detail(args))
     _chart(args, body, result.raw)
     _report(args, body, result.raw)
+    _site_map(args, body, result.raw)
     return _emit(args, result.raw, replan_table(result))
 
 
@@ -265,6 +282,8 @@ def _outputs(p: argparse.ArgumentParser) -> None:
     p.add_argument("--chart-size", default="11x6", metavar="WxH", help="chart size in inches (default 11x6)")
     p.add_argument("--dominant", action="store_true", help="in the chart, also show under each row the source "
                    "that hits each channel most")
+    p.add_argument("--site-map", metavar="FILE", help="also draw the site map (systems and interferers by "
+                   "position, harmful source -> victim pairs) to FILE (.png or .svg)")
     p.add_argument("--report", metavar="FILE.html", help="also write a self-contained HTML report (inputs, plan, "
                    "figures, compliance, baselines, charts, cautions) to FILE.html")
 

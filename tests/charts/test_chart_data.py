@@ -35,3 +35,16 @@ def test_percentages_are_plain_decimals(p):
 def test_percentages_keep_two_significant_digits():
     assert [data.pct(p) for p in (0, 0.5, 0.0234, 0.000859, 1e-9)] == ["0 %", "50 %", "2.3 %", "0.086 %",
                                                                       "< 0.0001 %"]
+
+
+def test_a_new_system_in_a_replan_has_only_its_new_row():
+    import copy
+
+    from tests.charts.answers import replanned
+
+    _, answer = copy.deepcopy(replanned())
+    first = answer["diff"][0]
+    first.update(status="new system", before=None, dropped=[], added=list(answer["plan"][0]["hop_set"]))
+    rows = data.rows(answer)
+    assert [r.label for r in rows[:2]] == [f"{first['id']} new", f"{answer['diff'][1]['id']} now"]
+    assert rows[0].added == rows[0].channels

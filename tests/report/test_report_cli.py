@@ -37,3 +37,11 @@ def test_chart_dominant_draws_the_source_strip(capsys, tmp_path):
     assert code == 0, err
     svg = path.read_text(encoding="utf-8")
     assert 'id="dominant:sts-1"' in svg and 'id="row:sts-1"' in svg
+
+
+def test_site_map_option_writes_the_map(capsys, tmp_path):
+    path = tmp_path / "site.svg"
+    code, _, err = run_cli(capsys, "assess", "--sample", "open_pit_mine_ca915", "--site-map", str(path))
+    assert code == 0 and f"site map written to {path}" in err
+    svg = path.read_text(encoding="utf-8")
+    assert 'id="system:haul-fleet"' in svg and 'id="pair:' in svg

@@ -55,6 +55,7 @@ def site_map(site: dict, answer: dict, path: str | Path | None = None, width_in:
     """Draw the site map; write it to `path` (.png or .svg) if given; return the matplotlib figure."""
     plt = pyplot()
     from matplotlib.lines import Line2D
+    from matplotlib.patches import FancyArrowPatch
 
     systems, interferers = data.positions(site)
     new = {s.id for s in data.spans(site, answer, new_interferers) if s.new}
@@ -64,9 +65,9 @@ def site_map(site: dict, answer: dict, path: str | Path | None = None, width_in:
     for pair in data.harmful_pairs(site, answer):
         (x0, y0), (x1, y1) = where[pair.source], where[pair.victim]
         colour, lw = PAIR_STYLE[_pair_class(pair.hit)]
-        ax.annotate("", (x1, y1), (x0, y0), arrowprops={"arrowstyle": "-|>", "color": colour, "lw": lw,
-                                                         "shrinkA": 6, "shrinkB": 6, "alpha": 0.9},
-                    gid=f"pair:{pair.source}->{pair.victim}")
+        ax.add_patch(FancyArrowPatch((x0, y0), (x1, y1), arrowstyle="-|>", mutation_scale=10, color=colour,
+                                     linewidth=lw, shrinkA=6, shrinkB=6, alpha=0.9,
+                                     gid=f"pair:{pair.source}->{pair.victim}"))
     for i, (sid, (x, y)) in enumerate(systems.items()):
         ax.plot([x], [y], "o", color=SOURCE_COLOURS[i % len(SOURCE_COLOURS)], markersize=8, gid=f"system:{sid}")
     for iid, (x, y) in interferers.items():
@@ -98,6 +99,8 @@ def site_map(site: dict, answer: dict, path: str | Path | None = None, width_in:
     fig.legend(handles=handles, loc="outside lower center", ncol=3, fontsize=LABEL_PT, frameon=False)
     unplaced = [s["id"] for s in site.get("systems", []) + site.get("interferers", []) if s["id"] not in where]
     title = f"Site map of {site.get('name') or 'the site'}: harmful pairs"
+    if not any(s.get("sources") for s in data.assessment_of(answer)["systems"]):
+        title += "\n(the answer has no per-source figures: ask with detail \"channel\" or \"source\" for the pairs)"
     if unplaced:
         title += "\n" + textwrap.fill("no position given: " + ", ".join(unplaced), 110)
     ax.set_title(title, fontsize=LABEL_PT + 1, loc="left")

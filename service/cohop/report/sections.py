@@ -72,6 +72,7 @@ def summary(answer: dict) -> str:
         changes = answer["changes"]
         rows += [["mode", json.dumps(answer["mode"])], ["channel changes", changes["count"]],
                  ["fewest changes proven", "yes" if changes.get("proven_minimal") else "no"],
+                 ["systems removed", ", ".join(changes.get("removed_systems") or []) or "none"],
                  ["objective (evaluated)", _num(answer["evaluated_objective"], "{:.5g}")],
                  ["fresh plan objective", _num((answer.get("fresh") or {}).get("evaluated_objective"), "{:.5g}")]]
     return section("summary", "Summary", table(["figure", "value"], rows))
