@@ -53,3 +53,16 @@ def test_the_format_is_documented(client):
         assert {"name": "format", "in": "query"}.items() <= next(
             p for p in post["parameters"] if p["name"] == "format").items()
         assert "text/html" in post["responses"]["200"]["content"]
+
+
+@pytest.mark.server
+def test_the_real_server_renders_reports():
+    import requests
+
+    from tests.production.procs import Server
+
+    with Server() as server:
+        response = requests.post(server.url + "/v1/assessments?format=html", json=samples.load("water_works_us915"),
+                                 timeout=120)
+    assert response.status_code == 200 and response.headers["content-type"].startswith("text/html")
+    assert "Assessment report" in response.text
