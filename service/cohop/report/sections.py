@@ -59,9 +59,10 @@ def summary(answer: dict) -> str:
             ["worst per-hop hit probability", f"{pct(s['worst_collision_probability'])} ({s['worst_system']})"]]
     if kind == "plan":
         solver = answer["solver"]
-        rows += [["coordination", answer.get("coordination", "")],
-                 ["solver status", solver["status"]], ["objective (evaluated)", _num(solver["evaluated_objective"], "{:.5g}")],
-                 ["proven lower bound", _num(solver.get("bound"), "{:.5g}")], ["gap", _num(solver.get("gap"), "{:.3g}")],
+        rows += [["coordination", answer.get("coordination", "")], ["solver status", solver["status"]],
+                 ["objective (evaluated)", _num(solver.get("evaluated_objective"), "{:.5g}")],
+                 ["proven lower bound", _num(solver.get("bound"), "{:.5g}")],
+                 ["gap", _num(solver.get("gap"), "{:.3g}")],
                  ["search time [s]", _num(solver.get("time_s"), "{:.2f}")]]
         comparison = answer.get("comparison") or {}
         if comparison.get("best_baseline"):
