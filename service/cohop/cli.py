@@ -137,10 +137,42 @@ def _chart(args, body: dict, raw: dict) -> None:
     except ValueError:
         raise fail(EXIT_USAGE, f"cohop: --chart-size wants WIDTHxHEIGHT in inches, not {args.chart_size!r}")
     try:
-        channel_map(body["site"], raw, args.chart, width, height)
+        channel_map(body["site"], raw, args.chart, width, height, dominant=getattr(args, "dominant", False))
     except PlotUnavailable as err:
         raise fail(EXIT_EXTRA, f"cohop: {err}", "missing-extra")
     print(f"chart written to {args.chart}", file=sys.stderr)
+
+
+def _site_map(args, body: dict, raw: dict) -> None:
+    """--site-map FILE: systems and interferers by position, harmful pairs drawn."""
+    if not getattr(args, "site_map", None):
+        return
+    from cohop.charts import PlotUnavailable, site_map
+
+    try:
+        site_map(body["site"], raw, args.site_map)
+    except PlotUnavailable as err:
+        raise fail(EXIT_EXTRA, f"cohop: {err}", "missing-extra")
+    print(f"site map written to {args.site_map}", file=sys.stderr)
+
+
+def _report(args, body: dict, raw: dict) -> None:
+    """--report FILE.html: the self-contained HTML report of this answer."""
+    if not getattr(args, "report", None):
+        return
+    from cohop.report import write_report
+
+    try:
+        write_report(args.report, body, raw)
+    except OSError as err:
+        raise fail(EXIT_USAGE, f"cohop: could not write {args.report}: {err.strerror}")
+    print(f"report written to {args.report}", file=sys.stderr)
+
+
+def _pictures_detail(args) -> str | None:
+    """Charts and reports shade each channel: without a --detail, ask for the per-channel figures."""
+    wanted = (getattr(args, name, None) for name in ("chart", "report", "site_map"))
+    return "channel" if any(wanted) else None
 
 
 def _load_request(args, own_file_hint: str) -> dict:
@@ -233,12 +265,14 @@ def _cmd_assess(args) -> int:
     simulation = body.get("simulation")
     if args.trials is not None:
         simulation = {"trials_per_system": args.trials, "seed": args.seed}
-    detail = args.detail or body.get("detail")
+    detail = args.detail or body.get("detail") or _pictures_detail(args)
     with _client(args) as api:
         if simulation:
             print("simulating...", file=sys.stderr, flush=True)
         result = api.assess(body["site"], simulation=simulation, detail=detail)
     _chart(args, body, result.raw)
+    _report(args, body, result.raw)
+    _site_map(args, body, result.raw)
     return _emit(args, result.raw, assessment_table(result, detail=args.detail))
 
 
@@ -270,10 +304,12 @@ def _cmd_plan(args) -> int:
     with _client(args, config) as api:
         try:
             result = api.plan(body["site"], requirements=requirements or None, search=_search(args, body),
-                              baselines=baselines, detail=args.detail or body.get("detail"))
+                              baselines=baselines, detail=args.detail or body.get("detail") or _pictures_detail(args))
         finally:
             line.finish()
     _chart(args, body, result.raw)
+    _report(args, body, result.raw)
+    _site_map(args, body, result.raw)
     _export(args, body, result.raw)
     return _emit(args, result.raw, plan_table(result, detail=args.detail))
 
@@ -333,8 +369,10 @@ def _cmd_replan(args) -> int:
     with _client(args, {"COHOP_SOLVER_THREADS": args.workers}) as api:
         with _Ticker(sys.stderr, "re-planning", (search or {}).get("time_limit_s")):
             result = api.replan(body["site"], current, mode=mode or None, requirements=body.get("requirements"),
-                                search=search, detail=args.detail or body.get("detail"))
+                                search=search, detail=args.detail or body.get("detail") or _pictures_detail(args))
     _chart(args, body, result.raw)
+    _report(args, body, result.raw)
+    _site_map(args, body, result.raw)
     _export(args, body, result.raw)
     return _emit(args, result.raw, replan_table(result, detail=args.detail))
 
@@ -444,7 +482,9 @@ def _cmd_serve(args) -> int:
         from cohop.api import create_app
 
         print(f"cohop development server on http://{args.host}:{args.port} (not for production)", file=sys.stderr)
-        create_app().run(host=args.host, port=args.port)
+        from cohop.report import install
+
+        install(create_app()).run(host=args.host, port=args.port)
         return EXIT_OK
     try:
         from cohop.server import main as serve
@@ -470,6 +510,12 @@ def _outputs(p: argparse.ArgumentParser) -> None:
                    "(columns frequency_hz, level_dbm[, occupancy_fraction]; '# key: value' lines for its fields)")
     p.add_argument("--chart", metavar="FILE", help="also draw a channel map to FILE (.png or .svg)")
     p.add_argument("--chart-size", default="11x6", metavar="WxH", help="chart size in inches (default 11x6)")
+    p.add_argument("--dominant", action="store_true", help="in the chart, also show under each row the source "
+                   "that hits each channel most")
+    p.add_argument("--site-map", metavar="FILE", help="also draw the site map (systems and interferers by "
+                   "position, harmful source -> victim pairs) to FILE (.png or .svg)")
+    p.add_argument("--report", metavar="FILE.html", help="also write a self-contained HTML report (inputs, plan, "
+                   "figures, compliance, baselines, charts, cautions) to FILE.html")
 
 
 def _common(p: argparse.ArgumentParser) -> None:
@@ -561,6 +607,7 @@ def _add_other_commands(sub) -> None:
     p.add_argument("answer", help="the answer JSON (assessment, plan or re-plan)")
     p.add_argument("--out", required=True, metavar="FILE", help=".png or .svg")
     p.add_argument("--chart-size", default="11x6", metavar="WxH", help="chart size in inches (default 11x6)")
+    p.add_argument("--dominant", action="store_true", help="also show the source that hits each channel most")
     p.set_defaults(func=_cmd_chart, json=False)
     p = sub.add_parser("profiles", help="list the regulatory profiles and their rules")
     _common(p)

@@ -269,8 +269,9 @@ class CohopServer(BaseApplication):
 
     def load(self):
         from cohop.api.app import create_app_from_env
+        from cohop.report import install
 
-        return create_app_from_env()
+        return install(create_app_from_env())
 
     def run(self):
         CohopWorker.client_timeout_s = self.settings.client_timeout_s

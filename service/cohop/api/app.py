@@ -16,6 +16,7 @@ from cohop.config import in_process_config
 #: Flask and OpenAPI settings; the service's own (COHOP_*) come from `cohop.config`.
 API_SETTINGS = {
     "COHOP_PROGRESS_HOOK": None,  # in-process only: called with solver progress
+    "COHOP_REPORT_RENDERER": None,  # in-process only: (request, answer) -> HTML for ?format=html (answer_formats)
     "API_TITLE": "cohop",
     "API_VERSION": __version__,
     "OPENAPI_VERSION": "3.0.3",
@@ -107,14 +108,16 @@ def create_app(config: dict | None = None) -> flask.Flask:
     app.config["MAX_CONTENT_LENGTH"] = app.config["COHOP_MAX_BODY_BYTES"]  # Flask's name for the same cap
     app.json = problems.StrictJSONProvider(app)  # answers are strict JSON: no NaN or infinity
     app.json.sort_keys = False
-    from cohop.api import auth, body, logs, metrics, solver_runner
+    from cohop.api import answer_formats, auth, body, logs, metrics, solver_runner
 
     logs.register(app)
     metrics.register(app)
     auth.register(app)
     app.before_request(_require_json)
     body.register(app)  # the body is read once, capped, after the checks above and before any parsing
-    api = CohopApi(app, spec_kwargs={"extra_plugins": [BearerSecurityPlugin(auth.OPEN_PATHS)]})
+    answer_formats.register(app)
+    api = CohopApi(app, spec_kwargs={"extra_plugins": [BearerSecurityPlugin(auth.OPEN_PATHS),
+                                                       answer_formats.HtmlFormatPlugin()]})
     solver_runner.register(app)
     from cohop.api.views import assessments, hop_tables, meta, plans, profiles, replans
 
