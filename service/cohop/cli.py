@@ -156,7 +156,7 @@ def _site_map(args, body: dict, raw: dict) -> None:
     print(f"site map written to {args.site_map}", file=sys.stderr)
 
 
-def _report(args, body: dict, raw: dict) -> None:
+def _write_report(args, body: dict, raw: dict) -> None:
     """--report FILE.html: the self-contained HTML report of this answer."""
     if not getattr(args, "report", None):
         return
@@ -271,7 +271,7 @@ def _cmd_assess(args) -> int:
             print("simulating...", file=sys.stderr, flush=True)
         result = api.assess(body["site"], simulation=simulation, detail=detail)
     _chart(args, body, result.raw)
-    _report(args, body, result.raw)
+    _write_report(args, body, result.raw)
     _site_map(args, body, result.raw)
     return _emit(args, result.raw, assessment_table(result, detail=args.detail))
 
@@ -308,7 +308,7 @@ def _cmd_plan(args) -> int:
         finally:
             line.finish()
     _chart(args, body, result.raw)
-    _report(args, body, result.raw)
+    _write_report(args, body, result.raw)
     _site_map(args, body, result.raw)
     _export(args, body, result.raw)
     return _emit(args, result.raw, plan_table(result, detail=args.detail))
@@ -371,7 +371,7 @@ def _cmd_replan(args) -> int:
             result = api.replan(body["site"], current, mode=mode or None, requirements=body.get("requirements"),
                                 search=search, detail=args.detail or body.get("detail") or _pictures_detail(args))
     _chart(args, body, result.raw)
-    _report(args, body, result.raw)
+    _write_report(args, body, result.raw)
     _site_map(args, body, result.raw)
     _export(args, body, result.raw)
     return _emit(args, result.raw, replan_table(result, detail=args.detail))
