@@ -18,26 +18,27 @@ def _raw(plan: Any) -> dict:
 
 
 def planned_systems(plan: Any) -> list[dict]:
-    """[{"id", "hop_set", "sequence" (or absent)}] from a plan or re-plan answer, a current plan
-    ({"systems": [{"id", "hop_set", "sequence"}]}), a site or a request whose systems carry hop sets."""
+    """[{"system", "hop_set", "sequence" (or absent)}] from a plan or re-plan answer, a current plan
+    ({"systems": [{"system", "hop_set", "sequence"}]}), a site or a request whose systems carry hop sets."""
     raw = _raw(plan)
     if isinstance(raw.get("plan"), list):
         orders = {s["id"]: list(s["channels"]) for s in (raw.get("sequences") or {}).get("systems", [])}
         out = []
         for p in raw["plan"]:
-            entry = {"id": p["id"], "hop_set": sorted(p["hop_set"])}
+            entry = {"system": p["id"], "hop_set": sorted(p["hop_set"])}
             if p["id"] in orders:
                 entry["sequence"] = orders[p["id"]]
             out.append(entry)
         return out
     site = raw.get("site", raw)
     systems = site.get("systems") if isinstance(site, dict) else None
-    if isinstance(systems, list) and all(isinstance(s, dict) and "id" in s for s in systems):
+    # a current plan names its systems by "system" (a reference); a site's systems carry their own "id"
+    if isinstance(systems, list) and all(isinstance(s, dict) and ("system" in s or "id" in s) for s in systems):
         out = []
         for s in systems:
             if s.get("hop_set") is None:
                 continue
-            entry = {"id": s["id"], "hop_set": sorted(s["hop_set"])}
+            entry = {"system": s["system"] if "system" in s else s["id"], "hop_set": sorted(s["hop_set"])}
             if s.get("sequence") is not None:
                 entry["sequence"] = list(s["sequence"])
             out.append(entry)
@@ -63,9 +64,9 @@ def apply_plan(site: dict, plan: Any) -> dict:
     out = copy.deepcopy(site)
     by_id = {s.get("id"): s for s in out["systems"] if isinstance(s, dict)}
     for planned in planned_systems(plan):
-        target = by_id.get(planned["id"])
+        target = by_id.get(planned["system"])
         if target is None:
-            raise PlanShapeError(f"the plan names system {planned['id']!r}, which the site does not have")
+            raise PlanShapeError(f"the plan names system {planned['system']!r}, which the site does not have")
         target["hop_set"] = list(planned["hop_set"])
         if "sequence" in planned:
             target["sequence"] = list(planned["sequence"])

@@ -96,7 +96,7 @@ class Client:
 
     def replan(self, site: dict, current: dict, *, mode: dict | None = None, requirements: dict | None = None,
                search: dict | None = None, detail: str | None = None) -> Replan:
-        """Re-plan after the site changed. `current`: {"systems": [{"id", "hop_set", "sequence"}]};
+        """Re-plan after the site changed. `current`: {"systems": [{"system", "hop_set", "sequence"}]};
         `mode`: {"kind": "tolerance", "tolerance": 0.05} or {"kind": "budget", "max_changes": n}."""
         body: dict[str, Any] = {"site": site, "current": current}
         for key, value in (("mode", mode), ("requirements", requirements), ("search", search), ("detail", detail)):

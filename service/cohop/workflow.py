@@ -28,7 +28,7 @@ def apply_current(site: dict, current: dict) -> dict:
 
 
 def current_plan(document) -> dict:
-    """{"systems": [{"id", "hop_set", "sequence"?}]} from a current plan, a saved answer or a site."""
+    """{"systems": [{"system", "hop_set", "sequence"?}]} from a current plan, a saved answer or a site."""
     if not isinstance(document, dict):
         raise WorkflowError("holds neither a current plan, a saved plan answer, nor a site with hop sets")
     if isinstance(document.get("current"), dict):

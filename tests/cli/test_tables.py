@@ -59,7 +59,7 @@ def test_detail_changes_the_table(assessed):
 def test_assess_of_a_replan_request_uses_its_current_plan(capsys):
     code, out, err = run_cli(capsys, "assess", "--sample", "water_works_replan", "--json")
     assert code == 0
-    current = {s["id"]: sorted(s["hop_set"]) for s in samples.load("water_works_replan")["current"]["systems"]}
+    current = {s["system"]: sorted(s["hop_set"]) for s in samples.load("water_works_replan")["current"]["systems"]}
     assessed = {s["id"]: sorted(s["hop_set"]) for s in json.loads(out)["systems"]}
     assert assessed == current
     assert "current plan" in err

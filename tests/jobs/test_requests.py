@@ -53,7 +53,7 @@ def test_the_replan_sample_loads_alike_both_ways():
     req = load_replan_request(copy.deepcopy(body))
     assert req == ReplanRequestSchema().load(copy.deepcopy(body))
     assert req.mode == ReplanMode(kind="tolerance", tolerance=0.05)
-    assert {c.id for c in req.current} == {s.id for s in req.site.systems}
+    assert {c.system for c in req.current} == {s.id for s in req.site.systems}
 
 
 def test_an_assessment_request_with_a_simulation_loads_alike_both_ways():
@@ -120,7 +120,7 @@ def _current(i, **fields):
 
 REPLAN_RULES = [
     ("budget-without-max-changes", set_at(("mode",), {"kind": "budget"}), "/mode/max_changes"),
-    ("duplicate-current-id", _current(1, id="scada-backbone"), "/current/systems/1/id"),
+    ("duplicate-current-system", _current(1, system="scada-backbone"), "/current/systems/1/system"),
     ("current-channel-off-grid", _current(0, hop_set=[1, 200], sequence=None), "/current/systems/0/hop_set/1"),
     ("current-sequence-off-hop-set", _current(0, hop_set=[1, 2], sequence=[1, 3]), "/current/systems/0/sequence"),
     ("current-hop-set-repeats", _current(0, hop_set=[1, 1], sequence=None), "/current/systems/0/hop_set"),

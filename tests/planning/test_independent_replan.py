@@ -29,7 +29,7 @@ def test_kept_systems_still_stand_and_the_others_had_to_move(replan):
     req = load_replan_request(body)
     prep = prepared(req.site)
     inst = own_instance(build_instance(prep, req.requirements))
-    current = {c.id: c for c in req.current}
+    current = {c.system: c for c in req.current}
     statuses = {d["id"]: d for d in answer["diff"]}
     assert {d["status"] for d in statuses.values()} == {"kept", "changed"}  # the sample has both
     for v, sid in enumerate(inst.ids):

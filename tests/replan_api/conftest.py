@@ -31,6 +31,11 @@ def by_id(rows) -> dict:
     return {r["id"]: r for r in rows}
 
 
+def by_system(rows) -> dict:
+    """Current-plan entries by the system they name."""
+    return {r["system"]: r for r in rows}
+
+
 def replan_request(**overrides) -> dict:
     """The re-plan sample with FAST search, `overrides` replacing top-level keys."""
     body = samples.load(REPLAN_SAMPLE)
@@ -49,7 +54,7 @@ def site_request(**overrides) -> dict:
 
 def current_from_plan(answer: dict) -> dict:
     """The current plan the radios would run after loading a plan answer's sequences."""
-    return {"systems": [{"id": s["id"], "hop_set": sorted(s["channels"]), "sequence": list(s["channels"])}
+    return {"systems": [{"system": s["id"], "hop_set": sorted(s["channels"]), "sequence": list(s["channels"])}
                         for s in answer["sequences"]["systems"]]}
 
 
@@ -76,7 +81,7 @@ def pointers(prob: dict) -> dict[str, str]:
 def check_replan(body: dict, answer: dict) -> None:
     """Shape and internal consistency of a 200 re-plan answer to request `body`."""
     site_ids = [s["id"] for s in body["site"]["systems"]]
-    current = by_id(body["current"]["systems"])
+    current = by_system(body["current"]["systems"])
     plan = by_id(answer["plan"])
     assert list(plan) == site_ids
     assert [d["id"] for d in answer["diff"]] == site_ids
@@ -122,7 +127,7 @@ def check_replan(body: dict, answer: dict) -> None:
 
 def check_sequences(body: dict, answer: dict) -> None:
     """A kept hop set with a given current sequence keeps that sequence; every other one visits its set."""
-    current = by_id(body["current"]["systems"])
+    current = by_system(body["current"]["systems"])
     seqs = by_id(answer["sequences"]["systems"])
     plan = by_id(answer["plan"])
     groups = {s["id"]: s.get("time_base_group") for s in body["site"]["systems"]}

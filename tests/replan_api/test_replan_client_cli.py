@@ -77,10 +77,10 @@ def test_client_budget_below_the_bound_raises(api, typed_replan):
 
 def test_client_invalid_current_plan_raises(api):
     body = replan_request()
-    body["current"]["systems"][1]["id"] = body["current"]["systems"][0]["id"]
+    body["current"]["systems"][1]["system"] = body["current"]["systems"][0]["system"]
     with pytest.raises(InvalidRequest) as info:
         _replan(api, body)
-    assert "/current/systems/1/id" in [e.pointer for e in info.value.field_errors]
+    assert "/current/systems/1/system" in [e.pointer for e in info.value.field_errors]
 
 
 # --- command line ---------------------------------------------------------------------------
@@ -117,7 +117,7 @@ def test_cli_replan_from_a_saved_plan(files, capsys):
     answer = json.loads(out)
     assert json.loads((files / "replan.json").read_text(encoding="utf-8")) == answer
     saved = json.loads((files / "plan.json").read_text(encoding="utf-8"))
-    current = {"systems": [{"id": s["id"], "hop_set": sorted(s["channels"]), "sequence": s["channels"]}
+    current = {"systems": [{"system": s["id"], "hop_set": sorted(s["channels"]), "sequence": s["channels"]}
                            for s in saved["sequences"]["systems"]]}
     body = json.loads((files / "changed.json").read_text(encoding="utf-8"))
     check_replan(dict(body, current=current), answer)
@@ -128,7 +128,7 @@ def test_cli_replan_from_a_saved_plan(files, capsys):
 
 def test_cli_replan_chart_svg_from_a_current_file(files, capsys):
     saved = json.loads((files / "plan.json").read_text(encoding="utf-8"))
-    current = {"systems": [{"id": p["id"], "hop_set": p["hop_set"]} for p in saved["plan"]]}
+    current = {"systems": [{"system": p["id"], "hop_set": p["hop_set"]} for p in saved["plan"]]}
     (files / "current.json").write_text(json.dumps(current), encoding="utf-8")
     svg = files / "out.svg"
     assert cli.main(["replan", str(files / "changed.json"), "--current", str(files / "current.json"),

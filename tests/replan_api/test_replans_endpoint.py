@@ -9,7 +9,7 @@ from cohop.api.schemas.replan import ReplanResponseSchema
 from tests.answer_keys import missing_keys
 from tests.problems import PROBLEM_JSON
 
-from .conftest import (INFEASIBLE, INVALID, PLANS, REPLANS, by_id, check_replan, current_from_plan,
+from .conftest import (INFEASIBLE, INVALID, PLANS, REPLANS, by_id, by_system, check_replan, current_from_plan,
                        ok, pointers, post, problem, replan_request, site_request, small_request)
 
 
@@ -38,14 +38,14 @@ def test_sample_replan_change_count_and_bound(sample_replan):
     statuses = {d["status"] for d in answer["diff"]}
     assert statuses <= {"kept", "changed"} and "changed" in statuses
     # a proven minimum cannot change more than starting afresh would (the fresh plan meets the target)
-    current = by_id(body["current"]["systems"])
+    current = by_system(body["current"]["systems"])
     fresh_changes = sum(len(set(p["hop_set"]) - set(current[p["id"]]["hop_set"])) for p in answer["fresh"]["plan"])
     assert ch["count"] <= fresh_changes
 
 
 def test_sample_replan_keeps_unchanged_sequences(sample_replan):
     body, answer = sample_replan
-    current = by_id(body["current"]["systems"])
+    current = by_system(body["current"]["systems"])
     seqs = by_id(answer["sequences"]["systems"])
     kept = [d for d in answer["diff"] if d["status"] == "kept"]
     assert kept, "the sample keeps at least one system as it is"
@@ -119,8 +119,8 @@ def test_budget_at_or_above_the_lower_bound(client, sample_replan, extra):
 
 
 def test_budget_is_never_exceeded_when_guards_force_changes(client):
-    current = {"systems": [{"id": "a", "hop_set": [0, 1, 2, 3]}, {"id": "b", "hop_set": [0, 1, 2, 3]},
-                           {"id": "c", "hop_set": [12, 13, 14]}, {"id": "d", "hop_set": [20, 21, 22]}]}
+    current = {"systems": [{"system": "a", "hop_set": [0, 1, 2, 3]}, {"system": "b", "hop_set": [0, 1, 2, 3]},
+                           {"system": "c", "hop_set": [12, 13, 14]}, {"system": "d", "hop_set": [20, 21, 22]}]}
     body = small_request(current=current, mode={"kind": "budget", "max_changes": 0})
     body["requirements"]["guard_excess_db"] = 0.0  # a and b may no longer share channels
     resp = post(client, REPLANS, body)
@@ -135,8 +135,8 @@ def test_budget_is_never_exceeded_when_guards_force_changes(client):
 
 def test_removed_and_new_systems(client):
     body = replan_request()
-    gone = next(c for c in body["current"]["systems"] if c["id"] == "pump-telemetry")
-    gone["id"] = "old-radio"  # pump-telemetry is missing from the current plan, old-radio left the site
+    gone = next(c for c in body["current"]["systems"] if c["system"] == "pump-telemetry")
+    gone["system"] = "old-radio"  # pump-telemetry is missing from the current plan, old-radio left the site
     answer = ok(post(client, REPLANS, body))
     check_replan(body, answer)
     assert answer["changes"]["removed_systems"] == ["old-radio"]
@@ -174,7 +174,7 @@ def _off_grid(body):
 
 
 def _duplicate_id(body):
-    body["current"]["systems"][1]["id"] = _first(body)["id"]
+    body["current"]["systems"][1]["system"] = _first(body)["system"]
 
 
 def _no_current(body):
@@ -190,7 +190,7 @@ def _unknown_mode(body):
     (_foreign_sequence, "/current/systems/0/sequence", "hop_set"),
     (_budget_without_max, "/mode/max_changes", "max_changes"),
     (_off_grid, "/current/systems/0/hop_set/0", "off the grid"),
-    (_duplicate_id, "/current/systems/1/id", "Duplicate"),
+    (_duplicate_id, "/current/systems/1/system", "listed twice"),
     (_no_current, "/current", "Missing"),
     (_unknown_mode, "/mode/kind", "tolerance"),
 ], ids=lambda v: getattr(v, "__name__", None) if callable(v) else None)

@@ -39,11 +39,11 @@ def test_apply_refuses_a_plan_for_another_site():
 
 
 def test_current_plan_from_answer_site_and_request():
-    assert current_plan(PLAN) == {"systems": [{"id": "a", "hop_set": [1, 2, 3]},
-                                              {"id": "b", "hop_set": [7, 8], "sequence": [8, 7]}]}
+    assert current_plan(PLAN) == {"systems": [{"system": "a", "hop_set": [1, 2, 3]},
+                                              {"system": "b", "hop_set": [7, 8], "sequence": [8, 7]}]}
     from_site = current_plan({"site": SITE})["systems"]
-    assert [s["id"] for s in from_site] == ["a", "c"]  # b has no hop set
-    assert current_plan({"current": {"systems": [{"id": "x", "hop_set": [4]}]}})["systems"][0]["id"] == "x"
+    assert [s["system"] for s in from_site] == ["a", "c"]  # b has no hop set
+    assert current_plan({"current": {"systems": [{"system": "x", "hop_set": [4]}]}})["systems"][0]["system"] == "x"
     with pytest.raises(WorkflowError):
         current_plan({"hello": "world"})
 

@@ -76,7 +76,7 @@ def replan_requirements(prep, req: PlanRequirements, current) -> PlanRequirement
     """The band's default spare channels never force channels onto a system already on air: in a re-plan, a
     system that states no spare_channels gets at most the spare its current hop set holds (its current count
     less its regulatory minimum); spare_channels stated in the request apply as given."""
-    counts = {c.id: len(set(c.hop_set)) for c in current}
+    counts = {c.system: len(set(c.hop_set)) for c in current}
     if not any(req.for_system(sid).spare_channels is None for sid in counts):
         return req
     systems = []

@@ -159,7 +159,7 @@ def plan_request_from(d: Mapping, site: Site) -> PlanRequest:
 
 
 def replan_request_from(d: Mapping, site: Site) -> ReplanRequest:
-    current = tuple(CurrentSystem(c["id"], tuple(c["hop_set"]),
+    current = tuple(CurrentSystem(c["system"], tuple(c["hop_set"]),
                                   None if c.get("sequence") is None else tuple(c["sequence"]))
                     for c in d["current"]["systems"])
     return ReplanRequest(site=site, current=current, requirements=requirements_from(d),
@@ -213,9 +213,9 @@ def replan_request_problems(req: ReplanRequest) -> list[Problem]:
         out.append((("requirements", "objective"), f"Re-planning minimises per-hop collision: one of "
                     f"{', '.join(LINEAR_OBJECTIVES)} ({req.requirements.objective} is for plans only)."))
     for i, c in enumerate(req.current):
-        if c.id in seen:
-            out.append((("current", "systems", i, "id"), f"Duplicate id {c.id!r}."))
-        seen.add(c.id)
+        if c.system in seen:
+            out.append((("current", "systems", i, "system"), f"System {c.system!r} is listed twice."))
+        seen.add(c.system)
         for name in ("hop_set", "sequence"):
             out += [(("current", "systems", i, name, j), f"Channel {ch} is off the grid.")
                     for j, ch in enumerate(getattr(c, name) or ()) if ch >= req.site.grid.count]

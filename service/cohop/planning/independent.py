@@ -334,7 +334,7 @@ def replan_independent(prep: PreparedSite, req: PlanRequirements, current, mode,
 
     deadline = deadline or (budget.deadline if budget is not None else
                             Deadline.of(req.time_limit_s, settings.max_solve_s))
-    cur = {c.id: c for c in current}
+    cur = {c.system: c for c in current}
     full = build_instance(prep, req)
     ids = full.ids
     own = own_instance(full)

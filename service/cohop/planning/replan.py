@@ -63,7 +63,7 @@ class ReplanMode:
 
 @dataclass(frozen=True)
 class CurrentSystem:
-    id: str
+    system: str
     hop_set: tuple[int, ...]
     sequence: tuple[int, ...] | None = None
 
@@ -248,7 +248,7 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
     the deadline leaves after the closing phases' reserve)."""
     deadline = deadline or (budget.deadline if budget is not None else
                             Deadline.of(req.time_limit_s, settings.max_solve_s))
-    cur = {c.id: c for c in current}
+    cur = {c.system: c for c in current}
     ids = [s.id for s in prep.site.systems]
     removed = sorted(set(cur) - set(ids))
     notes = []

@@ -19,7 +19,8 @@ _TOLERANCE = default(ReplanMode, "tolerance")
 
 
 class CurrentSystemSchema(StrictSchema):
-    id = Text(required=True, validate=IDENTIFIER)
+    system = Text(required=True, validate=IDENTIFIER, metadata={"description": "The site system this entry is "
+                                                                               "(the same spelling as requirements)"})
     hop_set = List(channel_index(), required=True, min_length=1, max_length=limits.MAX_CHANNELS)
     sequence = List(channel_index(), load_default=None, min_length=1, max_length=limits.MAX_SEQUENCE_HOPS,
                     metadata={"description": "Kept when the hop set does not change"})
