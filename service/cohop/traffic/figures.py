@@ -1,0 +1,354 @@
+"""Traffic figures of one system along its real hop order: latency, deadline, runs, watchdog stops.
+
+The model, step by step (each module holds its sources):
+
+1. Messages. A message every I = g D_v, g = max(ceil(message_interval_s / D_v), R n) whole dwells (R =
+   retry_limit + 1 attempts of n = hops_per_attempt hops; when retries outlast the interval the next
+   message waits, so the interval is at least R n dwells). Message k starts on hop s0 + k g of the order.
+2. Per hop of a message (`hits`, `pieces`): a neighbour whose order is known hits according to its fixed
+   phase (its dwells overlapping the hop whose channel lies in the harmful window, each active
+   independently with its activity); a neighbour without a known order hits independently per hop with
+   its uniform-hopping figure from the assessment (`pieces.channel_losses`); a continuous fixed interferer
+   is on or off for the whole stretch (its activity is the share of phase samples in which it is on);
+   a bursty one hits independently per hop with its assessment figure.
+3. Fading (Rayleigh): a two-state chain between consecutive hops whose joint fade probability is Kibble's
+   for the power correlation of the two channels (Jakes' form with the site's delay spread;
+   `cohop.stats.runs.fade_transitions`); fades more than GAP_HOPS idle hops apart are taken as
+   independent. Rician fading is taken independent from hop to hop; "none" never fades.
+4. Given the phases, the chain of 2 x 2 matrices (`chain`) gives exactly: the probability of delivery at
+   each attempt, of n lost attempts in a row, and of a run of lost messages reaching n (once per run).
+5. Phases: the victim's order offset s0 and every sampled neighbour's phase are uniform; the figures are
+   averaged over them. With no unaligned neighbour and no part-time continuous interferer in reach,
+   every offset is enumerated (exact); otherwise PHASE_SAMPLES stratified samples (Latin hypercube) give
+   the mean and a 95 % interval, mean +- 1.96 s / sqrt(J) (conservative for stratified sampling).
+6. Watchdog: a stop when m = ceil(watchdog_s / I) messages in a row are lost (no valid message for the
+   watchdog time); stops per hour = (runs reaching m per message) x 3600 / I.
+7. Dominant source: the one whose removal lowers the figure most (fading counts as one source), tried
+   among fading and the DOMINANT_CANDIDATES sources that hit the most hops of the order.
+
+Assumed independent: interference hits on different hops given the phases (a neighbour's activity per
+dwell, even when one of its dwells spans several of the victim's hops), interference and fading, the
+neighbours' phases of one another, fades more than GAP_HOPS idle hops apart, and Rician fades.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from cohop.prepare import PreparedSite
+from cohop.site import Traffic
+from cohop.stats import hopping
+from cohop.stats.runs import fade_transitions
+from cohop.traffic import chain, latency
+from cohop.traffic.hits import dwell_counts, survival_given_phase
+from cohop.traffic.pieces import ChannelLosses, channel_losses
+
+#: Stratified phase samples when the phases cannot be enumerated.
+PHASE_SAMPLES = 64
+#: Idle hops after which a message's fade state is taken as forgotten.
+GAP_HOPS = 64
+#: Normal quantile of the reported intervals (two-sided 95 %).
+Z95 = 1.959963984540054
+#: Sources tried for the dominant one: those that hit most along the order (with fading).
+DOMINANT_CANDIDATES = 3
+#: Runs of lost messages reported when no watchdog is given.
+DEFAULT_RUNS = 4
+
+MODEL = ("exact two-state fade chain along the system's hop order, neighbours' hits fixed by their phase "
+         "and averaged over phases; messages every interval, attempts on consecutive hops up to the retry "
+         "limit (cohop.traffic.figures)")
+CAUTION = ("planning estimate, not a safety figure: the machine's safety assessment and the standards that "
+           "govern cableless control of machinery decide what is acceptable; this service encodes no values "
+           "from them")
+ASSUMPTIONS = ("independent given the phases: interference hits on different hops, interference and fading",
+               "a neighbour's activity is drawn per hop of the victim, even when one of its dwells spans several",
+               f"fades more than {GAP_HOPS} idle hops apart, and Rician fades, are independent",
+               "continuous fixed interferers are on or off for whole stretches; bursty ones hit per hop")
+
+
+@dataclass(frozen=True)
+class Estimate:
+    """A figure averaged over phases; `interval` equals (value, value) when every phase was enumerated."""
+
+    value: float
+    interval: tuple[float, float]
+    dominant_source: str | None
+
+
+@dataclass(frozen=True)
+class TrafficFigures:
+    system_id: str
+    order_origin: str  # "request" (given) or "planned" (built for the hop set)
+    order_length: int
+    message_interval_s: float  # as modelled: whole dwells, at least the retries' span
+    dwell_s: float  # the wait for the next dwell is uniform over one dwell
+    attempt_latency_s: tuple[float, ...]  # latency of delivery at attempt k, arriving as a dwell starts
+    delivered_at_attempt: tuple[float, ...]  # P(delivered at attempt k), k = 1..R
+    undelivered: Estimate  # P(every attempt lost)
+    latency_quantiles_s: tuple[tuple[float, float | None], ...]  # (level, latency or None: never reached)
+    lost_attempt_runs: tuple[float, ...]  # P(the first n attempts of a message lost), n = 1..R
+    lost_message_runs_per_hour: tuple[float, ...]  # runs of lost messages reaching n, per hour, n = 1..
+    deadline: Estimate | None  # P(delivered within deadline_s)
+    meets_deadline: bool | None
+    watchdog_messages: int | None  # m: messages lost in a row that make a stop
+    stops_per_hour: Estimate | None
+    meets_stops: bool | None
+    phase_samples: int
+    exact: bool
+    requirement: Traffic
+    model: str = MODEL
+    caution: str = CAUTION
+    assumptions: tuple[str, ...] = ASSUMPTIONS
+
+
+@dataclass(frozen=True)
+class _Layout:
+    """Where the messages of each phase sample fall, and what the samples fix."""
+
+    hops: np.ndarray  # (J, M, H) absolute hop of hop i of message k
+    phase: np.ndarray  # (J, S) each source system's phase as a share of its period (0 where not sampled)
+    interferer_on: np.ndarray  # (J, K) bool
+    exact: bool
+
+
+def message_hops(system, traffic: Traffic) -> int:
+    """g: whole dwells between message starts (step 1)."""
+    span = (system.retry_limit + 1) * system.hops_per_attempt
+    return max(math.ceil(traffic.message_interval_s / system.dwell_s - 1e-9), span, 1)
+
+
+def watchdog_messages(system, traffic: Traffic) -> int | None:
+    """m = ceil(watchdog_s / I) (step 6)."""
+    if traffic.watchdog_s is None:
+        return None
+    return max(1, math.ceil(traffic.watchdog_s / (message_hops(system, traffic) * system.dwell_s) - 1e-9))
+
+
+def _sampled_sources(prep: PreparedSite, v: int, orders, losses: ChannelLosses) -> tuple[list[int], list[int]]:
+    """Neighbours whose phase is sampled (unaligned, known order, can reach v) and part-time continuous
+    interferers that reach v."""
+    systems = [a for a, link in enumerate(prep.links[v])
+               if link is not None and not link.aligned and orders[a] is not None and losses.systems[a].any()]
+    itf = [k for k, link in enumerate(prep.interferer_links[v])
+           if link.overlap is None and 0.0 < link.activity_fraction < 1.0 and losses.interferers[k].any()]
+    return systems, itf
+
+
+def _layout(prep: PreparedSite, v: int, order_len: int, g: int, messages: int, hops: int, sampled, seed: int,
+            samples: int) -> _Layout:
+    systems, itf = sampled
+    n_sys, n_itf = prep.n_systems, len(prep.site.interferers)
+    base = np.arange(messages)[:, None] * g + np.arange(hops)[None, :]
+    if not systems and not itf:
+        starts = np.arange(math.gcd(order_len, g))
+        return _Layout(starts[:, None, None] + base[None], np.zeros((starts.size, n_sys)),
+                       np.ones((starts.size, n_itf), dtype=bool), True)
+    rng = np.random.Generator(np.random.PCG64([seed, v, 13]))
+
+    def strata() -> np.ndarray:
+        return (rng.permutation(samples) + rng.random(samples)) / samples
+
+    starts = np.floor(strata() * order_len).astype(np.int64)
+    phase = np.zeros((samples, n_sys))
+    for a in systems:
+        phase[:, a] = strata()
+    on = np.ones((samples, n_itf), dtype=bool)
+    for k in itf:
+        on[:, k] = strata() < prep.interferer_links[v][k].activity_fraction
+    return _Layout(starts[:, None, None] + base[None], phase, on, False)
+
+
+def _pieces(prep: PreparedSite, v: int, orders, losses: ChannelLosses, lay: _Layout, sampled) -> list[tuple[str, np.ndarray]]:
+    """(source id, loss probability (J, M, H)) of every source that can hit v along the order."""
+    site = prep.site
+    system = site.systems[v]
+    order_v = np.asarray(orders[v])
+    col = losses.column(order_v[lay.hops % order_v.size])
+    shape = lay.hops.shape
+    flat = lay.hops.reshape(shape[0], -1)
+    out = []
+    for a, link in enumerate(prep.links[v]):
+        if link is None or not losses.systems[a].any():
+            continue
+        src = site.systems[a]
+        if orders[a] is None:
+            x = losses.systems[a][col]
+        else:
+            order_a = np.asarray(orders[a])
+            phase = np.zeros(shape[0]) if link.aligned else lay.phase[:, a] * order_a.size * src.dwell_s
+            counts = dwell_counts(order_v, order_a, int(prep.window[v, a]), flat, phase, system.dwell_s,
+                                  system.packet_airtime_s, src.dwell_s, src.packet_airtime_s,
+                                  rows=(losses.channels, col.reshape(flat.shape)))
+            x = 1.0 - survival_given_phase(counts, float(prep.activity[a])).reshape(shape)
+        if x.any():
+            out.append((src.id, x))
+    for k, link in enumerate(prep.interferer_links[v]):
+        if not losses.interferers[k].any():
+            continue
+        x = losses.interferers[k][col]
+        if link.overlap is None and link.activity_fraction > 0:
+            x = np.where(lay.interferer_on[:, k][:, None, None], x / link.activity_fraction, 0.0)
+        if x.any():
+            out.append((site.interferers[k].id, np.minimum(x, 1.0)))
+    return out
+
+
+def _fade_matrices(prep: PreparedSite, v: int, order_v: np.ndarray, hops: np.ndarray, g: int, fade: float,
+                   sigma_tau: float) -> tuple[np.ndarray, np.ndarray]:
+    """(A (J, M, H, 2, 2) into each message hop, G (J, M, 2, 2) over the idle hops after each message), read
+    from one transition per position of the order (they depend on the two channels only)."""
+    model = prep.site.systems[v].fading.model
+    size = order_v.size
+    if model == "rayleigh":
+        df = np.abs(order_v - np.roll(order_v, 1)) * prep.spacing_hz  # into position t from t - 1
+        into = fade_transitions(fade, hopping.envelope_correlation(df, sigma_tau))
+    else:
+        into = np.empty((size, 2, 2))
+        into[:, :, 0], into[:, :, 1] = 1.0 - fade, fade
+    idle = g - hops.shape[2]
+    if idle > GAP_HOPS:
+        gap_at = np.broadcast_to(np.array([[1.0 - fade, fade], [1.0 - fade, fade]]), (size, 2, 2))
+    else:
+        gap_at = np.broadcast_to(np.eye(2), (size, 2, 2)).copy()  # after a message ending at position p
+        positions = np.arange(size)
+        for i in range(1, idle + 1):
+            gap_at = chain.mm(gap_at, into[(positions + i) % size])
+    return into[hops % size], gap_at[hops[:, :, -1] % size]
+
+
+@dataclass(frozen=True)
+class _Run:
+    delivered: np.ndarray  # (J, R)
+    lost_attempts: np.ndarray  # (J, R)
+    rates: np.ndarray  # (J, N) runs reaching n per message
+
+
+def _survival(pieces, skip: str | None = None) -> np.ndarray:
+    survive = np.ones(pieces[0][1].shape) if pieces else 1.0
+    for name, x in pieces:
+        if name != skip:
+            survive = survive * (1.0 - x)
+    return survive
+
+
+def _runs(pieces, a, gap, fade: float, hops_per_attempt: int, longest: int,
+          skips: list[str | None]) -> dict[str | None, _Run]:
+    """The chain with each of `skips` removed (None: nothing removed; "fading": no fading); the source
+    removals share one stacked call."""
+    out: dict[str | None, _Run] = {}
+    if "fading" in skips:
+        a0 = np.zeros_like(a)
+        a0[..., :, 0] = 1.0
+        g0 = np.zeros_like(gap)
+        g0[..., :, 0] = 1.0
+        q = 1.0 - np.broadcast_to(_survival(pieces), a.shape[:3])
+        out["fading"] = _chain_run(q[None], a0, g0, 0.0, hops_per_attempt, longest)[0]
+    names = [n for n in skips if n != "fading"]
+    if names:
+        q = 1.0 - np.stack([np.broadcast_to(_survival(pieces, n), a.shape[:3]) for n in names])
+        out.update(zip(names, _chain_run(q, a, gap, fade, hops_per_attempt, longest)))
+    return out
+
+
+def _chain_run(q: np.ndarray, a, gap, fade: float, hops_per_attempt: int, longest: int) -> list[_Run]:
+    """One chain call over C stacked configurations q (C, J, M, H) sharing a, gap and the fade."""
+    pi = chain.stationary(fade)
+    fp, s, dl, ls = chain.message_matrices(q, a, gap, hops_per_attempt)
+    delivered, lost = chain.attempt_figures(fp, s, pi)
+    rates = chain.run_rates(dl, ls, pi, longest)
+    return [_Run(delivered[i], lost[i], rates[i]) for i in range(q.shape[0])]
+
+
+def _estimate(per_sample: np.ndarray, exact: bool, dominant: str | None) -> Estimate:
+    value = float(per_sample.mean())
+    if exact or per_sample.size < 2:
+        return Estimate(value, (value, value), dominant)
+    half = Z95 * float(per_sample.std(ddof=1)) / math.sqrt(per_sample.size)
+    return Estimate(value, (max(0.0, value - half), value + half), dominant)
+
+
+def _candidates(pieces) -> list[str]:
+    """The DOMINANT_CANDIDATES sources that hit most along the order (the others cannot dominate unless
+    the figure is driven by something other than how often they hit; stated in the model)."""
+    ranked = sorted(pieces, key=lambda p: -float(p[1].mean()))
+    return [n for n, _ in ranked[:DOMINANT_CANDIDATES]]
+
+
+def _dominant(values: dict[str, float], base: float) -> str | None:
+    """The source whose removal lowers the figure most (None when nothing lowers it)."""
+    if not values:
+        return None
+    name = max(values, key=lambda k: base - values[k])
+    return name if base - values[name] > 0 else None
+
+
+def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: int, origin: str,
+                   samples: int = PHASE_SAMPLES, seed: int = 0) -> TrafficFigures:
+    """The traffic figures of system v (which must carry `traffic`), along `orders[v]`; `orders` holds one
+    hop order per system (None where unknown: that neighbour hits independently per hop)."""
+    from cohop.sequences.report import delay_spread
+
+    system = prep.site.systems[v]
+    traffic = system.traffic
+    order_v = np.asarray(orders[v], dtype=np.int64)
+    losses = channel_losses(prep, hop_sets, v)
+    attempts, per = system.retry_limit + 1, system.hops_per_attempt
+    g = message_hops(system, traffic)
+    interval = g * system.dwell_s
+    m = watchdog_messages(system, traffic)
+    longest = max(m or 0, DEFAULT_RUNS)
+    cover = order_v.size // math.gcd(order_v.size, g)
+    sampled = _sampled_sources(prep, v, orders, losses)
+    lay = _layout(prep, v, order_v.size, g, cover + longest, attempts * per, sampled, seed, samples)
+    pieces = _pieces(prep, v, orders, losses, lay, sampled)
+    a, gap = _fade_matrices(prep, v, order_v, lay.hops, g, losses.fade_probability, delay_spread(prep))
+    names = _candidates(pieces) + (["fading"] if losses.fade_probability > 0 else [])
+    runs = _runs(pieces, a, gap, losses.fade_probability, per, longest, [None] + names)
+    base = runs.pop(None)
+    offsets = latency.attempt_offsets_s(attempts, per, system.dwell_s, system.packet_airtime_s)
+    per_hour = 3600.0 / interval
+
+    def deadline_of(run: _Run) -> np.ndarray:
+        return latency.cdf(traffic.deadline_s, run.delivered, offsets, system.dwell_s)
+
+    removed = runs
+    undelivered = 1.0 - base.delivered.sum(axis=1)
+    und_dom = _dominant({n: float((1.0 - r.delivered.sum(axis=1)).mean()) for n, r in removed.items()},
+                        float(undelivered.mean()))
+    deadline = meets_deadline = None
+    if traffic.deadline_s is not None:
+        missed = 1.0 - deadline_of(base)
+        dom = _dominant({n: float((1.0 - deadline_of(r)).mean()) for n, r in removed.items()}, float(missed.mean()))
+        deadline = _estimate(1.0 - missed, lay.exact, dom)
+        if traffic.deadline_probability is not None:
+            meets_deadline = deadline.interval[0] >= traffic.deadline_probability
+    stops = meets_stops = None
+    if m is not None:
+        stop = base.rates[:, m - 1] * per_hour
+        dom = _dominant({n: float(r.rates[:, m - 1].mean() * per_hour) for n, r in removed.items()},
+                        float(stop.mean()))
+        stops = _estimate(stop, lay.exact, dom)
+        if traffic.max_stops_per_hour is not None:
+            meets_stops = stops.interval[1] <= traffic.max_stops_per_hour
+    weights = base.delivered.mean(axis=0)
+    return TrafficFigures(
+        system_id=system.id, order_origin=origin, order_length=int(order_v.size), message_interval_s=interval,
+        dwell_s=system.dwell_s, attempt_latency_s=tuple(float(x) for x in offsets),
+        delivered_at_attempt=tuple(float(x) for x in weights),
+        undelivered=_estimate(undelivered, lay.exact, und_dom),
+        latency_quantiles_s=tuple((q, latency.quantile(q, weights, offsets, system.dwell_s))
+                                  for q in latency.LEVELS),
+        lost_attempt_runs=tuple(float(x) for x in base.lost_attempts.mean(axis=0)),
+        lost_message_runs_per_hour=tuple(float(x) * per_hour for x in base.rates.mean(axis=0)),
+        deadline=deadline, meets_deadline=meets_deadline, watchdog_messages=m, stops_per_hour=stops,
+        meets_stops=meets_stops, phase_samples=int(lay.hops.shape[0]), exact=lay.exact, requirement=traffic)
+
+
+def site_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, origins,
+                 samples: int = PHASE_SAMPLES, seed: int = 0) -> tuple[TrafficFigures, ...]:
+    """`system_traffic` for every system that carries `traffic` (`origins[v]`: where its order came from)."""
+    return tuple(system_traffic(prep, hop_sets, orders, v, origins[v], samples, seed)
+                 for v, s in enumerate(prep.site.systems) if s.traffic is not None)
