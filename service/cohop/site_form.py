@@ -9,7 +9,7 @@ from __future__ import annotations
 from typing import Mapping
 
 from cohop.site import (Band, Coupling, CouplingEntry, Fading, Grid, Interferer, InterfererLevel, Position,
-                        Propagation, RejectionPoint, Site, Survey, System)
+                        Propagation, RejectionPoint, Site, Survey, System, Traffic)
 
 
 def _position(d: Mapping | None) -> Position | None:
@@ -23,6 +23,8 @@ def system_from(d: Mapping) -> System:
     if fading is not None:
         d["fading"] = Fading(**fading)
     d["position"] = _position(d.get("position"))
+    if d.get("traffic") is not None:
+        d["traffic"] = Traffic(**d["traffic"])
     if d.get("sequence") is not None:
         d["sequence"] = tuple(d["sequence"])
         if d.get("hop_set") is None:  # the hop set of a sequence is its channels

@@ -23,6 +23,7 @@ from cohop.regulatory.profiles import Profile
 from cohop.regulatory.rules import FAIL, PASS, WARNING, Finding
 from cohop.sequences.report import SequenceOutcome
 from cohop.site import Site, System
+from cohop.traffic.figures import TrafficFigures
 
 #: The confidence of `SimulatedRate.interval` (its default z is the standard normal 97.5 % quantile).
 SIMULATION_CONFIDENCE = 0.95
@@ -104,6 +105,7 @@ class AssessmentAnswer:
     simulation: SimulationCheck | None = None
     sequences: SequencesAnswer | None = None  # the request's own sequences, when it gives any
     assumptions: tuple[str, ...] = MODEL_ASSUMPTIONS
+    traffic: tuple[TrafficFigures, ...] = ()  # systems that give traffic (cohop.traffic)
 
 
 def _simulated(sid: str, rate: SimulatedRate, analytic: float, by_source=()) -> SimulatedFigure:
@@ -121,14 +123,14 @@ def simulation_check(sim: SiteSimulation, assessment: Assessment) -> SimulationC
 
 
 def assessment_answer(assessment: Assessment, caution: bool, simulation: SiteSimulation | None = None,
-                      sequences=None) -> AssessmentAnswer:
+                      sequences=None, traffic: tuple[TrafficFigures, ...] = ()) -> AssessmentAnswer:
     prep = assessment.prepared
     systems = tuple(SystemResult(f, prep.site.systems[f.index],
                                  Compliance(prep.profile.id, compliance_status(f.compliance), f.compliance))
                     for f in assessment.systems)
     return AssessmentAnswer(assessment=assessment, cautions=tuple(cautions_for(caution)), systems=systems,
                             simulation=None if simulation is None else simulation_check(simulation, assessment),
-                            sequences=sequences)
+                            sequences=sequences, traffic=traffic)
 
 
 @dataclass(frozen=True)

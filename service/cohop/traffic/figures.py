@@ -38,6 +38,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from cohop import limits
 from cohop.prepare import PreparedSite
 from cohop.site import Traffic
 from cohop.stats import hopping
@@ -79,6 +80,12 @@ class Estimate:
 
 
 @dataclass(frozen=True)
+class Quantile:
+    level: float
+    latency_s: float | None  # None: less than `level` of the messages is ever delivered
+
+
+@dataclass(frozen=True)
 class TrafficFigures:
     system_id: str
     order_origin: str  # "request" (given) or "planned" (built for the hop set)
@@ -88,7 +95,7 @@ class TrafficFigures:
     attempt_latency_s: tuple[float, ...]  # latency of delivery at attempt k, arriving as a dwell starts
     delivered_at_attempt: tuple[float, ...]  # P(delivered at attempt k), k = 1..R
     undelivered: Estimate  # P(every attempt lost)
-    latency_quantiles_s: tuple[tuple[float, float | None], ...]  # (level, latency or None: never reached)
+    latency_quantiles: tuple[Quantile, ...]
     lost_attempt_runs: tuple[float, ...]  # P(the first n attempts of a message lost), n = 1..R
     lost_message_runs_per_hour: tuple[float, ...]  # runs of lost messages reaching n, per hour, n = 1..
     deadline: Estimate | None  # P(delivered within deadline_s)
@@ -339,12 +346,31 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
         dwell_s=system.dwell_s, attempt_latency_s=tuple(float(x) for x in offsets),
         delivered_at_attempt=tuple(float(x) for x in weights),
         undelivered=_estimate(undelivered, lay.exact, und_dom),
-        latency_quantiles_s=tuple((q, latency.quantile(q, weights, offsets, system.dwell_s))
-                                  for q in latency.LEVELS),
+        latency_quantiles=tuple(Quantile(q, latency.quantile(q, weights, offsets, system.dwell_s))
+                                for q in latency.LEVELS),
         lost_attempt_runs=tuple(float(x) for x in base.lost_attempts.mean(axis=0)),
         lost_message_runs_per_hour=tuple(float(x) * per_hour for x in base.rates.mean(axis=0)),
         deadline=deadline, meets_deadline=meets_deadline, watchdog_messages=m, stops_per_hour=stops,
         meets_stops=meets_stops, phase_samples=int(lay.hops.shape[0]), exact=lay.exact, requirement=traffic)
+
+
+def work_cells(prep: PreparedSite, orders, v: int, samples: int = PHASE_SAMPLES) -> int:
+    """Hop cells the chain of system v holds per configuration: samples x messages x hops per message."""
+    system = prep.site.systems[v]
+    g = message_hops(system, system.traffic)
+    size = np.asarray(orders[v]).size
+    messages = size // math.gcd(size, g) + max(watchdog_messages(system, system.traffic) or 0, DEFAULT_RUNS)
+    return samples * messages * (system.retry_limit + 1) * system.hops_per_attempt
+
+
+def work_problems(prep: PreparedSite, orders, samples: int = PHASE_SAMPLES) -> list[tuple[tuple, str]]:
+    """Systems whose traffic chain would exceed `limits.MAX_TRAFFIC_CELLS` (path under the site, message)."""
+    out = []
+    for v, s in enumerate(prep.site.systems):
+        if s.traffic is not None and (cells := work_cells(prep, orders, v, samples)) > limits.MAX_TRAFFIC_CELLS:
+            out.append((("systems", v, "traffic"), f"its figures would need {cells} hop cells, above the cap of "
+                        f"{limits.MAX_TRAFFIC_CELLS}; a shorter hop order, watchdog or retry limit lowers it"))
+    return out
 
 
 def site_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, origins,
