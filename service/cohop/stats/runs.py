@@ -54,7 +54,7 @@ def recurrence_probabilities(p: float, m: int, n: int) -> np.ndarray:
     u[0] = 1.0
     powers = p ** np.arange(m)
     for k in range(m, n + 1):
-        u[k] = p**m - sum(powers[j] * u[k - j] for j in range(1, m))
+        u[k] = p**m - float(powers[1:] @ u[k - 1:k - m:-1]) if m > 1 else p
     return u
 
 
@@ -63,7 +63,7 @@ def first_run_probabilities(p: float, m: int, n: int) -> np.ndarray:
     u = recurrence_probabilities(p, m, n)
     f = np.zeros(n + 1)
     for k in range(1, n + 1):
-        f[k] = u[k] - sum(f[j] * u[k - j] for j in range(1, k))
+        f[k] = u[k] - float(f[1:k] @ u[k - 1:0:-1])
     return f
 
 
