@@ -264,7 +264,8 @@ def _chain_run(q: np.ndarray, a, gap, fade: float, hops_per_attempt: int, longes
     """One chain call over C stacked configurations q (C, J, M, H) sharing a, gap and the fade."""
     pi = chain.stationary(fade)
     fp, s, dl, ls = chain.message_matrices(q, a, gap, hops_per_attempt)
-    delivered, lost = chain.attempt_figures(fp, s, pi)
+    # the last M - longest messages are the ones whose positions cover the order evenly (the runs end there)
+    delivered, lost = chain.attempt_figures(fp[..., longest:, :, :, :], s[..., longest:, :, :, :], pi)
     rates = chain.run_rates(dl, ls, pi, longest)
     return [_Run(delivered[i], lost[i], rates[i]) for i in range(q.shape[0])]
 
@@ -318,18 +319,20 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
     offsets = latency.attempt_offsets_s(attempts, per, system.dwell_s, system.packet_airtime_s)
     per_hour = 3600.0 / interval
 
-    def deadline_of(run: _Run) -> np.ndarray:
-        return latency.cdf(traffic.deadline_s, run.delivered, offsets, system.dwell_s)
+    def missed(run: _Run) -> np.ndarray:
+        """P(not delivered within the deadline): every attempt lost, plus late deliveries (summed, not
+        1 - P(met), so that small figures keep their digits)."""
+        return run.lost_attempts[:, -1] + latency.late(traffic.deadline_s, run.delivered, offsets, system.dwell_s)
 
     removed = runs
-    undelivered = 1.0 - base.delivered.sum(axis=1)
-    und_dom = _dominant({n: float((1.0 - r.delivered.sum(axis=1)).mean()) for n, r in removed.items()},
+    undelivered = base.lost_attempts[:, -1]  # pi F_1 ... F_R 1: no cancellation
+    und_dom = _dominant({n: float(r.lost_attempts[:, -1].mean()) for n, r in removed.items()},
                         float(undelivered.mean()))
     deadline = meets_deadline = None
     if traffic.deadline_s is not None:
-        missed = 1.0 - deadline_of(base)
-        dom = _dominant({n: float((1.0 - deadline_of(r)).mean()) for n, r in removed.items()}, float(missed.mean()))
-        deadline = _estimate(1.0 - missed, lay.exact, dom)
+        miss = missed(base)
+        dom = _dominant({n: float(missed(r).mean()) for n, r in removed.items()}, float(miss.mean()))
+        deadline = _estimate(1.0 - miss, lay.exact, dom)
         if traffic.deadline_probability is not None:
             meets_deadline = deadline.interval[0] >= traffic.deadline_probability
     stops = meets_stops = None

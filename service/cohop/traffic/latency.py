@@ -27,6 +27,12 @@ def cdf(x_s: float, weights, offsets_s, dwell_s: float):
     return np.sum(w * np.clip((x_s - c) / dwell_s, 0.0, 1.0), axis=-1)
 
 
+def late(x_s: float, weights, offsets_s, dwell_s: float):
+    """P(delivered, but later than x): sum_k w_k (1 - clip((x - c_k) / D_v, 0, 1))."""
+    w, c = np.asarray(weights, dtype=float), np.asarray(offsets_s, dtype=float)
+    return np.sum(w * (1.0 - np.clip((x_s - c) / dwell_s, 0.0, 1.0)), axis=-1)
+
+
 def quantile(level: float, weights, offsets_s, dwell_s: float) -> float | None:
     """Smallest x with P(latency <= x) >= level, or None when less than `level` is ever delivered.
 
