@@ -45,7 +45,46 @@ def assessment_table(result: Assessment) -> str:
         out += [f"  {sid}: {f.status} {f.rule}: {f.message} [{f.citation}; {f.certainty}]" for sid, f in flagged]
     if result.simulation:
         out += ["", _simulation_lines(result)]
+    out += traffic_lines(result.raw.get("traffic"))
     return "\n".join(out + _cautions(result.cautions))
+
+
+def _ms(x: float | None) -> str:
+    return "never" if x is None else f"{1e3 * x:.1f}"
+
+
+def _verdict(flag: bool | None) -> str:
+    return "" if flag is None else ": met" if flag else ": NOT met"
+
+
+def traffic_lines(traffic: list | None) -> list[str]:
+    """The traffic figures (`cohop.traffic`), one paragraph per system, with their model and caution."""
+    if not traffic:
+        return []
+    out = ["", "traffic (" + traffic[0]["caution"] + "):", "  model: " + traffic[0]["model"]]
+    for t in traffic:
+        req = t["requirement"]
+        quant = "/".join(_ms(q["latency_s"]) for q in t["latency_quantiles"])
+        levels = "/".join(f"{100 * q['level']:g}" for q in t["latency_quantiles"])
+        how = "exact" if t["exact"] else f"{t['phase_samples']} phase samples, 95 % interval"
+        parts = [f"order {t['order_origin']} ({t['order_length']} hops), a message every "
+                 f"{t['message_interval_s']:.3g} s, {how}",
+                 f"latency {levels} %: {quant} ms; never delivered {_pct(t['undelivered']['value'])}"]
+        if t["deadline"] is not None:
+            d = t["deadline"]
+            need = "" if req["deadline_probability"] is None else f"; may miss {_pct(1 - req['deadline_probability'])}"
+            parts.append(f"miss the {req['deadline_s']:g} s deadline: {_pct(1 - d['value'])} (<= "
+                         f"{_pct(1 - d['interval'][0])}{need}{_verdict(t['meets_deadline'])}; main source "
+                         f"{d['dominant_source'] or '-'})")
+        if t["stops_per_hour"] is not None:
+            st = t["stops_per_hour"]
+            limit = "" if req["max_stops_per_hour"] is None else f"; limit {req['max_stops_per_hour']:g}"
+            parts.append(f"watchdog {req['watchdog_s']:g} s = {t['watchdog_messages']} messages: {st['value']:.3g} "
+                         f"stops/h (<= {st['interval'][1]:.3g}{limit}{_verdict(t['meets_stops'])}; main source "
+                         f"{st['dominant_source'] or '-'})")
+        out.append(textwrap.fill(f"{t['id']}: " + "; ".join(parts), 100, initial_indent="  ",
+                                 subsequent_indent="      "))
+    return out
 
 
 def plan_table(result: Plan) -> str:
