@@ -106,6 +106,15 @@ class TrafficFigures:
     phase_samples: int
     exact: bool
     requirement: Traffic
+    #: clearance: allowed / predicted (the interval's worse end); >= 1 clears the requirement, None: no
+    #: requirement, inf: nothing predicted
+    deadline_clearance: float | None = None
+    stops_clearance: float | None = None
+    #: the planner's per-hop collision ceiling for this requirement (`cohop.traffic.ceiling`; inf: none,
+    #: -1: fading alone fails it), the hop set's mean per-hop collision, and whether the ceiling binds
+    collision_ceiling: float = math.inf
+    collision_probability: float = 0.0
+    ceiling_binds: bool = False
     model: str = MODEL
     caution: str = CAUTION
     assumptions: tuple[str, ...] = ASSUMPTIONS
@@ -344,6 +353,16 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
         if traffic.max_stops_per_hour is not None:
             meets_stops = stops.interval[1] <= traffic.max_stops_per_hour
     weights = base.delivered.mean(axis=0)
+    deadline_clearance = stops_clearance = None
+    if deadline is not None and traffic.deadline_probability is not None:
+        deadline_clearance = _ratio(1.0 - traffic.deadline_probability, 1.0 - deadline.interval[0])
+    if stops is not None and traffic.max_stops_per_hour is not None:
+        stops_clearance = _ratio(traffic.max_stops_per_hour, stops.interval[1])
+    from cohop.traffic.ceiling import collision_ceiling
+
+    ceiling = collision_ceiling(system, losses.fade_probability)
+    collision = float((1.0 - np.prod(1.0 - np.vstack([np.delete(losses.systems, v, axis=0), losses.interferers]),
+                                     axis=0)).mean())
     return TrafficFigures(
         system_id=system.id, order_origin=origin, order_length=int(order_v.size), message_interval_s=interval,
         dwell_s=system.dwell_s, attempt_latency_s=tuple(float(x) for x in offsets),
@@ -354,7 +373,13 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
         lost_attempt_runs=tuple(float(x) for x in base.lost_attempts.mean(axis=0)),
         lost_message_runs_per_hour=tuple(float(x) * per_hour for x in base.rates.mean(axis=0)),
         deadline=deadline, meets_deadline=meets_deadline, watchdog_messages=m, stops_per_hour=stops,
-        meets_stops=meets_stops, phase_samples=int(lay.hops.shape[0]), exact=lay.exact, requirement=traffic)
+        meets_stops=meets_stops, phase_samples=int(lay.hops.shape[0]), exact=lay.exact, requirement=traffic,
+        deadline_clearance=deadline_clearance, stops_clearance=stops_clearance, collision_ceiling=ceiling,
+        collision_probability=collision, ceiling_binds=bool(math.isfinite(ceiling) and collision >= 0.99 * ceiling))
+
+
+def _ratio(allowed: float, predicted: float) -> float:
+    return math.inf if predicted <= 0.0 else allowed / predicted
 
 
 def work_cells(prep: PreparedSite, orders, v: int, samples: int = PHASE_SAMPLES) -> int:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from marshmallow import fields
 
+from cohop.api.schemas.dump import FiniteOrNull
 from cohop.api.schemas.site import StrictSchema
 
 
@@ -64,5 +65,16 @@ class TrafficFiguresSchema(StrictSchema):  # cohop.traffic.figures.TrafficFigure
         "description": "Expected watchdog stops per hour of operation: lost_message_runs_per_hour[m - 1]"})
     meets_stops = fields.Boolean(allow_none=True, metadata={
         "description": "The interval's upper end is within max_stops_per_hour"})
+    deadline_clearance = FiniteOrNull(allow_none=True, metadata={
+        "description": "Allowed miss share / predicted (interval's worse end): >= 1 clears the requirement; "
+                       "null: no requirement or nothing predicted"})
+    stops_clearance = FiniteOrNull(allow_none=True, metadata={
+        "description": "max_stops_per_hour / predicted (interval's upper end): >= 1 clears; null: no requirement "
+                       "or nothing predicted"})
+    collision_ceiling = FiniteOrNull(allow_none=True, metadata={
+        "description": "Per-hop collision ceiling the planner uses for this requirement (independent surrogate, "
+                       "inverted; cohop.traffic.ceiling); null: none; -1: fading alone fails it"})
+    collision_probability = fields.Float(metadata={"description": "The hop set's mean per-hop collision"})
+    ceiling_binds = fields.Boolean(metadata={"description": "The per-hop collision is within 1 % of the ceiling"})
     phase_samples = fields.Integer()
     exact = fields.Boolean(metadata={"description": "Every phase enumerated (no sampling)"})
