@@ -71,3 +71,28 @@ def test_bad_traffic_is_refused_with_its_pointer(traffic, pointer_field):
     assert r.status_code == 422
     pointers = [e["pointer"] for e in r.get_json()["errors"]]
     assert f"/site/systems/0/traffic/{pointer_field}" in pointers, pointers
+
+
+def test_a_plan_rechecks_its_traffic_along_its_own_sequences():
+    from cohop.api.app import create_app
+    from tests.planning.helpers import tiny_site
+
+    body = tiny_site(n_systems=3, n_channels=20)
+    body["systems"][0]["traffic"] = {"message_interval_s": 0.05, "deadline_s": 0.05, "deadline_probability": 0.99,
+                                     "watchdog_s": 0.2, "max_stops_per_hour": 1e-3}
+    r = create_app({"TESTING": True}).test_client().post(
+        "/v1/plans", json={"site": body, "search": {"time_limit_s": 1.0},
+                           "requirements": {"systems": [{"system": f"s{i}", "min_channels": 6, "max_channels": 6}
+                                                        for i in range(3)]}})
+    assert r.status_code == 200, r.get_json()
+    answer = r.get_json()
+    (t,) = answer["assessment"]["traffic"]
+    assert t["id"] == "s0" and t["order_origin"] == "planned"
+    assert t["order_length"] == 6  # the plan's own order over its 6 channels
+    clears = t["stops_clearance"] is None or t["stops_clearance"] >= 1
+    assert t["meets_stops"] == clears
+    assert t["collision_ceiling"] > 0 and "safety assessment" in t["caution"]
+    assert t["ceiling_binds"] == (t["collision_probability"] >= 0.99 * t["collision_ceiling"])
+    # the traffic figures read the same per-hop collision as the plan's assessment
+    assert t["collision_probability"] == pytest.approx(
+        answer["assessment"]["systems"][0]["per_hop"]["collision_probability"], rel=1e-9)
