@@ -153,8 +153,9 @@ CAPS = (
     ("simulated hops per system", MAX_SIMULATED_HOPS, "sequence_packets x (retry_limit + 1) x hops_per_attempt"),
     ("messages a watchdog covers", MAX_WATCHDOG_MESSAGES, "ceil(watchdog_s / message_interval_s); the run chain "
                                                            "steps that many messages"),
-    ("traffic hop cells per system", MAX_TRAFFIC_CELLS, "64 phase samples x messages (one order period and a "
-                                                        "watchdog's run) x hops per message: about a second"),
+    ("traffic hop cells per system", MAX_TRAFFIC_CELLS, "phase samples (64, fewer down to 8 to fit) x messages "
+                                                        "(one order period and a watchdog's run) x hops per "
+                                                        "message: about a second"),
     ("source-detail entries", MAX_SOURCE_DETAIL_ENTRIES, "per-channel breakdown by source (detail=source)"),
     ("field errors listed", MAX_FIELD_ERRORS, "per answer; errors_omitted counts the rest"),
 )

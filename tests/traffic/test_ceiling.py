@@ -5,6 +5,7 @@ from __future__ import annotations
 import dataclasses
 import math
 
+import numpy as np
 import pytest
 
 from cohop.planning.instance import build_instance
@@ -70,3 +71,22 @@ def test_the_planning_instance_takes_the_traffic_ceiling():
     inst = build_instance(prep, PlanRequirements())
     want = ceiling.collision_ceiling(site.systems[0], float(prep.fade_probability[0]))
     assert inst.ceilings[0] == pytest.approx(want) and math.isinf(inst.ceilings[1])
+
+
+def test_work_cap_lowers_the_phase_samples_then_refuses(monkeypatch):
+    from cohop import limits
+    from cohop.traffic import figures
+
+    traffic = Traffic(message_interval_s=0.004, watchdog_s=0.04)
+    site = sites.load(sites.site([sites.system("A", sequence=list(range(10))), sites.system("B", hop_set=range(5))]))
+    site = dataclasses.replace(site, systems=(dataclasses.replace(site.systems[0], traffic=traffic), site.systems[1]))
+    prep = prepare_site(site)
+    orders = [np.arange(10), np.arange(5)]
+    per_sample = figures.work_cells(prep, orders, 0, 1)
+    monkeypatch.setattr(limits, "MAX_TRAFFIC_CELLS", 20 * per_sample)
+    assert figures.samples_within_cap(prep, orders, 0) == 20
+    (fig,) = figures.site_traffic(prep, [np.arange(10), np.arange(5)], orders, ["request", "request"])
+    assert fig.phase_samples == 20
+    monkeypatch.setattr(limits, "MAX_TRAFFIC_CELLS", 7 * per_sample)
+    assert figures.site_traffic(prep, [np.arange(10), np.arange(5)], orders, ["request", "request"]) == ()
+    assert [p[0] for p in figures.work_problems(prep, orders)] == [("systems", 0, "traffic")]

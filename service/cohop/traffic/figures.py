@@ -47,8 +47,10 @@ from cohop.traffic import chain, latency
 from cohop.traffic.hits import dwell_counts, survival_given_phase
 from cohop.traffic.pieces import ChannelLosses, channel_losses
 
-#: Stratified phase samples when the phases cannot be enumerated.
+#: Stratified phase samples when the phases cannot be enumerated (fewer, down to MIN_PHASE_SAMPLES, where the
+#: work cap `limits.MAX_TRAFFIC_CELLS` calls for it).
 PHASE_SAMPLES = 64
+MIN_PHASE_SAMPLES = 8
 #: Idle hops after which a message's fade state is taken as forgotten.
 GAP_HOPS = 64
 #: Normal quantile of the reported intervals (two-sided 95 %).
@@ -391,8 +393,16 @@ def work_cells(prep: PreparedSite, orders, v: int, samples: int = PHASE_SAMPLES)
     return samples * messages * (system.retry_limit + 1) * system.hops_per_attempt
 
 
-def work_problems(prep: PreparedSite, orders, samples: int = PHASE_SAMPLES) -> list[tuple[tuple, str]]:
-    """Systems whose traffic chain would exceed `limits.MAX_TRAFFIC_CELLS` (path under the site, message)."""
+def samples_within_cap(prep: PreparedSite, orders, v: int, samples: int = PHASE_SAMPLES) -> int | None:
+    """Phase samples for system v: `samples`, fewer where the chain would exceed `limits.MAX_TRAFFIC_CELLS`,
+    None where even MIN_PHASE_SAMPLES would."""
+    fit = limits.MAX_TRAFFIC_CELLS // work_cells(prep, orders, v, 1)
+    return min(samples, fit) if fit >= MIN_PHASE_SAMPLES else None
+
+
+def work_problems(prep: PreparedSite, orders, samples: int = MIN_PHASE_SAMPLES) -> list[tuple[tuple, str]]:
+    """Systems whose traffic chain would exceed `limits.MAX_TRAFFIC_CELLS` even with `samples` phase samples
+    (path under the site, message)."""
     out = []
     for v, s in enumerate(prep.site.systems):
         if s.traffic is not None and (cells := work_cells(prep, orders, v, samples)) > limits.MAX_TRAFFIC_CELLS:
@@ -403,6 +413,11 @@ def work_problems(prep: PreparedSite, orders, samples: int = PHASE_SAMPLES) -> l
 
 def site_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, origins,
                  samples: int = PHASE_SAMPLES, seed: int = 0) -> tuple[TrafficFigures, ...]:
-    """`system_traffic` for every system that carries `traffic` (`origins[v]`: where its order came from)."""
-    return tuple(system_traffic(prep, hop_sets, orders, v, origins[v], samples, seed)
-                 for v, s in enumerate(prep.site.systems) if s.traffic is not None)
+    """`system_traffic` for every system that carries `traffic` (`origins[v]`: where its order came from), with
+    fewer phase samples where the work cap calls for it; a system whose chain exceeds the cap even then is left
+    out (an assessment refuses it beforehand with `work_problems`)."""
+    out = []
+    for v, s in enumerate(prep.site.systems):
+        if s.traffic is not None and (n := samples_within_cap(prep, orders, v, samples)) is not None:
+            out.append(system_traffic(prep, hop_sets, orders, v, origins[v], n, seed))
+    return tuple(out)
