@@ -75,10 +75,10 @@ def traffic_lines(traffic: list | None) -> list[str]:
                  f"{t['message_interval_s']:.3g} s, {how}",
                  f"latency {levels} %: {quant} ms; never delivered {_pct(t['undelivered']['value'])}"]
         if t["deadline"] is not None:
-            d = t["deadline"]
+            d = t["deadline_missed"]
             need = "" if req["deadline_probability"] is None else f"; may miss {_pct(1 - req['deadline_probability'])}"
-            parts.append(f"miss the {req['deadline_s']:g} s deadline: {_pct(1 - d['value'])} (<= "
-                         f"{_pct(1 - d['interval'][0])}{need}{_verdict(t['meets_deadline'])}; main source "
+            parts.append(f"miss the {req['deadline_s']:g} s deadline: {_pct(d['value'])} (<= "
+                         f"{_pct(d['interval'][1])}{need}{_verdict(t['meets_deadline'])}; main source "
                          f"{d['dominant_source'] or '-'}{_clear(t['deadline_clearance'])})")
         if t["stops_per_hour"] is not None:
             st = t["stops_per_hour"]

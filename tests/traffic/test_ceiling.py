@@ -14,7 +14,7 @@ from cohop.prepare import prepare_site
 from cohop.site import Traffic
 from cohop.stats import runs
 from cohop.traffic import ceiling, latency
-from cohop.traffic.figures import message_hops, watchdog_messages
+from cohop.traffic.messages import message_hops, watchdog_messages
 from tests import sites
 from tests.planning.helpers import tiny_site
 

@@ -102,6 +102,8 @@ def test_figures_recompute_from_their_parts():
     cdf = latency.cdf(traffic.deadline_s, fig.delivered_at_attempt, fig.attempt_latency_s, fig.dwell_s)
     assert fig.deadline.value == pytest.approx(float(cdf), rel=1e-12)
     assert fig.deadline.interval[0] <= fig.deadline.value <= fig.deadline.interval[1]
+    assert fig.deadline_missed.value == pytest.approx(1 - fig.deadline.value, abs=1e-15)
+    assert fig.meets_deadline == (fig.deadline_missed.interval[1] <= 1 - traffic.deadline_probability)
     assert fig.stops_per_hour.value * fig.message_interval_s / 3600 == pytest.approx(
         fig.lost_message_runs_per_hour[fig.watchdog_messages - 1] * fig.message_interval_s / 3600, rel=1e-12)
     assert fig.undelivered.value == pytest.approx(1 - sum(fig.delivered_at_attempt), abs=1e-12)

@@ -20,7 +20,7 @@ import math
 
 from cohop.site import System
 from cohop.traffic import latency
-from cohop.traffic.figures import message_hops, watchdog_messages
+from cohop.traffic.messages import message_hops, watchdog_messages
 
 _STEPS = 60
 

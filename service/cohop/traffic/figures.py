@@ -40,11 +40,14 @@ import numpy as np
 
 from cohop import limits
 from cohop.prepare import PreparedSite
+from cohop.sequences.report import delay_spread
 from cohop.site import Traffic
 from cohop.stats import hopping
 from cohop.stats.runs import fade_transitions
 from cohop.traffic import chain, latency
+from cohop.traffic.ceiling import collision_ceiling
 from cohop.traffic.hits import dwell_counts, survival_given_phase
+from cohop.traffic.messages import message_hops, watchdog_messages
 from cohop.traffic.pieces import ChannelLosses, channel_losses
 
 #: Stratified phase samples when the phases cannot be enumerated (fewer, down to MIN_PHASE_SAMPLES, where the
@@ -101,6 +104,7 @@ class TrafficFigures:
     lost_attempt_runs: tuple[float, ...]  # P(the first n attempts of a message lost), n = 1..R
     lost_message_runs_per_hour: tuple[float, ...]  # runs of lost messages reaching n, per hour, n = 1..
     deadline: Estimate | None  # P(delivered within deadline_s)
+    deadline_missed: Estimate | None  # its complement, computed as such (small figures keep their digits)
     meets_deadline: bool | None
     watchdog_messages: int | None  # m: messages lost in a row that make a stop
     stops_per_hour: Estimate | None
@@ -130,19 +134,6 @@ class _Layout:
     phase: np.ndarray  # (J, S) each source system's phase as a share of its period (0 where not sampled)
     interferer_on: np.ndarray  # (J, K) bool
     exact: bool
-
-
-def message_hops(system, traffic: Traffic) -> int:
-    """g: whole dwells between message starts (step 1)."""
-    span = (system.retry_limit + 1) * system.hops_per_attempt
-    return max(math.ceil(traffic.message_interval_s / system.dwell_s - 1e-9), span, 1)
-
-
-def watchdog_messages(system, traffic: Traffic) -> int | None:
-    """m = ceil(watchdog_s / I) (step 6)."""
-    if traffic.watchdog_s is None:
-        return None
-    return max(1, math.ceil(traffic.watchdog_s / (message_hops(system, traffic) * system.dwell_s) - 1e-9))
 
 
 def _sampled_sources(prep: PreparedSite, v: int, orders, losses: ChannelLosses) -> tuple[list[int], list[int]]:
@@ -308,8 +299,6 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
                    samples: int = PHASE_SAMPLES, seed: int = 0) -> TrafficFigures:
     """The traffic figures of system v (which must carry `traffic`), along `orders[v]`; `orders` holds one
     hop order per system (None where unknown: that neighbour hits independently per hop)."""
-    from cohop.sequences.report import delay_spread
-
     system = prep.site.systems[v]
     traffic = system.traffic
     order_v = np.asarray(orders[v], dtype=np.int64)
@@ -339,13 +328,15 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
     undelivered = base.lost_attempts[:, -1]  # pi F_1 ... F_R 1: no cancellation
     und_dom = _dominant({n: float(r.lost_attempts[:, -1].mean()) for n, r in removed.items()},
                         float(undelivered.mean()))
-    deadline = meets_deadline = None
+    deadline = deadline_missed = meets_deadline = None
     if traffic.deadline_s is not None:
         miss = missed(base)
         dom = _dominant({n: float(missed(r).mean()) for n, r in removed.items()}, float(miss.mean()))
-        deadline = _estimate(1.0 - miss, lay.exact, dom)
+        deadline_missed = _estimate(miss, lay.exact, dom)
+        lo, hi = deadline_missed.interval
+        deadline = Estimate(1.0 - deadline_missed.value, (1.0 - hi, 1.0 - lo), dom)
         if traffic.deadline_probability is not None:
-            meets_deadline = deadline.interval[0] >= traffic.deadline_probability
+            meets_deadline = hi <= 1.0 - traffic.deadline_probability
     stops = meets_stops = None
     if m is not None:
         stop = base.rates[:, m - 1] * per_hour
@@ -357,11 +348,9 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
     weights = base.delivered.mean(axis=0)
     deadline_clearance = stops_clearance = None
     if deadline is not None and traffic.deadline_probability is not None:
-        deadline_clearance = _ratio(1.0 - traffic.deadline_probability, 1.0 - deadline.interval[0])
+        deadline_clearance = _ratio(1.0 - traffic.deadline_probability, deadline_missed.interval[1])
     if stops is not None and traffic.max_stops_per_hour is not None:
         stops_clearance = _ratio(traffic.max_stops_per_hour, stops.interval[1])
-    from cohop.traffic.ceiling import collision_ceiling
-
     ceiling = collision_ceiling(system, losses.fade_probability)
     collision = float((1.0 - np.prod(1.0 - np.vstack([np.delete(losses.systems, v, axis=0), losses.interferers]),
                                      axis=0)).mean())
@@ -374,7 +363,7 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
                                 for q in latency.LEVELS),
         lost_attempt_runs=tuple(float(x) for x in base.lost_attempts.mean(axis=0)),
         lost_message_runs_per_hour=tuple(float(x) * per_hour for x in base.rates.mean(axis=0)),
-        deadline=deadline, meets_deadline=meets_deadline, watchdog_messages=m, stops_per_hour=stops,
+        deadline=deadline, deadline_missed=deadline_missed, meets_deadline=meets_deadline, watchdog_messages=m, stops_per_hour=stops,
         meets_stops=meets_stops, phase_samples=int(lay.hops.shape[0]), exact=lay.exact, requirement=traffic,
         deadline_clearance=deadline_clearance, stops_clearance=stops_clearance, collision_ceiling=ceiling,
         collision_probability=collision, ceiling_binds=bool(math.isfinite(ceiling) and collision >= 0.99 * ceiling))

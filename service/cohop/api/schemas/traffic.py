@@ -57,6 +57,8 @@ class TrafficFiguresSchema(StrictSchema):  # cohop.traffic.figures.TrafficFigure
                        "once), n = 1.."})
     deadline = fields.Nested(EstimateSchema, allow_none=True, metadata={
         "description": "P(delivered within deadline_s)"})
+    deadline_missed = fields.Nested(EstimateSchema, allow_none=True, metadata={
+        "description": "P(not delivered within deadline_s), computed as such: 1 - deadline, with all its digits"})
     meets_deadline = fields.Boolean(allow_none=True, metadata={
         "description": "The interval's lower end reaches deadline_probability"})
     watchdog_messages = fields.Integer(allow_none=True, metadata={
