@@ -131,3 +131,26 @@ def test_agrees_with_the_sequence_driven_simulation():
     lo = min(fig.undelivered.interval[0], fig.undelivered.value)
     hi = max(fig.undelivered.interval[1], fig.undelivered.value)
     assert lo <= sim.residual_interval[1] and sim.residual_interval[0] <= hi, (fig.undelivered, sim)
+
+
+def test_dominant_source_is_the_one_whose_removal_helps_most():
+    # two neighbours without known orders (independent per hop): B at 40 dB coupling hits far more hops of
+    # A than C at 68 dB; no fading. Removing B lowers every figure most, so B dominates each.
+    traffic = Traffic(message_interval_s=0.004, deadline_s=0.0015, deadline_probability=0.99, watchdog_s=0.008)
+    systems = [sites.system("A", sequence=ORDER, fading={"model": "none"}, retry_limit=1),
+               sites.system("B", hop_set=range(12)), sites.system("C", hop_set=range(12))]
+    body = sites.site(systems, coupling_loss_db=None, n_channels=12)
+    body["coupling"] = {"entries": [{"from_system": "A", "to_system": "B", "loss_db": 40.0},
+                                    {"from_system": "A", "to_system": "C", "loss_db": 68.0},
+                                    {"from_system": "B", "to_system": "C", "loss_db": 60.0}]}
+    site = sites.load(body)
+    site = dataclasses.replace(site, systems=(dataclasses.replace(site.systems[0], traffic=traffic),)
+                               + site.systems[1:])
+    prep = prepare_site(site)
+    sets, _ = resolve_hop_sets(prep)
+    losses = channel_losses(prep, sets, 0)
+    assert losses.systems[1].mean() > losses.systems[2].mean() > 0  # both hit, B more
+    fig = system_traffic(prep, sets, [np.array(ORDER), None, None], 0, "request")
+    assert fig.undelivered.dominant_source == "B"
+    assert fig.deadline.dominant_source == "B"
+    assert fig.stops_per_hour.dominant_source == "B"
