@@ -73,20 +73,19 @@ def test_neighbour_without_order_is_the_independent_limit():
 
 
 def test_rare_stops_are_computed_and_match_feller():
-    # Rician fades are taken independent from hop to hop, so messages are independent trials lost with
-    # P = f^R, and runs reaching m per message are (1 - P) P^m (Feller's independent limit, [der] in
-    # cohop.stats.runs); far below anything a simulation could count, and never shown as 0
-    traffic = Traffic(message_interval_s=0.01, watchdog_s=0.05, max_stops_per_hour=1e-3)
-    prep = _prepared([sites.system("A", sequence=ORDER, fading={"model": "rician", "k_factor_db": 6.0},
-                                   fade_margin_db=15.0)], traffic)
+    # one attempt per message and messages 100 dwells apart (beyond GAP_HOPS, so their fades are taken as
+    # independent): messages are independent trials lost with the fade probability f, and runs reaching m
+    # per message are (1 - f) f^m (Feller's independent limit, [der] in cohop.stats.runs); far below anything
+    # a simulation could count, and never shown as 0
+    traffic = Traffic(message_interval_s=0.0625, watchdog_s=0.3125, max_stops_per_hour=1e-3)
+    prep = _prepared([sites.system("A", sequence=ORDER, fade_margin_db=25.0, retry_limit=0)], traffic)
     sets, _ = resolve_hop_sets(prep)
     fig = system_traffic(prep, sets, [np.array(ORDER)], 0, "request")
     f = float(prep.fade_probability[0])
-    big_p = f ** (prep.site.systems[0].retry_limit + 1)
     m = fig.watchdog_messages
-    assert m == 5 and fig.message_interval_s == pytest.approx(0.01, rel=1e-6)
-    want = (1 - big_p) * big_p**m * 3600 / fig.message_interval_s
-    assert fig.exact and 0 < fig.stops_per_hour.value < 1e-20
+    assert m == 5 and fig.message_interval_s == pytest.approx(0.0625, rel=1e-9)
+    want = (1 - f) * f**m * 3600 / fig.message_interval_s
+    assert fig.exact and 0 < fig.stops_per_hour.value * fig.message_interval_s / 3600 < 1e-12  # per message
     assert fig.stops_per_hour.value == pytest.approx(want, rel=1e-9)
     assert fig.meets_stops is True
     assert fig.stops_per_hour.dominant_source == "fading"

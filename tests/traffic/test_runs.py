@@ -103,3 +103,35 @@ def test_fade_transitions_keep_the_marginal():
         assert stat @ m == pytest.approx(stat)
     assert t[0, 0, 1] == pytest.approx(f) and t[0, 1, 1] == pytest.approx(f)  # rho = 0: independent
     assert t[2, 1, 1] > t[1, 1, 1] > t[0, 1, 1]
+
+
+def _rician_pairs(k: float, rho: float, n: int, seed: int):
+    """Unit-mean Rician powers of two hops, line of sight fixed, diffuse parts with complex correlation
+    sqrt(rho): the construction of the sequence-driven simulation (cohop.sequences.simulate)."""
+    rng = np.random.default_rng(seed)
+    g1 = (rng.standard_normal(n) + 1j * rng.standard_normal(n)) / math.sqrt(2)
+    w = (rng.standard_normal(n) + 1j * rng.standard_normal(n)) / math.sqrt(2)
+    g2 = math.sqrt(rho) * g1 + math.sqrt(1 - rho) * w
+    nu, sd = math.sqrt(k / (k + 1)), math.sqrt(1 / (k + 1))
+    return np.abs(nu + sd * g1) ** 2, np.abs(nu + sd * g2) ** 2
+
+
+@pytest.mark.parametrize("k_db,rho", [(6.0, 0.7), (10.0, 0.3)])
+def test_rician_joint_fades_match_simulated_pairs(k_db, rho):
+    k, a = 10 ** (k_db / 10), 10 ** (-8 / 10)
+    p1, p2 = _rician_pairs(k, rho, 1_000_000, 11)
+    hits = float(np.mean((p1 < a) & (p2 < a)))
+    p = float(runs.rician_joint_fade_probability(a, k, rho)[0])
+    assert abs(hits - p) < 4 * math.sqrt(p * (1 - p) / 1_000_000) + 1e-6
+
+
+def test_rician_joint_fades_limits():
+    from cohop.physics.fading import rician_fade_probability
+
+    # K -> 0 is Rayleigh (Kibble's form); rho = 1 is the marginal (Rice, via scipy's ncx2 in physics.fading)
+    assert float(runs.rician_joint_fade_probability(0.1, 1e-9, 0.6)[0]) == pytest.approx(
+        float(runs.joint_fade_probability(0.1, 0.6)), rel=1e-6)
+    k_db, margin = 6.0, 10.0
+    f = float(rician_fade_probability(margin, k_db))
+    assert float(runs.rician_joint_fade_probability(10 ** (-margin / 10), 10 ** (k_db / 10), 1.0)[0]) == \
+        pytest.approx(f, rel=1e-6)

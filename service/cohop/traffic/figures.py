@@ -11,10 +11,11 @@ The model, step by step (each module holds its sources):
    its uniform-hopping figure from the assessment (`pieces.channel_losses`); a continuous fixed interferer
    is on or off for the whole stretch (its activity is the share of phase samples in which it is on);
    a bursty one hits independently per hop with its assessment figure.
-3. Fading (Rayleigh): a two-state chain between consecutive hops whose joint fade probability is Kibble's
-   for the power correlation of the two channels (Jakes' form with the site's delay spread;
-   `cohop.stats.runs.fade_transitions`); fades more than GAP_HOPS idle hops apart are taken as
-   independent. Rician fading is taken independent from hop to hop; "none" never fades.
+3. Fading: a two-state chain between consecutive hops whose joint fade probability is, for Rayleigh,
+   Kibble's for the power correlation of the two channels (Jakes' form with the site's delay spread;
+   `cohop.stats.runs.fade_transitions`) and, for Rician, the same diffuse correlation under a fixed line
+   of sight, by quadrature (`cohop.stats.runs.rician_fade_transitions`); fades more than GAP_HOPS idle
+   hops apart are taken as independent; "none" never fades.
 4. Given the phases, the chain of 2 x 2 matrices (`chain`) gives exactly: the probability of delivery at
    each attempt, of n lost attempts in a row, and of a run of lost messages reaching n (once per run).
 5. Phases: the victim's order offset s0 and every sampled neighbour's phase are uniform; the figures are
@@ -28,7 +29,8 @@ The model, step by step (each module holds its sources):
 
 Assumed independent: interference hits on different hops given the phases (a neighbour's activity per
 dwell, even when one of its dwells spans several of the victim's hops), interference and fading, the
-neighbours' phases of one another, fades more than GAP_HOPS idle hops apart, and Rician fades.
+neighbours' phases of one another, and fades more than GAP_HOPS idle hops apart. The fade chain is of first
+order: a fade depends on the previous hop's fade state only (not on its depth).
 """
 
 from __future__ import annotations
@@ -43,7 +45,7 @@ from cohop.prepare import PreparedSite
 from cohop.sequences.report import delay_spread
 from cohop.site import Traffic
 from cohop.stats import hopping
-from cohop.stats.runs import fade_transitions
+from cohop.stats.runs import fade_transitions, rician_fade_transitions
 from cohop.traffic import chain, latency
 from cohop.traffic.ceiling import collision_ceiling
 from cohop.traffic.hits import dwell_counts, survival_given_phase
@@ -71,7 +73,7 @@ CAUTION = ("planning estimate, not a safety figure: the machine's safety assessm
            "from them")
 ASSUMPTIONS = ("independent given the phases: interference hits on different hops, interference and fading",
                "a neighbour's activity is drawn per hop of the victim, even when one of its dwells spans several",
-               f"fades more than {GAP_HOPS} idle hops apart, and Rician fades, are independent",
+               f"fades more than {GAP_HOPS} idle hops apart are independent; the fade chain is of first order",
                "continuous fixed interferers are on or off for whole stretches; bursty ones hit per hop")
 
 
@@ -209,11 +211,15 @@ def _fade_matrices(prep: PreparedSite, v: int, order_v: np.ndarray, hops: np.nda
                    sigma_tau: float) -> tuple[np.ndarray, np.ndarray]:
     """(A (J, M, H, 2, 2) into each message hop, G (J, M, 2, 2) over the idle hops after each message), read
     from one transition per position of the order (they depend on the two channels only)."""
-    model = prep.site.systems[v].fading.model
+    fading = prep.site.systems[v].fading
     size = order_v.size
-    if model == "rayleigh":
-        df = np.abs(order_v - np.roll(order_v, 1)) * prep.spacing_hz  # into position t from t - 1
-        into = fade_transitions(fade, hopping.envelope_correlation(df, sigma_tau))
+    df = np.abs(order_v - np.roll(order_v, 1)) * prep.spacing_hz  # into position t from t - 1
+    rho = hopping.envelope_correlation(df, sigma_tau)
+    if fading.model == "rayleigh":
+        into = fade_transitions(fade, rho)
+    elif fading.model == "rician" and 0.0 < fade < 1.0:
+        threshold = 10.0 ** (-float(prep.fade_margin_db[v]) / 10.0)
+        into = rician_fade_transitions(fade, threshold, 10.0 ** (fading.k_factor_db / 10.0), rho)
     else:
         into = np.empty((size, 2, 2))
         into[:, :, 0], into[:, :, 1] = 1.0 - fade, fade
