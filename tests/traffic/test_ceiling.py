@@ -78,7 +78,8 @@ def test_work_cap_lowers_the_phase_samples_then_refuses(monkeypatch):
     from cohop.traffic import figures
 
     traffic = Traffic(message_interval_s=0.004, watchdog_s=0.04)
-    site = sites.load(sites.site([sites.system("A", sequence=list(range(10))), sites.system("B", hop_set=range(5))]))
+    site = sites.load(sites.site([sites.system("A", sequence=list(range(10))),
+                                  sites.system("B", hop_set=range(5), dwell_s=1.25e-3, packet_airtime_s=1e-3)]))
     site = dataclasses.replace(site, systems=(dataclasses.replace(site.systems[0], traffic=traffic), site.systems[1]))
     prep = prepare_site(site)
     orders = [np.arange(10), np.arange(5)]

@@ -93,7 +93,9 @@ def test_rare_stops_are_computed_and_match_feller():
 
 def test_figures_recompute_from_their_parts():
     traffic = Traffic(message_interval_s=0.004, deadline_s=0.0021, deadline_probability=0.999, watchdog_s=0.012)
-    prep = _prepared([sites.system("A", sequence=ORDER), sites.system("B", hop_set=range(0, 8))], traffic)
+    # B dwells twice as long as A: its phases are sampled (stratified), not enumerated
+    prep = _prepared([sites.system("A", sequence=ORDER),
+                      sites.system("B", hop_set=range(0, 8), dwell_s=1.25e-3, packet_airtime_s=1e-3)], traffic)
     sets, _ = resolve_hop_sets(prep)
     orders = [np.array(ORDER), build_sequences(prep, sets)[0][1].channels]
     fig = system_traffic(prep, sets, orders, 0, "request")
@@ -153,3 +155,25 @@ def test_dominant_source_is_the_one_whose_removal_helps_most():
     assert fig.undelivered.dominant_source == "B"
     assert fig.deadline.dominant_source == "B"
     assert fig.stops_per_hour.dominant_source == "B"
+
+
+def test_enumerated_phases_agree_with_many_stratified_samples(monkeypatch):
+    # one neighbour with A's dwell: its phase classes (dwell offset x stretch of the fraction between the
+    # overlap breakpoints 1 - T_b / D = 0.52 and T_a / D = 0.64) are enumerated with their weights (exact);
+    # 4096 stratified samples of the continuous phase (the same model, sampled) must bracket each figure
+    from cohop.traffic import figures
+
+    traffic = Traffic(message_interval_s=0.0025, deadline_s=0.0012, watchdog_s=0.005)
+    prep = _prepared([sites.system("A", sequence=ORDER, retry_limit=1, packet_airtime_s=400e-6),
+                      sites.system("B", hop_set=range(0, 8), packet_airtime_s=300e-6)], traffic)
+    sets, _ = resolve_hop_sets(prep)
+    orders = [np.array(ORDER), build_sequences(prep, sets)[0][1].channels]
+    exact = system_traffic(prep, sets, orders, 0, "request")
+    assert exact.exact and exact.phase_samples == 2 * orders[1].size * 3  # gcd(10, 4) starts x offsets x stretches
+    monkeypatch.setattr(figures, "MAX_LATTICE", 0)
+    sampled = system_traffic(prep, sets, orders, 0, "request", samples=4096)
+    assert not sampled.exact
+    for name in ("undelivered", "deadline", "stops_per_hour"):
+        e, s = getattr(exact, name), getattr(sampled, name)
+        assert s.interval[0] <= e.value <= s.interval[1], (name, e, s)
+    assert exact.undelivered.value > 1e-4  # a figure the comparison can see

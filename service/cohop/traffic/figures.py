@@ -20,8 +20,10 @@ The model, step by step (each module holds its sources):
    each attempt, of n lost attempts in a row, and of a run of lost messages reaching n (once per run).
 5. Phases: the victim's order offset s0 and every sampled neighbour's phase are uniform; the figures are
    averaged over them. With no unaligned neighbour and no part-time continuous interferer in reach,
-   every offset is enumerated (exact); otherwise PHASE_SAMPLES stratified samples (Latin hypercube) give
-   the mean and a 95 % interval, mean +- 1.96 s / sqrt(J) (conservative for stratified sampling).
+   every offset is enumerated (exact); with one unaligned neighbour of the victim's dwell, every phase
+   class is enumerated with its weight when there are at most MAX_LATTICE (`_lattice`: exact);
+   otherwise PHASE_SAMPLES stratified samples (Latin hypercube) give the mean and a 95 % interval,
+   mean +- 1.96 s / sqrt(J) (conservative for stratified sampling).
 6. Watchdog: a stop when m = ceil(watchdog_s / I) messages in a row are lost (no valid message for the
    watchdog time); stops per hour = (runs reaching m per message) x 3600 / I.
 7. Dominant source: the one whose removal lowers the figure most (fading counts as one source), tried
@@ -60,6 +62,8 @@ MIN_PHASE_SAMPLES = 8
 GAP_HOPS = 64
 #: Normal quantile of the reported intervals (two-sided 95 %).
 Z95 = 1.959963984540054
+#: Phase configurations enumerated at most (a single neighbour with the victim's dwell), else sampling.
+MAX_LATTICE = 512
 #: Sources tried for the dominant one: those that hit most along the order (with fading).
 DOMINANT_CANDIDATES = 3
 #: Runs of lost messages reported when no watchdog is given.
@@ -136,6 +140,7 @@ class _Layout:
     phase: np.ndarray  # (J, S) each source system's phase as a share of its period (0 where not sampled)
     interferer_on: np.ndarray  # (J, K) bool
     exact: bool
+    weights: np.ndarray  # (J,) summing to one
 
 
 def _sampled_sources(prep: PreparedSite, v: int, orders, losses: ChannelLosses) -> tuple[list[int], list[int]]:
@@ -148,15 +153,52 @@ def _sampled_sources(prep: PreparedSite, v: int, orders, losses: ChannelLosses) 
     return systems, itf
 
 
+def _lattice(prep: PreparedSite, v: int, order_len: int, g: int, systems: list[int], itf: list[int], orders,
+             most: int):
+    """Every phase of a single sampled neighbour with the victim's dwell, when there are few enough
+    (MAX_LATTICE, and within the work cap): its dwell offset j (whole dwells) and, within a dwell, the fraction u only matters through
+    whether a's dwell j + 1 earlier still overlaps (u > 1 - T_a / D) and whether dwell j starts inside the
+    packet (u < T_v / D) [der, from the overlap window in `hits`], so u takes one value per stretch between
+    those breakpoints, weighted by its length. (starts, phase (J, S) as shares of a's period, weights)."""
+    if len(systems) != 1 or itf:
+        return None
+    a = systems[0]
+    sv, sa = prep.site.systems[v], prep.site.systems[a]
+    if not math.isclose(sv.dwell_s, sa.dwell_s, rel_tol=1e-12) or orders[a] is None:
+        return None
+    size_a = int(np.asarray(orders[a]).size)
+    cuts = sorted({0.0, 1.0, *(x for x in (1.0 - sa.packet_airtime_s / sa.dwell_s, sv.packet_airtime_s / sv.dwell_s)
+                              if 0.0 < x < 1.0)})
+    pieces = [(lo, hi) for lo, hi in zip(cuts, cuts[1:]) if hi > lo]
+    n_starts = math.gcd(order_len, g)
+    if n_starts * size_a * len(pieces) > most:
+        return None
+    starts, phase, weights = [], [], []
+    for s0 in range(n_starts):
+        for j in range(size_a):
+            for lo, hi in pieces:
+                starts.append(s0)
+                phase.append((j + 0.5 * (lo + hi)) / size_a)
+                weights.append((hi - lo) / (n_starts * size_a))
+    ph = np.zeros((len(starts), prep.n_systems))
+    ph[:, a] = phase
+    return np.array(starts, dtype=np.int64), ph, np.array(weights)
+
+
 def _layout(prep: PreparedSite, v: int, order_len: int, g: int, messages: int, hops: int, sampled, seed: int,
-            samples: int) -> _Layout:
+            samples: int, orders=None) -> _Layout:
     systems, itf = sampled
     n_sys, n_itf = prep.n_systems, len(prep.site.interferers)
     base = np.arange(messages)[:, None] * g + np.arange(hops)[None, :]
     if not systems and not itf:
         starts = np.arange(math.gcd(order_len, g))
         return _Layout(starts[:, None, None] + base[None], np.zeros((starts.size, n_sys)),
-                       np.ones((starts.size, n_itf), dtype=bool), True)
+                       np.ones((starts.size, n_itf), dtype=bool), True, np.full(starts.size, 1.0 / starts.size))
+    most = min(MAX_LATTICE, limits.MAX_TRAFFIC_CELLS // (messages * hops))
+    if orders is not None and (lattice := _lattice(prep, v, order_len, g, systems, itf, orders, most)) is not None:
+        starts, phase, weights = lattice
+        return _Layout(starts[:, None, None] + base[None], phase, np.ones((starts.size, n_itf), dtype=bool), True,
+                       weights)
     rng = np.random.Generator(np.random.PCG64([seed, v, 13]))
 
     def strata() -> np.ndarray:
@@ -169,7 +211,7 @@ def _layout(prep: PreparedSite, v: int, order_len: int, g: int, messages: int, h
     on = np.ones((samples, n_itf), dtype=bool)
     for k in itf:
         on[:, k] = strata() < prep.interferer_links[v][k].activity_fraction
-    return _Layout(starts[:, None, None] + base[None], phase, on, False)
+    return _Layout(starts[:, None, None] + base[None], phase, on, False, np.full(samples, 1.0 / samples))
 
 
 def _pieces(prep: PreparedSite, v: int, orders, losses: ChannelLosses, lay: _Layout, sampled) -> list[tuple[str, np.ndarray]]:
@@ -278,9 +320,9 @@ def _chain_run(q: np.ndarray, a, gap, fade: float, hops_per_attempt: int, longes
     return [_Run(delivered[i], lost[i], rates[i]) for i in range(q.shape[0])]
 
 
-def _estimate(per_sample: np.ndarray, exact: bool, dominant: str | None) -> Estimate:
-    value = float(per_sample.mean())
-    if exact or per_sample.size < 2:
+def _estimate(per_sample: np.ndarray, lay: _Layout, dominant: str | None) -> Estimate:
+    value = float(lay.weights @ per_sample)
+    if lay.exact or per_sample.size < 2:
         return Estimate(value, (value, value), dominant)
     half = Z95 * float(per_sample.std(ddof=1)) / math.sqrt(per_sample.size)
     return Estimate(value, (max(0.0, value - half), value + half), dominant)
@@ -316,7 +358,7 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
     longest = max(m or 0, DEFAULT_RUNS)
     cover = order_v.size // math.gcd(order_v.size, g)
     sampled = _sampled_sources(prep, v, orders, losses)
-    lay = _layout(prep, v, order_v.size, g, cover + longest, attempts * per, sampled, seed, samples)
+    lay = _layout(prep, v, order_v.size, g, cover + longest, attempts * per, sampled, seed, samples, orders)
     pieces = _pieces(prep, v, orders, losses, lay, sampled)
     a, gap = _fade_matrices(prep, v, order_v, lay.hops, g, losses.fade_probability, delay_spread(prep))
     names = _candidates(pieces) + (["fading"] if losses.fade_probability > 0 else [])
@@ -325,6 +367,11 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
     offsets = latency.attempt_offsets_s(attempts, per, system.dwell_s, system.packet_airtime_s)
     per_hour = 3600.0 / interval
 
+    def avg(x: np.ndarray):
+        """Weighted mean over the phase samples (first axis)."""
+        out = np.tensordot(lay.weights, x, axes=(0, 0))
+        return float(out) if np.ndim(out) == 0 else out
+
     def missed(run: _Run) -> np.ndarray:
         """P(not delivered within the deadline): every attempt lost, plus late deliveries (summed, not
         1 - P(met), so that small figures keep their digits)."""
@@ -332,13 +379,12 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
 
     removed = runs
     undelivered = base.lost_attempts[:, -1]  # pi F_1 ... F_R 1: no cancellation
-    und_dom = _dominant({n: float(r.lost_attempts[:, -1].mean()) for n, r in removed.items()},
-                        float(undelivered.mean()))
+    und_dom = _dominant({n: avg(r.lost_attempts[:, -1]) for n, r in removed.items()}, avg(undelivered))
     deadline = deadline_missed = meets_deadline = None
     if traffic.deadline_s is not None:
         miss = missed(base)
-        dom = _dominant({n: float(missed(r).mean()) for n, r in removed.items()}, float(miss.mean()))
-        deadline_missed = _estimate(miss, lay.exact, dom)
+        dom = _dominant({n: avg(missed(r)) for n, r in removed.items()}, avg(miss))
+        deadline_missed = _estimate(miss, lay, dom)
         lo, hi = deadline_missed.interval
         deadline = Estimate(1.0 - deadline_missed.value, (1.0 - hi, 1.0 - lo), dom)
         if traffic.deadline_probability is not None:
@@ -346,12 +392,11 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
     stops = meets_stops = None
     if m is not None:
         stop = base.rates[:, m - 1] * per_hour
-        dom = _dominant({n: float(r.rates[:, m - 1].mean() * per_hour) for n, r in removed.items()},
-                        float(stop.mean()))
-        stops = _estimate(stop, lay.exact, dom)
+        dom = _dominant({n: avg(r.rates[:, m - 1]) * per_hour for n, r in removed.items()}, avg(stop))
+        stops = _estimate(stop, lay, dom)
         if traffic.max_stops_per_hour is not None:
             meets_stops = stops.interval[1] <= traffic.max_stops_per_hour
-    weights = base.delivered.mean(axis=0)
+    weights = avg(base.delivered)
     deadline_clearance = stops_clearance = None
     if deadline is not None and traffic.deadline_probability is not None:
         deadline_clearance = _ratio(1.0 - traffic.deadline_probability, deadline_missed.interval[1])
@@ -364,11 +409,11 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
         system_id=system.id, order_origin=origin, order_length=int(order_v.size), message_interval_s=interval,
         dwell_s=system.dwell_s, attempt_latency_s=tuple(float(x) for x in offsets),
         delivered_at_attempt=tuple(float(x) for x in weights),
-        undelivered=_estimate(undelivered, lay.exact, und_dom),
+        undelivered=_estimate(undelivered, lay, und_dom),
         latency_quantiles=tuple(Quantile(q, latency.quantile(q, weights, offsets, system.dwell_s))
                                 for q in latency.LEVELS),
-        lost_attempt_runs=tuple(float(x) for x in base.lost_attempts.mean(axis=0)),
-        lost_message_runs_per_hour=tuple(float(x) * per_hour for x in base.rates.mean(axis=0)),
+        lost_attempt_runs=tuple(float(x) for x in avg(base.lost_attempts)),
+        lost_message_runs_per_hour=tuple(float(x) * per_hour for x in avg(base.rates)),
         deadline=deadline, deadline_missed=deadline_missed, meets_deadline=meets_deadline, watchdog_messages=m, stops_per_hour=stops,
         meets_stops=meets_stops, phase_samples=int(lay.hops.shape[0]), exact=lay.exact, requirement=traffic,
         deadline_clearance=deadline_clearance, stops_clearance=stops_clearance, collision_ceiling=ceiling,
