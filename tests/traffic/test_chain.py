@@ -45,7 +45,8 @@ def test_independent_limit_runs_reproduce_feller(q, attempts, m):
     big_p = q**attempts
     assert rates == pytest.approx([(1 - big_p) * big_p**n for n in range(1, longest + 1)], rel=1e-12)
     renewal = sum(rates[j * m - 1] for j in range(1, 7))
-    assert renewal == pytest.approx(1 / runs.mean_trials_to_run(big_p, m), rel=2 * big_p ** (6 * m) + 1e-12)  # terms j > 6 left out
+    # terms j > 6 are left out of the sum
+    assert renewal == pytest.approx(1 / runs.mean_trials_to_run(big_p, m), rel=2 * big_p ** (6 * m) + 1e-12)
 
 
 @pytest.mark.parametrize("pi,rho,attempts", [(0.1, 0.5, 3), (0.3, 0.8, 2), (0.05, 0.0, 4)])

@@ -156,10 +156,10 @@ def _sampled_sources(prep: PreparedSite, v: int, orders, losses: ChannelLosses) 
 def _lattice(prep: PreparedSite, v: int, order_len: int, g: int, systems: list[int], itf: list[int], orders,
              most: int):
     """Every phase of a single sampled neighbour with the victim's dwell, when there are few enough
-    (MAX_LATTICE, and within the work cap): its dwell offset j (whole dwells) and, within a dwell, the fraction u only matters through
-    whether a's dwell j + 1 earlier still overlaps (u > 1 - T_a / D) and whether dwell j starts inside the
-    packet (u < T_v / D) [der, from the overlap window in `hits`], so u takes one value per stretch between
-    those breakpoints, weighted by its length. (starts, phase (J, S) as shares of a's period, weights)."""
+    (MAX_LATTICE, and within the work cap): its dwell offset j (whole dwells) and, within a dwell, the
+    fraction u, which only matters through whether a's dwell one earlier still overlaps (u > 1 - T_a / D)
+    and whether its dwell j starts inside the packet (u < T_v / D) [der, from the overlap window in
+    `hits`], so u takes one value per stretch between those breakpoints, weighted by its length. (starts, phase (J, S) as shares of a's period, weights)."""
     if len(systems) != 1 or itf:
         return None
     a = systems[0]
@@ -214,7 +214,8 @@ def _layout(prep: PreparedSite, v: int, order_len: int, g: int, messages: int, h
     return _Layout(starts[:, None, None] + base[None], phase, on, False, np.full(samples, 1.0 / samples))
 
 
-def _pieces(prep: PreparedSite, v: int, orders, losses: ChannelLosses, lay: _Layout, sampled) -> list[tuple[str, np.ndarray]]:
+def _pieces(prep: PreparedSite, v: int, orders, losses: ChannelLosses,
+            lay: _Layout) -> list[tuple[str, np.ndarray]]:
     """(source id, loss probability (J, M, H)) of every source that can hit v along the order."""
     site = prep.site
     system = site.systems[v]
@@ -359,7 +360,7 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
     cover = order_v.size // math.gcd(order_v.size, g)
     sampled = _sampled_sources(prep, v, orders, losses)
     lay = _layout(prep, v, order_v.size, g, cover + longest, attempts * per, sampled, seed, samples, orders)
-    pieces = _pieces(prep, v, orders, losses, lay, sampled)
+    pieces = _pieces(prep, v, orders, losses, lay)
     a, gap = _fade_matrices(prep, v, order_v, lay.hops, g, losses.fade_probability, delay_spread(prep))
     names = _candidates(pieces) + (["fading"] if losses.fade_probability > 0 else [])
     runs = _runs(pieces, a, gap, losses.fade_probability, per, longest, [None] + names)
@@ -414,7 +415,8 @@ def system_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, v: in
                                 for q in latency.LEVELS),
         lost_attempt_runs=tuple(float(x) for x in avg(base.lost_attempts)),
         lost_message_runs_per_hour=tuple(float(x) * per_hour for x in avg(base.rates)),
-        deadline=deadline, deadline_missed=deadline_missed, meets_deadline=meets_deadline, watchdog_messages=m, stops_per_hour=stops,
+        deadline=deadline, deadline_missed=deadline_missed, meets_deadline=meets_deadline, watchdog_messages=m,
+        stops_per_hour=stops,
         meets_stops=meets_stops, phase_samples=int(lay.hops.shape[0]), exact=lay.exact, requirement=traffic,
         deadline_clearance=deadline_clearance, stops_clearance=stops_clearance, collision_ceiling=ceiling,
         collision_probability=collision, ceiling_binds=bool(math.isfinite(ceiling) and collision >= 0.99 * ceiling))
