@@ -128,6 +128,8 @@ SIMULATION_SEED = Bound(0, 2**63 - 1, "", "the Monte Carlo seed")
 MAX_WATCHDOG_MESSAGES = 1000
 #: Hop cells (phase samples x messages x hops per message) of one system's traffic chain.
 MAX_TRAFFIC_CELLS = 2_000_000
+#: Hop cells of all systems' traffic chains together.
+MAX_TRAFFIC_CELLS_TOTAL = 20_000_000
 #: Per-channel, per-source entries a "source" detail response may carry.
 MAX_SOURCE_DETAIL_ENTRIES = 500_000
 #: Field errors listed in one problem-details answer (the rest are counted in `errors_omitted`).
@@ -156,6 +158,8 @@ CAPS = (
     ("traffic hop cells per system", MAX_TRAFFIC_CELLS, "phase samples (64, fewer down to 8 to fit) x messages "
                                                         "(one order period and a watchdog's run) x hops per "
                                                         "message: about a second"),
+    ("traffic hop cells per site", MAX_TRAFFIC_CELLS_TOTAL, "all systems' traffic chains together: ten times one "
+                                                             "system's cap"),
     ("source-detail entries", MAX_SOURCE_DETAIL_ENTRIES, "per-channel breakdown by source (detail=source)"),
     ("field errors listed", MAX_FIELD_ERRORS, "per answer; errors_omitted counts the rest"),
 )

@@ -91,3 +91,20 @@ def test_work_cap_lowers_the_phase_samples_then_refuses(monkeypatch):
     monkeypatch.setattr(limits, "MAX_TRAFFIC_CELLS", 7 * per_sample)
     assert figures.site_traffic(prep, [np.arange(10), np.arange(5)], orders, ["request", "request"]) == ()
     assert [p[0] for p in figures.work_problems(prep, orders)] == [("systems", 0, "traffic")]
+
+
+def test_site_total_cap_refuses_an_assessment_and_trims_a_plan(monkeypatch):
+    from cohop import limits
+    from cohop.traffic import figures
+
+    traffic = Traffic(message_interval_s=0.004, watchdog_s=0.04)
+    site = sites.load(sites.site([sites.system("A", sequence=list(range(10))),
+                                  sites.system("B", sequence=list(range(10, 15)))]))
+    site = dataclasses.replace(site, systems=tuple(dataclasses.replace(s, traffic=traffic) for s in site.systems))
+    prep = prepare_site(site)
+    orders = [np.arange(10), np.arange(10, 15)]
+    first = figures.work_cells(prep, orders, 0, figures.MAX_LATTICE)  # counted at the most a lattice may take
+    monkeypatch.setattr(limits, "MAX_TRAFFIC_CELLS_TOTAL", first)  # room for the first system only
+    assert [p[0] for p in figures.work_problems(prep, orders)] == [("systems",)]
+    kept = figures.site_traffic(prep, [np.arange(10), np.arange(10, 15)], orders, ["request"] * 2)
+    assert [f.system_id for f in kept] == ["A"]

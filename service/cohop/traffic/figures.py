@@ -442,24 +442,45 @@ def samples_within_cap(prep: PreparedSite, orders, v: int, samples: int = PHASE_
     return min(samples, fit) if fit >= MIN_PHASE_SAMPLES else None
 
 
-def work_problems(prep: PreparedSite, orders, samples: int = MIN_PHASE_SAMPLES) -> list[tuple[tuple, str]]:
-    """Systems whose traffic chain would exceed `limits.MAX_TRAFFIC_CELLS` even with `samples` phase samples
-    (path under the site, message)."""
+def _planned_cells(prep: PreparedSite, orders, samples: int) -> list[tuple[int, int | None, int]]:
+    """(system, phase samples it will get or None, the most hop cells it may take) for every system that gives
+    traffic."""
     out = []
     for v, s in enumerate(prep.site.systems):
-        if s.traffic is not None and (cells := work_cells(prep, orders, v, samples)) > limits.MAX_TRAFFIC_CELLS:
+        if s.traffic is not None:
+            n = samples_within_cap(prep, orders, v, samples)
+            one = work_cells(prep, orders, v, 1)
+            # counted at the most a phase lattice (`_lattice`) may take, which may exceed `samples`
+            most = max(n or MIN_PHASE_SAMPLES, min(MAX_LATTICE, limits.MAX_TRAFFIC_CELLS // one))
+            out.append((v, n, one * most))
+    return out
+
+
+def work_problems(prep: PreparedSite, orders, samples: int = PHASE_SAMPLES) -> list[tuple[tuple, str]]:
+    """Systems whose traffic chain would exceed `limits.MAX_TRAFFIC_CELLS` even with MIN_PHASE_SAMPLES, and
+    a site whose systems together exceed `limits.MAX_TRAFFIC_CELLS_TOTAL` (path under the site, message)."""
+    out = []
+    planned = _planned_cells(prep, orders, samples)
+    for v, n, cells in planned:
+        if n is None:
             out.append((("systems", v, "traffic"), f"its figures would need {cells} hop cells, above the cap of "
                         f"{limits.MAX_TRAFFIC_CELLS}; a shorter hop order, watchdog or retry limit lowers it"))
+    total = sum(cells for _, n, cells in planned if n is not None)
+    if total > limits.MAX_TRAFFIC_CELLS_TOTAL:
+        out.append((("systems",), f"the traffic figures of all systems would need {total} hop cells, above the "
+                    f"cap of {limits.MAX_TRAFFIC_CELLS_TOTAL}; give traffic for fewer systems"))
     return out
 
 
 def site_traffic(prep: PreparedSite, hop_sets: list[np.ndarray], orders, origins,
                  samples: int = PHASE_SAMPLES, seed: int = 0) -> tuple[TrafficFigures, ...]:
     """`system_traffic` for every system that carries `traffic` (`origins[v]`: where its order came from), with
-    fewer phase samples where the work cap calls for it; a system whose chain exceeds the cap even then is left
-    out (an assessment refuses it beforehand with `work_problems`)."""
-    out = []
-    for v, s in enumerate(prep.site.systems):
-        if s.traffic is not None and (n := samples_within_cap(prep, orders, v, samples)) is not None:
+    fewer phase samples where the work cap calls for it; a system whose chain exceeds the cap even then, or
+    that would take the site past `limits.MAX_TRAFFIC_CELLS_TOTAL`, is left out (an assessment refuses such a
+    site beforehand with `work_problems`; a plan answers without those figures)."""
+    out, spent = [], 0
+    for v, n, cells in _planned_cells(prep, orders, samples):
+        if n is not None and spent + cells <= limits.MAX_TRAFFIC_CELLS_TOTAL:
             out.append(system_traffic(prep, hop_sets, orders, v, origins[v], n, seed))
+            spent += cells
     return tuple(out)
