@@ -90,7 +90,50 @@ def assessment_table(result: Assessment, detail: str | None = None) -> str:
         out += [f"  {sid}: {f.status} {f.rule}: {f.message} [{f.citation}; {f.certainty}]" for sid, f in flagged]
     if result.simulation:
         out += ["", _simulation_lines(result)]
+    out += traffic_lines(result.raw.get("traffic"))
     return "\n".join(out + _cautions(result.cautions))
+
+
+def _ms(x: float | None) -> str:
+    return "never" if x is None else f"{1e3 * x:.1f}"
+
+
+def _verdict(flag: bool | None) -> str:
+    return "" if flag is None else ": met" if flag else ": NOT met"
+
+
+def _clear(ratio: float | None) -> str:
+    return "" if ratio is None else f"; clearance {ratio:.3g}"
+
+
+def traffic_lines(traffic: list | None) -> list[str]:
+    """The traffic figures (`cohop.traffic`), one paragraph per system, with their model and caution."""
+    if not traffic:
+        return []
+    out = ["", "traffic (" + traffic[0]["caution"] + "):", "  model: " + traffic[0]["model"]]
+    for t in traffic:
+        req = t["requirement"]
+        quant = "/".join(_ms(q["latency_s"]) for q in t["latency_quantiles"])
+        levels = "/".join(f"{100 * q['level']:g}" for q in t["latency_quantiles"])
+        how = "exact" if t["exact"] else f"{t['phase_samples']} phase samples, 95 % interval"
+        parts = [f"order {t['order_origin']} ({t['order_length']} hops), a message every "
+                 f"{t['message_interval_s']:.3g} s, {how}",
+                 f"latency {levels} %: {quant} ms; never delivered {_pct(t['undelivered']['value'])}"]
+        if t["deadline"] is not None:
+            d = t["deadline_missed"]
+            need = "" if req["deadline_probability"] is None else f"; may miss {_pct(1 - req['deadline_probability'])}"
+            parts.append(f"miss the {req['deadline_s']:g} s deadline: {_pct(d['value'])} (<= "
+                         f"{_pct(d['interval'][1])}{need}{_verdict(t['meets_deadline'])}; main source "
+                         f"{d['dominant_source'] or '-'}{_clear(t['deadline_clearance'])})")
+        if t["stops_per_hour"] is not None:
+            st = t["stops_per_hour"]
+            limit = "" if req["max_stops_per_hour"] is None else f"; limit {req['max_stops_per_hour']:g}"
+            parts.append(f"watchdog {req['watchdog_s']:g} s = {t['watchdog_messages']} messages: {st['value']:.3g} "
+                         f"stops/h (<= {st['interval'][1]:.3g}{limit}{_verdict(t['meets_stops'])}; main source "
+                         f"{st['dominant_source'] or '-'}{_clear(t['stops_clearance'])})")
+        out.append(textwrap.fill(f"{t['id']}: " + "; ".join(parts), 100, initial_indent="  ",
+                                 subsequent_indent="      "))
+    return out
 
 
 def plan_table(result: Plan, detail: str | None = None) -> str:
@@ -104,6 +147,7 @@ def plan_table(result: Plan, detail: str | None = None) -> str:
     out += [textwrap.fill(f"{p.id}: {_ranges(p.hop_set)}", 100, initial_indent="  ", subsequent_indent="      ")
             for p in result.systems]
     out += _sequence_lines(result.raw.get("sequences"))
+    out += traffic_lines((result.raw.get("assessment") or {}).get("traffic"))
     if result.baselines:
         out += ["", "against what a practitioner might do (evaluated objective; lower is better):"]
         for b in sorted(result.baselines, key=lambda b: (b.objective is None, b.objective or 0.0)):
@@ -240,6 +284,7 @@ def replan_table(result: Replan, detail: str | None = None) -> str:
             out.append(f"  {d['id']}: {_pct(d['before']['collision_probability'])} -> "
                        f"{_pct(d['after']['collision_probability'])}")
     out += [f"  note: {n}" for n in result.raw.get("notes", [])]
+    out += traffic_lines((result.raw.get("assessment") or {}).get("traffic"))
     return "\n".join(out + _cautions(result.cautions))
 
 

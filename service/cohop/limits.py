@@ -51,6 +51,12 @@ PERIOD_S = Bound(1e-6, 3600.0, "s", "an interferer that returns less often than 
                                     "continuous or left out")
 DELAY_SPREAD_S = Bound(10e-9, 10e-6, "s", "factory RMS delay spreads are 30-300 ns (Rappaport, IEEE Trans. "
                                           "Antennas Propag. 37(8), 1989); 10 ns covers small rooms, 10 us hilly outdoor sites [mem]")
+MESSAGE_INTERVAL_S = Bound(1e-3, 86400.0, "s", "a control message every millisecond (fast machinery remotes) to one a "
+                                                "day (slow telemetry)")
+DEADLINE_S = Bound(1e-4, 86400.0, "s", "delivery within 100 us (below any hop) to within a day")
+WATCHDOG_S = Bound(1e-3, 3600.0, "s", "a link-loss watchdog: milliseconds to an hour (values come from the machine's "
+                                      "safety assessment, never from this service)")
+STOPS_PER_HOUR = Bound(0.0, 3.6e6, "1/h", "acceptable watchdog stops per hour of operation: none to one a millisecond")
 TIME_LIMIT_S = Bound(0.1, 3600.0, "s", "a search budget; the server's COHOP_MAX_SOLVE_S clamps it further")
 
 #: Most bursts of one source that one packet can overlap, (T_v + T_a) / D_a (and (T_v + burst) / period).
@@ -123,6 +129,12 @@ CHANNEL_NUMBER = Bound(0, 1_000_000, "", "the user's number of grid channel 0, f
                                          "channels from 0 or 1 upwards, some by centre frequency in kHz)")
 CHANNEL_NUMBER_STEP = Bound(1, 1_000_000, "", "the user's channel numbers per grid channel, for hop tables")
 SIMULATION_SEED = Bound(0, 2**63 - 1, "", "the Monte Carlo seed")
+#: Messages in a row a watchdog covers (ceil(watchdog_s / message_interval_s)): the run chain steps this many.
+MAX_WATCHDOG_MESSAGES = 1000
+#: Hop cells (phase samples x messages x hops per message) of one system's traffic chain.
+MAX_TRAFFIC_CELLS = 2_000_000
+#: Hop cells of all systems' traffic chains together.
+MAX_TRAFFIC_CELLS_TOTAL = 20_000_000
 #: Per-channel, per-source entries a "source" detail response may carry.
 MAX_SOURCE_DETAIL_ENTRIES = 500_000
 # --- systems that move (positions, area) ---
@@ -155,6 +167,13 @@ CAPS = (
     ("interferers derived from surveys", MAX_DERIVED_INTERFERERS, "raise detection_margin_db if exceeded"),
     ("overlapped bursts per packet", MAX_OVERLAPS, MAX_OVERLAPS_REASON),
     ("simulated hops per system", MAX_SIMULATED_HOPS, "sequence_packets x (retry_limit + 1) x hops_per_attempt"),
+    ("messages a watchdog covers", MAX_WATCHDOG_MESSAGES, "ceil(watchdog_s / message_interval_s); the run chain "
+                                                           "steps that many messages"),
+    ("traffic hop cells per system", MAX_TRAFFIC_CELLS, "phase samples (64, fewer down to 8 to fit) x messages "
+                                                        "(one order period and a watchdog's run) x hops per "
+                                                        "message: about a second"),
+    ("traffic hop cells per site", MAX_TRAFFIC_CELLS_TOTAL, "all systems' traffic chains together: ten times one "
+                                                             "system's cap"),
     ("source-detail entries", MAX_SOURCE_DETAIL_ENTRIES, "per-channel breakdown by source (detail=source)"),
     ("positions of one system", MAX_POSITIONS, "a rail or route given point by point; use area for more"),
     ("area grid points of one system", MAX_AREA_POINTS, "x samples x y samples (16 x 16): coarsen step_m"),
@@ -180,6 +199,10 @@ FIELDS = (
     (PERIOD_S, "interferer period_s"),
     (DELAY_SPREAD_S, "site rms_delay_spread_s"),
     (TIME_LIMIT_S, "search time_limit_s"),
+    (MESSAGE_INTERVAL_S, "traffic message_interval_s"),
+    (DEADLINE_S, "traffic deadline_s"),
+    (WATCHDOG_S, "traffic watchdog_s"),
+    (STOPS_PER_HOUR, "traffic max_stops_per_hour"),
     (TX_POWER_DBM, "tx_power_dbm"),
     (ANTENNA_GAIN_DBI, "antenna_gain_dbi"),
     (SIGNAL_DBM, "wanted_signal_dbm, sensitivity_dbm, interferer level_dbm"),
@@ -196,7 +219,8 @@ FIELDS = (
     (SURVEY_LEVEL_DBM, "survey levels_dbm"),
     (DETECTION_MARGIN_DB, "survey detection_margin_db"),
     (GUARD_EXCESS_DB, "requirements guard_excess_db"),
-    (FRACTION, "activity_fraction, occupancy_fraction, max_attempt_loss, max_residual_loss, interferer_threshold"),
+    (FRACTION, "activity_fraction, occupancy_fraction, max_attempt_loss, max_residual_loss, interferer_threshold, "
+               "traffic deadline_probability"),
     (NOISE_BANDWIDTH_FACTOR, "survey noise_bandwidth_factor"),
     (PATH_LOSS_EXPONENT, "propagation exponent"),
     (POWER_LOSS_COEFFICIENT, "propagation power_loss_coefficient"),

@@ -89,6 +89,20 @@ def _area_points(area: Area) -> tuple[Position, ...]:
 
 
 @dataclass(frozen=True)
+class Traffic:
+    """A system's traffic and what it needs (all optional but the interval): a message every
+    `message_interval_s`; `deadline_probability` of messages delivered within `deadline_s`; the machine
+    stops when no valid message arrives for `watchdog_s`, at most `max_stops_per_hour` such stops per hour
+    of operation. Planning figures only: the machine's safety assessment governs (`cohop.traffic`)."""
+
+    message_interval_s: float
+    deadline_s: float | None = None
+    deadline_probability: float | None = None
+    watchdog_s: float | None = None
+    max_stops_per_hour: float | None = None
+
+
+@dataclass(frozen=True)
 class System:
     id: str
     tx_power_dbm: float
@@ -116,6 +130,7 @@ class System:
     hop_set: tuple[int, ...] | None = None
     sequence: tuple[int, ...] | None = None  # hop order over the hop set (one period), if known
     fixed_point_to_point: bool = False  # used exclusively for fixed point-to-point links (47 CFR 15.247(c)(1))
+    traffic: Traffic | None = None  # message interval, deadline and watchdog (issue 13)
 
     @property
     def eirp_dbm(self) -> float:

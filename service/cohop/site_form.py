@@ -9,7 +9,7 @@ from __future__ import annotations
 from typing import Mapping
 
 from cohop.site import (Area, Band, Coupling, CouplingEntry, Fading, Grid, Interferer, InterfererLevel, Position,
-                        Propagation, RejectionPoint, Site, Survey, System)
+                        Propagation, RejectionPoint, Site, Survey, System, Traffic)
 
 
 def _position(d: Mapping | None) -> Position | None:
@@ -27,6 +27,8 @@ def system_from(d: Mapping) -> System:
         d["positions"] = tuple(Position(**p) for p in d["positions"])
     if d.get("area") is not None:
         d["area"] = Area(**d["area"])
+    if d.get("traffic") is not None:
+        d["traffic"] = Traffic(**d["traffic"])
     if d.get("sequence") is not None:
         d["sequence"] = tuple(d["sequence"])
         if d.get("hop_set") is None:  # the hop set of a sequence is its channels

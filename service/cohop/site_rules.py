@@ -75,6 +75,23 @@ def fading_problems(d: Mapping | str) -> list[Problem]:
     return []
 
 
+def traffic_problems(d: Mapping) -> list[Problem]:
+    """A system's traffic object (`cohop.site.Traffic`)."""
+    out = []
+    if d.get("deadline_probability") is not None and d.get("deadline_s") is None:
+        out.append((("deadline_probability",), "Needs deadline_s."))
+    if d.get("max_stops_per_hour") is not None and d.get("watchdog_s") is None:
+        out.append((("max_stops_per_hour",), "Needs watchdog_s."))
+    watchdog, interval = d.get("watchdog_s"), d["message_interval_s"]
+    if watchdog is not None and watchdog < interval:
+        out.append((("watchdog_s",), "Must be at least message_interval_s: a shorter watchdog expires between "
+                                     "any two messages."))
+    elif watchdog is not None and math.ceil(watchdog / interval - 1e-9) > limits.MAX_WATCHDOG_MESSAGES:
+        out.append((("watchdog_s",), f"Covers more than {limits.MAX_WATCHDOG_MESSAGES} message intervals; "
+                                     "lengthen message_interval_s or shorten watchdog_s."))
+    return out
+
+
 def system_problems(d: Mapping) -> list[Problem]:
     out = []
     if d["packet_airtime_s"] > d["dwell_s"]:
@@ -183,6 +200,8 @@ def object_problems(d: Mapping) -> list[Problem]:
     for i, s in enumerate(d["systems"]):
         if s.get("fading") is not None:
             out += under(("systems", i, "fading"), fading_problems(s["fading"]))
+        if s.get("traffic") is not None:
+            out += under(("systems", i, "traffic"), traffic_problems(s["traffic"]))
         out += under(("systems", i), system_problems(s))
     coupling = d.get("coupling") or {}
     if coupling.get("propagation") is not None:

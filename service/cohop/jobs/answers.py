@@ -24,6 +24,7 @@ from cohop.regulatory.profiles import Profile
 from cohop.regulatory.rules import FAIL, PASS, WARNING, Finding
 from cohop.sequences.report import SequenceOutcome
 from cohop.site import Site, System
+from cohop.traffic.figures import TrafficFigures
 
 #: The confidence of `SimulatedRate.interval` (its default z is the standard normal 97.5 % quantile).
 SIMULATION_CONFIDENCE = 0.95
@@ -106,6 +107,7 @@ class AssessmentAnswer:
     simulation: SimulationCheck | None = None
     sequences: SequencesAnswer | None = None  # the request's own sequences, when it gives any
     assumptions: tuple[str, ...] = MODEL_ASSUMPTIONS
+    traffic: tuple[TrafficFigures, ...] = ()  # systems that give traffic (cohop.traffic)
 
 
 def _simulated(sid: str, rate: SimulatedRate, analytic: float, by_source=()) -> SimulatedFigure:
@@ -123,9 +125,9 @@ def simulation_check(sim: SiteSimulation, assessment: Assessment) -> SimulationC
 
 
 def assessment_answer(assessment: Assessment, caution: bool, simulation: SiteSimulation | None = None,
-                      sequences=None, hop_orders=None) -> AssessmentAnswer:
+                      sequences=None, hop_orders=None, traffic: tuple[TrafficFigures, ...] = ()) -> AssessmentAnswer:
     """`hop_orders`: the sequences the assessment used (one per system, or None), for the figures of moving
-    systems at each position."""
+    systems at each position; `traffic`: the traffic figures of the systems that state requirements."""
     prep = assessment.prepared
     mobility = mobility_figures(assessment, hop_orders) or (None,) * len(assessment.systems)
     systems = tuple(SystemResult(f, prep.site.systems[f.index],
@@ -134,7 +136,7 @@ def assessment_answer(assessment: Assessment, caution: bool, simulation: SiteSim
     assumptions = MODEL_ASSUMPTIONS + ((MOBILITY_ASSUMPTION,) if prep.site.has_moving_systems else ())
     return AssessmentAnswer(assessment=assessment, cautions=tuple(cautions_for(caution)), systems=systems,
                             simulation=None if simulation is None else simulation_check(simulation, assessment),
-                            sequences=sequences, assumptions=assumptions)
+                            sequences=sequences, assumptions=assumptions, traffic=traffic)
 
 
 @dataclass(frozen=True)

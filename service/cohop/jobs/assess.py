@@ -11,6 +11,18 @@ from cohop.jobs.requests import AssessmentRequest
 from cohop.jobs.sequence_answers import sequences_answer
 from cohop.montecarlo import simulate_site
 from cohop.sequences.report import DEFAULT_PACKETS, given_sequences
+from cohop.traffic.figures import site_traffic, work_problems
+from cohop.traffic.orders import traffic_orders
+
+
+def _traffic(prep, sets, seed: int):
+    """The traffic figures of the systems that give traffic (none: no orders built)."""
+    if not any(s.traffic is not None for s in prep.site.systems):
+        return ()
+    orders, origins = traffic_orders(prep, sets, seed)
+    if problems := work_problems(prep, orders):
+        raise SiteError([("/site/" + "/".join(str(p) for p in path), msg) for path, msg in problems])
+    return site_traffic(prep, sets, orders, origins, seed=seed)
 
 
 def _check_caps(req: AssessmentRequest, hop_sets, max_simulated_attempts: int) -> None:
@@ -45,4 +57,6 @@ def run_assessment(req: AssessmentRequest, max_simulated_attempts: int) -> Asses
     seed = req.simulation.seed if req.simulation is not None else 0
     outcome = given_sequences(prep, DEFAULT_PACKETS, seed)
     sequences = None if outcome is None else sequences_answer(outcome, assessment)
-    return assessment_answer(assessment, coordination_caution(prep.profile), simulation, sequences, hop_orders)
+    traffic = _traffic(prep, sets, seed)
+    return assessment_answer(assessment, coordination_caution(prep.profile), simulation, sequences, hop_orders,
+                             traffic)

@@ -6,6 +6,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Callable
 
+import numpy as np
+
 from cohop.assess import SystemFigures
 from cohop.errors import Conflict, PlanInfeasible
 from cohop.jobs.answers import (AssessmentAnswer, CoordinationComparison, PlannedSystem, SystemHeadroom,
@@ -19,6 +21,7 @@ from cohop.planning.engine import NO_PLAN, BaselineResult, PlanResult, SolveSett
 from cohop.planning.objectives import ObjectiveValues, objective_values, plan_for_objective
 from cohop.planning.requirements import Progress
 from cohop.planning.validate import Violation
+from cohop.traffic.figures import site_traffic
 
 
 @dataclass(frozen=True)
@@ -68,6 +71,16 @@ def compare(plan_objective: float, baselines: list[BaselineResult]) -> Compariso
     return Comparison(best.name if best else None, best.objective if best else None, plan_objective, ratio)
 
 
+def plan_traffic(result) -> tuple:
+    """The traffic figures of a plan or re-plan along its own sequences (re-checking the traffic ceilings the
+    planner used; `cohop.traffic`); () when no system gives traffic or no sequences were built."""
+    prep = result.assessment.prepared
+    if result.sequences is None or not any(s.traffic is not None for s in prep.site.systems):
+        return ()
+    return site_traffic(prep, [np.asarray(h) for h in result.hop_sets], result.sequences.orders,
+                        ["planned"] * prep.n_systems)
+
+
 def plan_answer(result: PlanResult) -> PlanAnswer:
     prep = result.assessment.prepared
     coordination = result.instance.req.coordination
@@ -76,7 +89,7 @@ def plan_answer(result: PlanResult) -> PlanAnswer:
         independent is not None and independent.joint_plan is not None and coordination_caution(prep.profile, "joint"))
     sequences = None if result.sequences is None else sequences_answer(result.sequences, result.assessment)
     orders = None if result.sequences is None else result.sequences.orders  # for moving systems' figures
-    assessment = assessment_answer(result.assessment, caution, hop_orders=orders)
+    assessment = assessment_answer(result.assessment, caution, hop_orders=orders, traffic=plan_traffic(result))
     return PlanAnswer(result=result, coordination=coordination, cautions=assessment.cautions,
                       plan=planned_systems(prep, result.hop_sets), sequences=sequences, assessment=assessment,
                       baselines=tuple(baseline_answer(b) for b in result.baselines),

@@ -9,6 +9,7 @@ from cohop.assess import SystemFigures
 from cohop.errors import Conflict, PlanInfeasible
 from cohop.jobs.answers import (AssessmentAnswer, PlannedSystem, SystemHeadroom, assessment_answer,
                                 coordination_caution, headroom_answer, planned_systems, prepared)
+from cohop.jobs.plan import plan_traffic
 from cohop.jobs.requests import ReplanRequest
 from cohop.jobs.sequence_answers import SequencesAnswer, sequences_answer
 from cohop.deadline import Deadline
@@ -63,7 +64,7 @@ def replan_answer(result: ReplanResult, mode: ReplanMode) -> ReplanAnswer:
     prep = result.assessment.prepared
     caution = coordination_caution(prep.profile, result.instance.req.coordination, result.sequences)
     orders = None if result.sequences is None else result.sequences.orders  # for moving systems' figures
-    assessment = assessment_answer(result.assessment, caution, hop_orders=orders)
+    assessment = assessment_answer(result.assessment, caution, hop_orders=orders, traffic=plan_traffic(result))
     return ReplanAnswer(result=result, mode=mode, cautions=assessment.cautions,
                         evaluated_objective=evaluated_objective(result.instance, result.assessment),
                         plan=planned_systems(prep, result.hop_sets), diff=_changes(result),

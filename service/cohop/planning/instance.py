@@ -31,6 +31,7 @@ from cohop.regulatory import check_compliance
 from cohop.regulatory.profiles import EU868_SUBBANDS, SubBand
 from cohop.regulatory.rules import FAIL
 from cohop.stats import retries
+from cohop.traffic.ceiling import collision_ceiling as traffic_ceiling
 
 #: Rule kinds whose outcome depends on the number of channels (checked on synthetic hop sets).
 COUNT_RULES = {"channels", "power", "eirp", "occupancy", "medium-utilisation"}
@@ -246,8 +247,9 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
             pins = np.array(r.pinned_channels, dtype=int)
             pinned[v, pins] = True
             allowed[v, pins] |= prep.usable[v, pins]  # a pin overrides an interferer exclusion
-        ceilings[v] = _collision_ceiling(r.max_attempt_loss, r.max_residual_loss, prep.fade_probability[v],
-                                         system.hops_per_attempt, system.retry_limit)
+        ceilings[v] = min(_collision_ceiling(r.max_attempt_loss, r.max_residual_loss, prep.fade_probability[v],
+                                             system.hops_per_attempt, system.retry_limit),
+                          traffic_ceiling(system, float(prep.fade_probability[v])))  # cohop.traffic.ceiling
     if conflicts:
         raise PlanInfeasible(conflicts)
     beta = np.where(prep.window >= 0, prep.activity[None, :] * (prep.overlap_k0 + prep.overlap_r), 0.0)

@@ -10,6 +10,7 @@ from cohop.api.schemas.fields import Count, Text, default
 from cohop.api.schemas.mobility import MobilitySchema
 from cohop.api.schemas.sequences import SequencesSchema
 from cohop.api.schemas.site import SiteSchema, StrictSchema
+from cohop.api.schemas.traffic import TrafficFiguresSchema
 from cohop.assess import DETAIL_LEVELS
 from cohop.jobs.requests import AssessmentRequest, SimulationRequest, assessment_request_from
 
@@ -200,3 +201,6 @@ class AssessmentResponseSchema(StrictSchema):  # cohop.jobs.answers.AssessmentAn
                                                                "used by evaluation and planning"})
     sequences = fields.Nested(SequencesSchema, allow_none=True, metadata={
         "description": "When the request gives hop sequences: what they do, and retries driven by them"})
+    traffic = fields.List(fields.Nested(TrafficFiguresSchema), metadata={
+        "description": "Per system that gives traffic: latency, deadline, runs of losses and watchdog stops "
+                       "along its hop order. Planning estimates: the machine's safety assessment governs."})

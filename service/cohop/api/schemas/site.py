@@ -146,6 +146,25 @@ class AreaSchema(StrictSchema):  # a moving system's rectangle, sampled on a gri
     @validates_schema
     def _rules(self, data, **kwargs):
         raise_problems(site_rules.area_problems(data))
+TRAFFIC_NOTE = ("Planning estimates only: the machine's safety assessment and the standards that govern cableless "
+                "control of machinery decide what is acceptable; this service encodes no values from them.")
+
+
+class TrafficSchema(StrictSchema):
+    message_interval_s = Number(limits.MESSAGE_INTERVAL_S, required=True,
+                                metadata={"description": "A message every this many seconds."})
+    deadline_s = Number(limits.DEADLINE_S, load_default=None,
+                        metadata={"description": "Latency a message must meet (from its arrival at the radio)."})
+    deadline_probability = Number(limits.FRACTION, load_default=None,
+                                  metadata={"description": "Share of messages that must meet deadline_s."})
+    watchdog_s = Number(limits.WATCHDOG_S, load_default=None,
+                        metadata={"description": "The machine stops when no valid message arrives for this long."})
+    max_stops_per_hour = Number(limits.STOPS_PER_HOUR, load_default=None,
+                                metadata={"description": "Acceptable watchdog stops per hour of operation."})
+
+    @validates_schema
+    def _rules(self, data, **kwargs):
+        raise_problems(site_rules.traffic_problems(data))
 
 
 class SystemSchema(StrictSchema):
@@ -194,6 +213,9 @@ class SystemSchema(StrictSchema):
         "Used exclusively for fixed point-to-point links: 47 CFR 15.247(c)(1) then relaxes the antenna-gain "
         "reduction (2400-2483.5 MHz: 1 dB per 3 dB above 6 dBi; 5725-5850 MHz: none); elsewhere a finding says "
         "it changes nothing.")})
+    traffic = fields.Nested(TrafficSchema, load_default=None, metadata={"description": (
+        "Message interval, deadline and link-loss watchdog; the assessment then reports latency, deadline and "
+        "watchdog-stop figures. " + TRAFFIC_NOTE)})
 
     @validates_schema
     def _rules(self, data, **kwargs):
