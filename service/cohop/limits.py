@@ -51,6 +51,8 @@ PERIOD_S = Bound(1e-6, 3600.0, "s", "an interferer that returns less often than 
                                     "continuous or left out")
 DELAY_SPREAD_S = Bound(10e-9, 10e-6, "s", "factory RMS delay spreads are 30-300 ns (Rappaport, IEEE Trans. "
                                           "Antennas Propag. 37(8), 1989); 10 ns covers small rooms, 10 us hilly outdoor sites [mem]")
+SEQUENCE_PERIOD_S = Bound(1e-4, 81920.0, "s", "one period of a hop order: 8192 hops (the sequence cap) of at most "
+                                              "10 s dwells")
 MESSAGE_INTERVAL_S = Bound(1e-3, 86400.0, "s", "a control message every millisecond (fast machinery remotes) to one a "
                                                 "day (slow telemetry)")
 DEADLINE_S = Bound(1e-4, 86400.0, "s", "delivery within 100 us (below any hop) to within a day")
@@ -199,6 +201,7 @@ FIELDS = (
     (PERIOD_S, "interferer period_s"),
     (DELAY_SPREAD_S, "site rms_delay_spread_s"),
     (TIME_LIMIT_S, "search time_limit_s"),
+    (SEQUENCE_PERIOD_S, "hop-table answer sequences period_s"),
     (MESSAGE_INTERVAL_S, "traffic message_interval_s"),
     (DEADLINE_S, "traffic deadline_s"),
     (WATCHDOG_S, "traffic watchdog_s"),

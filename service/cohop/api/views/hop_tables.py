@@ -13,7 +13,7 @@ from marshmallow import fields, validate
 
 from cohop import limits
 from cohop.api.blueprint import Blueprint
-from cohop.api.schemas.fields import IDENTIFIER, List, Text
+from cohop.api.schemas.fields import IDENTIFIER, List, Number, Text
 from cohop.api.schemas.site import SiteSchema, StrictSchema, channel_index
 from cohop.errors import SiteError
 from cohop.jobs.hop_tables import ExportError, Numbering, SystemInfo, hop_table_document, tables_csv
@@ -34,7 +34,7 @@ class AnsweredHopSetSchema(_AnswerPart):
 class AnsweredOrderSchema(_AnswerPart):
     id = Text(required=True, validate=IDENTIFIER)
     channels = List(channel_index(), required=True, min_length=1, max_length=limits.MAX_SEQUENCE_HOPS)
-    period_s = fields.Float(load_default=None)
+    period_s = Number(limits.SEQUENCE_PERIOD_S, load_default=None)
 
 
 class AnsweredOrdersSchema(_AnswerPart):
