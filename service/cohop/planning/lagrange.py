@@ -124,7 +124,6 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
             break
         if since >= PATIENCE:
             theta, since = theta / 2.0, 0
-            lam = best_lam.copy()
         if theta < MIN_THETA or work > budget or (stop is not None and stop()):
             converged = theta < MIN_THETA
             break
