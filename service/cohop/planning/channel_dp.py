@@ -532,3 +532,5 @@ def warm_kernels() -> None:
     members = np.zeros((n, 2), np.int64)
     _forward(classes, lo, hi, out_mask[:n], out_cost[:n], np.zeros((n, 2)), np.zeros(n, np.int64), members,
              np.zeros(n, np.int64), np.int64(0), np.array([0, n, 2 * n], np.int64), np.empty(3 * n, np.int64))
+    cost = np.zeros(2 * n)
+    _min_plus(np.zeros(n), np.ascontiguousarray(np.zeros((n, n))), cost[n:2 * n], np.empty(n), np.empty(n, np.int64))

@@ -24,7 +24,7 @@ from cohop.assess import Assessment, assess_site
 from cohop.config import default_of
 from cohop.errors import PlanInfeasible
 from cohop import cpsat
-from cohop.planning import baselines, bound, costs, model, search
+from cohop.planning import baselines, bound, costs, lagrange, model, search
 from cohop.deadline import Budget, Deadline
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import PlanningInstance, build_instance, without_inter_system_terms
@@ -39,9 +39,13 @@ OPTIMAL, FEASIBLE, INFEASIBLE, NO_PLAN = "optimal", "feasible", "infeasible", "n
 #: rounding allowance of this order (see SolverReport.rounding).
 OPTIMAL_GAP = 1e-4
 #: Shares of the search's work budget; each set sums to 1. Loss ceilings take CEILING_SHARE out of the
-#: local search's share, and the infeasibility diagnosis (when there is no start) DIAGNOSIS_SHARE.
-SHARES = {"quick_bound": 0.05, "local_search": 0.45, "cp_sat": 0.25, "column_generation": 0.25}
-SHARES_WITHOUT_CP_SAT = {"quick_bound": 0.05, "local_search": 0.70, "column_generation": 0.25}
+#: local search's share, and the infeasibility diagnosis (when there is no start) DIAGNOSIS_SHARE. The
+#: Lagrangian bound (`planning.lagrange`) is warm-started from the quick bound's duals; its DP plans, repaired,
+#: start the last local search ("bound_plans").
+SHARES = {"quick_bound": 0.05, "local_search": 0.25, "cp_sat": 0.25, "lagrange": 0.25, "bound_plans": 0.10,
+          "column_generation": 0.10}
+SHARES_WITHOUT_CP_SAT = {"quick_bound": 0.05, "local_search": 0.40, "lagrange": 0.35, "bound_plans": 0.10,
+                         "column_generation": 0.10}
 CEILING_SHARE = 0.10
 MIN_CP_SAT_WORK_S = 0.1  # CP-SAT runs only if its share leaves this much work after building the model
 DIAGNOSIS_SHARE = 0.5
@@ -136,11 +140,11 @@ class _Clock:
 
 
 def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget: Budget, work_s: float,
-            settings: SolveSettings, clock: _Clock, proven_bound: float | None):
+            settings: SolveSettings, clock: _Clock, proven_bound: float | None, gap: float = OPTIMAL_GAP):
     """Solve the full model (improving `start` if given); returns (x, proven bound, status name, scale).
 
-    It stops at a relative gap of OPTIMAL_GAP / 2 (CP-SAT's own), or as soon as a solution is within
-    OPTIMAL_GAP / 2 of `proven_bound` (a bound another method proved)."""
+    It stops at a relative gap of max(OPTIMAL_GAP / 2, `gap`) (CP-SAT's own), or as soon as a solution is within
+    that of `proven_bound` (a bound another method proved)."""
     m, mv, objective, scale = model.full_model(inst, start)
     worst = inst.req.objective == "worst_system"
     model.minimise(m, mv, inst, objective, scale)
@@ -148,9 +152,9 @@ def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget: Budget, wo
     allowance = _rounding_allowance(objective, scale, mv, inst)
     stop_at = None
     if proven_bound is not None and proven_bound > 0:
-        stop_at = math.floor((proven_bound * (1 + 0.5 * OPTIMAL_GAP) - constant) * scale.factor)
+        stop_at = math.floor((proven_bound / (1 - max(0.5 * OPTIMAL_GAP, gap)) - constant) * scale.factor)
     out = cpsat.run(m, budget, "CP-SAT", work_s, settings.solver_threads, inst.req.seed, settings.deterministic,
-                    gap_limit=0.5 * OPTIMAL_GAP, stop_at=stop_at,
+                    gap_limit=max(0.5 * OPTIMAL_GAP, gap), stop_at=stop_at,
                     on_solution=lambda v: clock.tell("cp-sat", objective=v / scale.factor + constant),
                     on_bound=lambda b: clock.tell("cp-sat", bound=max(0.0, b / scale.factor + constant - allowance)))
     if not out.found:
@@ -241,16 +245,62 @@ def _meet_ceilings(inst: PlanningInstance, x: np.ndarray, seconds: float, stop, 
     return x
 
 
-def _proven(objective: float, bound_value: float) -> bool:
-    return objective <= 0 or (objective - bound_value) / objective <= OPTIMAL_GAP
+def _proven(objective: float, bound_value: float, gap: float = OPTIMAL_GAP) -> bool:
+    """The plan is proven within `gap` (relative) of the best possible."""
+    return objective <= 0 or (objective - bound_value) / objective <= max(gap, OPTIMAL_GAP)
 
 
-def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget):
-    """The co-channel (one-channel window) bound: cheap, and it proves many sites at once."""
+def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget) -> bound.BoundResult:
+    """The co-channel (one-channel window) bound: cheap, and it proves many sites at once. Its LP duals warm-start
+    the Lagrangian bound."""
     work = budget.work(SHARES["quick_bound"])
     result = bound.lower_bound(inst, x, length=1, iterations=20, seconds=work, deadline=budget.stopper("quick bound"))
     budget.deadline.count("pricing_operations", result.work)
-    return result.bound
+    return result
+
+
+class _Renamed:
+    """Counts work under another name (the local search from the bound's plans: `kicks_from_bound`)."""
+
+    def __init__(self, deadline: Deadline, kind: str):
+        self.deadline, self.kind = deadline, kind
+
+    def count(self, kind: str, amount: float) -> None:
+        self.deadline.count(self.kind, amount)
+
+
+def _lagrange_phase(inst: PlanningInstance, x: np.ndarray, quick: bound.BoundResult | None, budget: Budget,
+                    shares: dict, clock: _Clock, notes: list[str], gap: float):
+    """The Lagrangian bound from the quick bound's duals, then local search from its DP plans (repaired to the
+    counts). Returns (bound or None, the best plan, whether a plan from the bound won)."""
+    deadline = budget.deadline
+    value = _value(inst, x)
+    result = lagrange.lagrangian_bound(inst, value, quick.multipliers if quick is not None else None,
+                                       dual_weights=quick.victim_weights if quick is not None else None,
+                                       seconds=budget.work(shares["lagrange"]), stop=budget.stopper("lagrangian bound"),
+                                       target=value * (1.0 - max(gap, OPTIMAL_GAP)),
+                                       on_bound=lambda b: clock.tell("lagrangian bound", bound=b))
+    deadline.count("dp_operations", result.work)
+    notes.extend(result.notes)
+    if not result.solved:
+        return None, x, False
+    notes.append(f"Lagrangian bound: {result.iterations} DP solve(s), "
+                 f"{'converged' if result.converged else 'stopped at its work budget'}; the relaxation drops "
+                 + result.dropped.describe(inst.ids))
+    if _proven(value, result.bound, gap) or not result.plans or inst.req.objective == "worst_system" \
+            or np.isfinite(inst.ceilings).any():
+        return result.bound, x, False
+    start = search.from_relaxation(inst, result.plans)
+    if start is None:
+        return result.bound, x, False
+    seconds = budget.work(shares["bound_plans"])
+    y = search.iterated(inst, start, search.kick_budget(inst, seconds), inst.req.seed + 7, stop=budget.stopper(
+        "local search from the bound's plans"), counter=_Renamed(deadline, "kicks_from_bound"),
+        target=result.bound / (1 - max(gap, OPTIMAL_GAP)))
+    if _value(inst, y) < value:
+        clock.tell("local search from the bound's plans", objective=_value(inst, y))
+        return result.bound, y, True
+    return result.bound, x, False
 
 
 def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clock: _Clock, notes: list[str]):
@@ -260,6 +310,8 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
     wall clock at the budget's end; a phase is skipped once the plan is proven optimal.
     """
     deadline = budget.deadline
+    gap = inst.req.target_gap
+    quick = None
     start = search.greedy(inst)
     if start is None:
         _infeasible(inst, budget, settings)  # raises when no plan exists; otherwise CP-SAT looks for one
@@ -275,13 +327,14 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
     x = None
     if start is not None:
         x = search.improve(inst, start) if inst.req.objective != "worst_system" else search.improve_worst(inst, start)
-        bounds["column_generation"] = _quick_bound(inst, x, budget)
+        quick = _quick_bound(inst, x, budget)
+        bounds["column_generation"] = quick.bound
         clock.tell("greedy start", objective=_value(inst, x), bound=bounds["column_generation"])
-        if _proven(_value(inst, x), bounds["column_generation"]) and not ceilings:
-            notes.append("the greedy start was proven optimal by the co-channel bound")
+        if _proven(_value(inst, x), bounds["column_generation"], gap) and not ceilings:
+            notes.append("the greedy start was proven " + _within(gap) + " by the co-channel bound")
             return x, bounds, "greedy construction and local search", scale, start
         local = budget.work(shares["local_search"] - (CEILING_SHARE if ceilings else 0.0))
-        proven_at = None if ceilings else max(bounds.values()) / (1 - OPTIMAL_GAP) if bounds else None
+        proven_at = None if ceilings else max(bounds.values()) / (1 - max(gap, OPTIMAL_GAP)) if bounds else None
         kicks_before, started = deadline.work_done.get("kicks", 0), time.monotonic()
         x = search.search_plan(inst, x, local, stop=budget.stopper("local search"), counter=deadline,
                                progress=lambda k, v: clock.tell("local search", objective=v), target=proven_at)
@@ -290,15 +343,15 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
         if ceilings:
             x = _meet_ceilings(inst, x, budget.work(CEILING_SHARE), budget.stopper("local search"), deadline)
         clock.tell("local search", objective=_value(inst, x))
-        if _proven(_value(inst, x), max(bounds.values())) and not ceilings:
-            notes.append("the local-search plan was proven optimal by the co-channel bound")
+        if _proven(_value(inst, x), max(bounds.values()), gap) and not ceilings:
+            notes.append("the local-search plan was proven " + _within(gap) + " by the co-channel bound")
             return x, bounds, method, scale, start
     if use_cp_sat or x is None:
         work = max(MIN_CP_SAT_WORK_S, budget.work(shares.get("cp_sat", 0.0) if x is not None else 1.0) - build_s)
         known = max(bounds.values()) if bounds else None
         # without a start there is no plan at all yet: CP-SAT may then run up to the limit itself
         cp_budget = budget if x is not None else deadline.budget(budget.seconds, deadline.end)
-        cx, cb, status, scale = _cp_sat(inst, x, cp_budget, work, settings, clock, known)
+        cx, cb, status, scale = _cp_sat(inst, x, cp_budget, work, settings, clock, known, gap)
         if cb is not None:
             bounds["cp_sat"] = cb
         if status == "INFEASIBLE":
@@ -316,7 +369,13 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
                      "of its share of this time limit")
     if x is None:
         raise PlanInfeasible(_diagnose(inst, budget, settings)[0] or [], proven=False)
-    if not _proven(_value(inst, x), max(bounds.values())):
+    if not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
+        lb, x, won = _lagrange_phase(inst, x, quick, budget, shares, clock, notes, gap)
+        if lb is not None:
+            bounds["lagrangian"] = lb
+        if won:
+            method += ", then local search from the Lagrangian bound's plans"
+    if not _proven(_value(inst, x), max(bounds.values()), gap):
         cg = bound.lower_bound(inst, x, length=bound.window_length(inst), iterations=400,
                                seconds=budget.work(shares["column_generation"]),
                                deadline=budget.stopper("column generation"))
@@ -326,6 +385,10 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
         notes.append(f"column generation: windows of {cg.window} channel(s), {cg.iterations} iteration(s), "
                      f"{cg.columns} columns, {'converged' if cg.converged else 'stopped at its work budget'}")
     return x, bounds, method, scale, start
+
+
+def _within(gap: float) -> str:
+    return "optimal" if gap <= OPTIMAL_GAP else f"within the target gap of {100 * gap:g} %"
 
 
 def _value(inst: PlanningInstance, x: np.ndarray) -> float:

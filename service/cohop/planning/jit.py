@@ -7,7 +7,7 @@ unless `NUMBA_CACHE_DIR` is set already, the cache goes to a directory of its
 own under the system's temporary directory, which every container has.
 `warm()` compiles (or loads) every kernel on a tiny problem: the fork server
 calls it while preloading the solver modules (`cohop.isolation`), so no
-request pays for compilation; `bench/bench_bound.py` prints what it costs.
+request pays for compilation; `bench/bench_plan.py` prints what it costs.
 """
 
 from __future__ import annotations

@@ -40,6 +40,8 @@ WORK_PER_SECOND = 8e7
 #: Halve the step factor after this many steps without a better bound; stop when it falls below MIN_THETA.
 PATIENCE = 5
 MIN_THETA = 1e-3
+#: The first step factor (Polyak's theta).
+THETA0 = 1.0
 #: Keep the DP plans of this many multipliers (those whose counts lie closest to the requirement) as starts.
 KEEP_PLANS = 3
 
@@ -95,7 +97,7 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
     lam = np.zeros(s) if start is None else np.asarray(start, dtype=float).copy()
     n = inst.sizes.astype(float)
     budget = math.inf if seconds is None else seconds * WORK_PER_SECOND
-    best, best_lam, work, theta, since = -math.inf, lam.copy(), 0.0, 1.0, 0
+    best, best_lam, work, theta, since = -math.inf, lam.copy(), 0.0, THETA0, 0
     plans: list[tuple[float, int, np.ndarray]] = []
     converged, it = False, 0
     for it in range(1, max_iterations + 1):

@@ -61,6 +61,10 @@ class SearchSchema(StrictSchema):
     time_limit_s = Number(limits.TIME_LIMIT_S, load_default=default(PlanRequirements, "time_limit_s"),
                           metadata={"description": "Search budget; clamped by the server's cap."})
     seed = Count(limits.SEED, load_default=default(PlanRequirements, "seed"))
+    target_gap = Number(limits.FRACTION, load_default=default(PlanRequirements, "target_gap"),
+                        metadata={"description": "The search stops as soon as its plan is proven within this relative "
+                                                 "gap of the best possible (linearised objective; default "
+                                                 f"{default(PlanRequirements, 'target_gap')})."})
     sequence_packets = Count(limits.SEQUENCE_PACKETS, load_default=default(PlanRequirements, "sequence_packets"),
                              metadata={"description": "Simulated packets per system for the sequence-driven "
                                                       "retry figures"})
