@@ -259,6 +259,30 @@ def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget) -> bound
     return result
 
 
+class _Windows:
+    """Wall-clock windows per phase: a phase that runs slower than calibrated (a busy machine) stops where the
+    cumulative shares up to and including it end, counted from the search's start, so it cannot eat the time of
+    the phases after it (the bound among them). The search's own end still stops every phase."""
+
+    def __init__(self, budget: Budget):
+        self.budget = budget
+        self.start = time.monotonic()
+        self.window = budget.left()
+
+    def stopper(self, phase: str, shares: dict, name: str) -> Callable[[], bool]:
+        names = list(shares)
+        cumulative = sum(shares[k] for k in names[:names.index(name) + 1])
+        end = self.start + cumulative * self.window
+
+        def stop() -> bool:
+            if time.monotonic() >= end:
+                self.budget.deadline.record_stop(phase)
+                return True
+            return self.budget.expired(phase)
+
+        return stop
+
+
 class _Renamed:
     """Counts work under another name (the local search from the bound's plans: `kicks_from_bound`)."""
 
@@ -270,14 +294,14 @@ class _Renamed:
 
 
 def _lagrange_phase(inst: PlanningInstance, x: np.ndarray, quick: bound.BoundResult | None, budget: Budget,
-                    shares: dict, clock: _Clock, notes: list[str], gap: float):
+                    shares: dict, clock: _Clock, notes: list[str], gap: float, stop: Callable[[], bool]):
     """The Lagrangian bound from the quick bound's duals, then local search from its DP plans (repaired to the
     counts). Returns (bound or None, the best plan, whether a plan from the bound won)."""
     deadline = budget.deadline
     value = _value(inst, x)
     result = lagrange.lagrangian_bound(inst, value, quick.multipliers if quick is not None else None,
                                        dual_weights=quick.victim_weights if quick is not None else None,
-                                       seconds=budget.work(shares["lagrange"]), stop=budget.stopper("lagrangian bound"),
+                                       seconds=budget.work(shares["lagrange"]), stop=stop,
                                        target=value * (1.0 - max(gap, OPTIMAL_GAP)),
                                        on_bound=lambda b: clock.tell("lagrangian bound", bound=b))
     deadline.count("dp_operations", result.work)
@@ -312,6 +336,7 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
     deadline = budget.deadline
     gap = inst.req.target_gap
     quick = None
+    windows = _Windows(budget)
     start = search.greedy(inst)
     if start is None:
         _infeasible(inst, budget, settings)  # raises when no plan exists; otherwise CP-SAT looks for one
@@ -336,7 +361,8 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
         local = budget.work(shares["local_search"] - (CEILING_SHARE if ceilings else 0.0))
         proven_at = None if ceilings else max(bounds.values()) / (1 - max(gap, OPTIMAL_GAP)) if bounds else None
         kicks_before, started = deadline.work_done.get("kicks", 0), time.monotonic()
-        x = search.search_plan(inst, x, local, stop=budget.stopper("local search"), counter=deadline,
+        x = search.search_plan(inst, x, local, stop=windows.stopper("local search", shares, "local_search"),
+                               counter=deadline,
                                progress=lambda k, v: clock.tell("local search", objective=v), target=proven_at)
         kicks = deadline.work_done.get("kicks", 0) - kicks_before
         budget.observe(local * kicks / max(1, search.kick_budget(inst, local)), time.monotonic() - started)
@@ -370,7 +396,8 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
     if x is None:
         raise PlanInfeasible(_diagnose(inst, budget, settings)[0] or [], proven=False)
     if not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
-        lb, x, won = _lagrange_phase(inst, x, quick, budget, shares, clock, notes, gap)
+        lb, x, won = _lagrange_phase(inst, x, quick, budget, shares, clock, notes, gap,
+                                     windows.stopper("lagrangian bound", shares, "lagrange"))
         if lb is not None:
             bounds["lagrangian"] = lb
         if won:

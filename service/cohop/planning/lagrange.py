@@ -42,6 +42,8 @@ PATIENCE = 5
 MIN_THETA = 1e-3
 #: The first step factor (Polyak's theta).
 THETA0 = 1.0
+#: Deflected subgradient: each step follows g + DEFLECTION times the previous direction (damps the zigzag).
+DEFLECTION = 0.0
 #: Keep the DP plans of this many multipliers (those whose counts lie closest to the requirement) as starts.
 KEEP_PLANS = 3
 
@@ -85,8 +87,8 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
                      target: float | None = None, on_bound: Callable[[float], None] | None = None) -> LagrangeResult:
     """Maximise L(lambda) from `start` (the column generation's multipliers; zeros if None).
 
-    `upper` is the best plan's objective (Polyak's target). It stops after `max_iterations`, when its DP work
-    exceeds `seconds` worth of WORK_PER_SECOND, when `stop()` (the wall clock) says so, or as soon as the bound
+    `upper` is the best plan's objective (Polyak's target). It stops after `max_iterations`, when one more DP
+    solve as costly as the last would take its work past `seconds` worth of WORK_PER_SECOND, when `stop()` (the wall clock) says so, or as soon as the bound
     reaches `target` (the plan is then proven within the requested gap)."""
     s = inst.n_systems
     if s > channel_dp.MAX_SYSTEMS:
@@ -100,6 +102,7 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
     best, best_lam, work, theta, since = -math.inf, lam.copy(), 0.0, THETA0, 0
     plans: list[tuple[float, int, np.ndarray]] = []
     converged, it = False, 0
+    direction = None
     for it in range(1, max_iterations + 1):
         value, sol = value_at(rel, lam, weights)
         work += sol.work
@@ -126,11 +129,13 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
             break
         if since >= PATIENCE:
             theta, since = theta / 2.0, 0
-        if theta < MIN_THETA or work > budget or (stop is not None and stop()):
+        if theta < MIN_THETA or work + sol.work > budget or (stop is not None and stop()):  # the next solve would
+            # cost about as much as this one: stop before it overruns the work budget
             converged = theta < MIN_THETA
             break
-        step = theta * max(upper - value, 1e-12 * max(1.0, abs(upper))) / float(g @ g)
-        lam = lam + step * g
+        direction = g if direction is None else g + DEFLECTION * direction
+        step = theta * max(upper - value, 1e-12 * max(1.0, abs(upper))) / float(direction @ direction)
+        lam = lam + step * direction
     return LagrangeResult(max(best, 0.0), best_lam, it, work, True, converged, rel.dropped,
                           [p for _, _, p in sorted(plans, key=lambda t: (t[0], t[1]))])
 
