@@ -259,6 +259,23 @@ def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget) -> bound
     return result
 
 
+#: Above this many systems the channel DP's states (sets of systems per channel) are out of reach in a request's
+#: time (the large bench site, 50 systems: millions of transition pairs per channel): its shares go to the local
+#: search and the column generation bounds alone.
+LAGRANGE_MAX_SYSTEMS = 24
+
+
+def _without_dp(shares: dict, inst: PlanningInstance, notes: list[str]) -> dict:
+    if inst.n_systems <= LAGRANGE_MAX_SYSTEMS:
+        return shares
+    out = dict(shares)
+    out["local_search"] += out.pop("lagrange") + out.pop("bound_plans")
+    out["lagrange"] = out["bound_plans"] = 0.0
+    notes.append(f"Lagrangian bound skipped: {inst.n_systems} systems (the channel DP takes at most "
+                 f"{LAGRANGE_MAX_SYSTEMS} in a request's time)")
+    return out
+
+
 class _Windows:
     """Wall-clock windows per phase: a phase that runs slower than calibrated (a busy machine) stops where the
     cumulative shares up to and including it end, counted from the search's start, so it cannot eat the time of
@@ -345,7 +362,7 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
     build_s = cpsat.BUILD_S_PER_PRODUCT * products
     small_enough = products <= settings.max_products
     use_cp_sat = small_enough and budget.work(SHARES["cp_sat"]) >= build_s + MIN_CP_SAT_WORK_S
-    shares = SHARES if use_cp_sat else SHARES_WITHOUT_CP_SAT
+    shares = _without_dp(SHARES if use_cp_sat else SHARES_WITHOUT_CP_SAT, inst, notes)
     ceilings = bool(np.isfinite(inst.ceilings).any())
     scale = model.Scale(1.0, 0.0)
     method = "greedy construction and iterated local search"
@@ -395,7 +412,7 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
                      "of its share of this time limit")
     if x is None:
         raise PlanInfeasible(_diagnose(inst, budget, settings)[0] or [], proven=False)
-    if not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
+    if shares["lagrange"] > 0 and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
         lb, x, won = _lagrange_phase(inst, x, quick, budget, shares, clock, notes, gap,
                                      windows.stopper("lagrangian bound", shares, "lagrange"))
         if lb is not None:

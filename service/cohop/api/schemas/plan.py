@@ -104,7 +104,7 @@ class SolverReportSchema(StrictSchema):  # cohop.planning.engine.SolverReport
     bound = fields.Float(metadata={"description": "Proven lower bound on that objective"})
     gap = fields.Float(allow_none=True, metadata={"description": "(objective - bound) / objective"})
     bounds = fields.Dict(keys=fields.String(), values=fields.Float(),
-                         metadata={"description": "Bound from each method (cp_sat, column_generation)"})
+                         metadata={"description": "Bound from each method (cp_sat, column_generation, lagrangian)"})
     evaluated_objective = fields.Float(metadata={"description": "The same objective on the evaluated figures"})
     linearisation_error = fields.Float(metadata={"description": "The linearised estimate of the request's "
                                                                 "objective minus evaluated_objective (>= 0)"})
@@ -122,7 +122,9 @@ class SolverReportSchema(StrictSchema):  # cohop.planning.engine.SolverReport
                                                                     "(a busy machine): the same request and seed "
                                                                     "may then give another plan"})
     work = fields.Dict(keys=fields.String(), values=fields.Float(), metadata={
-        "description": "Work done: kicks (local search), cp_sat_deterministic_time, pricing_operations (bound)"})
+        "description": "Work done: kicks (local search), kicks_from_bound (local search from the Lagrangian bound's "
+                       "plans), cp_sat_deterministic_time, pricing_operations (column generation), dp_operations "
+                       "(Lagrangian bound: DP states and transition pairs)"})
     binding = fields.List(fields.String(), metadata={"description": "Requirements the plan presses against"})
     notes = fields.List(fields.String())
 
