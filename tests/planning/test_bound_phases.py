@@ -4,12 +4,15 @@ Behaviour by work counts, never wall time (helpers.roomy: no wall-clock stop can
 
 from __future__ import annotations
 
+from types import SimpleNamespace
+
 import numpy as np
 import pytest
 
 from cohop import samples
 from cohop.planning import jit, lagrange, search
-from cohop.planning.engine import SolveSettings, plan_site
+from cohop.planning import engine
+from cohop.planning.engine import LAGRANGE_MAX_SYSTEMS, SHARES, SHARES_WITHOUT_CP_SAT, SolveSettings, plan_site
 from cohop.planning.linear import objective_value, system_estimates
 from cohop.planning.requirements import DEFAULT_TARGET_GAP, PlanRequirements
 from cohop.jobs.requests import load_plan_request
@@ -78,3 +81,14 @@ def test_kernels_are_warmed_once():
     jit.warm()
     assert jit.warm_seconds() is not None
     assert jit.warm() == 0.0  # the second call has nothing to do
+
+
+@pytest.mark.parametrize("shares", [SHARES, SHARES_WITHOUT_CP_SAT])
+def test_shares_sum_to_one_with_and_without_the_dp(shares):
+    """Above LAGRANGE_MAX_SYSTEMS the DP's shares go to the local search; the shares still sum to 1."""
+    assert sum(shares.values()) == pytest.approx(1.0)
+    notes = []
+    big = engine._without_dp(shares, SimpleNamespace(n_systems=LAGRANGE_MAX_SYSTEMS + 1), notes)
+    assert sum(big.values()) == pytest.approx(1.0)
+    assert big["lagrange"] == big["bound_plans"] == 0.0 and notes
+    assert engine._without_dp(shares, SimpleNamespace(n_systems=LAGRANGE_MAX_SYSTEMS), []) is shares

@@ -411,8 +411,10 @@ def _forward_dense(rel: "Relaxation", lo, hi, mask, cost, member, p1, g1):
         if key not in cache:
             a, b = slice(lo[kp], hi[kp]), slice(lo[k], hi[k])
             t = member[b].astype(float) @ p1.T @ member[a].astype(float).T  # [next, previous]
-            banned = ((mask[b][:, None] & mask[a][None, :] & sep) != 0) | ((mask[b][:, None] & g1[a][None, :]) != 0)
-            t[banned] = np.inf
+            if sep != 0:
+                t[(mask[b][:, None] & (mask[a][None, :] & sep)) != 0] = np.inf
+            if g1[a].any():
+                t[(mask[b][:, None] & g1[a][None, :]) != 0] = np.inf
             cache[key] = np.ascontiguousarray(t)
             work += t.size
         return cache[key]
