@@ -19,8 +19,11 @@ What the relaxed problem keeps and what it drops (so every bound stays valid):
 - dropped: pair costs at offsets >= 2 (they are >= 0, so dropping them lowers
   every plan's objective), separation beyond one channel, guards beyond
   offset 1 (dropping a constraint only adds plans). `Dropped` lists them with
-  their cost weight. Pairs harmed at every offset cost the same in every plan
-  and stay a constant.
+  their cost weight. The least harm of a pair over all offsets is paid on
+  every pair of channel uses whatever the plan (today: pairs harmed at every
+  offset) and stays a constant (`split_harm`). The per-offset harm is read in
+  one place, `harm_table`: the instance's `offset_harm` when it has one, else
+  the 0/1 window.
 
 Exact pruning. Pair costs are >= 0, so removing system v from a state
 changes the path's cost by at most -(node - lambda_v) - (v's co-channel cost
@@ -31,9 +34,14 @@ sets whose every unpinned member earns more than its co-channel cost
 (`_class_states` enumerates them depth first; the family is closed under
 removing unpinned members, so each is met once). Channels that look the same
 to every system (allowed set, pins, node costs) share one list of states.
-The transition from channel c - 1 to c scans the previous states in order of
-their DP value and stops as soon as a value reaches the best found, since the
-offset-1 cost added is >= 0. Its count of scanned pairs is the work.
+The transition from channel c - 1 to c uses one matrix of offset-1 costs per
+pair of channel classes (built once per solve; infinite where separation or a
+guard forbids) and scans the previous states in order of their DP value,
+stopping as soon as a value reaches the best found, since the offset-1 cost
+added is >= 0 (`_min_plus`). When that matrix would exceed DENSE_PAIRS
+entries, the compiled scan `_forward` sums the costs per pair instead. The
+work is the states enumerated, the matrix entries built and the pairs
+scanned.
 """
 
 from __future__ import annotations
