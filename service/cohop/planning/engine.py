@@ -24,7 +24,7 @@ from cohop.assess import Assessment, assess_site
 from cohop.config import default_of
 from cohop.errors import PlanInfeasible
 from cohop import cpsat
-from cohop.planning import baselines, bound, costs, lagrange, model, search
+from cohop.planning import baselines, bound, costs, formulation, model, search
 from cohop.deadline import Budget, Deadline
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import PlanningInstance, build_instance, without_inter_system_terms
@@ -145,30 +145,12 @@ def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget: Budget, wo
 
     It stops at a relative gap of max(OPTIMAL_GAP / 2, `gap`) (CP-SAT's own), or as soon as a solution is within
     that of `proven_bound` (a bound another method proved)."""
-    m, mv, objective, scale = model.full_model(inst, start)
-    worst = inst.req.objective == "worst_system"
-    model.minimise(m, mv, inst, objective, scale)
-    constant = 0.0 if worst else mv.constant
-    allowance = _rounding_allowance(objective, scale, mv, inst)
-    stop_at = None
-    if proven_bound is not None and proven_bound > 0:
-        stop_at = math.floor((proven_bound / (1 - max(0.5 * OPTIMAL_GAP, gap)) - constant) * scale.factor)
-    out = cpsat.run(m, budget, "CP-SAT", work_s, settings.solver_threads, inst.req.seed, settings.deterministic,
-                    gap_limit=max(0.5 * OPTIMAL_GAP, gap), stop_at=stop_at,
-                    on_solution=lambda v: clock.tell("cp-sat", objective=v / scale.factor + constant),
-                    on_bound=lambda b: clock.tell("cp-sat", bound=max(0.0, b / scale.factor + constant - allowance)))
-    if not out.found:
-        return None, None, out.name, scale
-    x = model.solution(out.solver, mv, inst.allowed.shape)
-    proven = out.solver.best_objective_bound / scale.factor + constant - allowance
-    return x, max(proven, 0.0), out.name, scale
-
-
-def _rounding_allowance(objective: model.Objective, scale: model.Scale, mv: model.ModelVars,
-                        inst: PlanningInstance) -> float:
-    """Largest amount by which integer rounding can overstate the objective of any plan (the exact excess of
-    the terms a plan can switch on: `model.rounding_allowance`; zero when every scaled cost is an integer)."""
-    return model.rounding_allowance(objective, mv, inst, scale)
+    cp = formulation.PairBooleanCpSat(inst, settings.solver_threads, inst.req.seed, settings.deterministic)
+    cp.hint(start)
+    out = cp.solve(formulation.SolveLimits(budget, work_s, max(0.5 * OPTIMAL_GAP, gap), proven_bound,
+                                           on_solution=lambda v: clock.tell("cp-sat", objective=v),
+                                           on_bound=lambda b: clock.tell("cp-sat", bound=b)))
+    return out.x, out.bound, out.status, out.scale
 
 
 def _binding(inst: PlanningInstance, x: np.ndarray, estimates: np.ndarray) -> list[str]:
@@ -316,32 +298,24 @@ def _lagrange_phase(inst: PlanningInstance, x: np.ndarray, quick: bound.BoundRes
     counts). Returns (bound or None, the best plan, whether a plan from the bound won)."""
     deadline = budget.deadline
     value = _value(inst, x)
-    result = lagrange.lagrangian_bound(inst, value, quick.multipliers if quick is not None else None,
-                                       dual_weights=quick.victim_weights if quick is not None else None,
-                                       seconds=budget.work(shares["lagrange"]), stop=stop,
-                                       target=value * (1.0 - max(gap, OPTIMAL_GAP)),
-                                       on_bound=lambda b: clock.tell("lagrangian bound", bound=b))
-    deadline.count("dp_operations", result.work)
-    notes.extend(result.notes)
-    if not result.solved:
-        return None, x, False
-    notes.append(f"Lagrangian bound: {result.iterations} DP solve(s), "
-                 f"{'converged' if result.converged else 'stopped at its work budget'}; the relaxation drops "
-                 + result.dropped.describe(inst.ids))
-    if _proven(value, result.bound, gap) or not result.plans or inst.req.objective == "worst_system" \
-            or np.isfinite(inst.ceilings).any():
-        return result.bound, x, False
-    start = search.from_relaxation(inst, result.plans)
-    if start is None:
-        return result.bound, x, False
+    relaxation = formulation.LagrangianBound(inst, quick.multipliers if quick is not None else None,
+                                             quick.victim_weights if quick is not None else None)
+    relaxation.hint(x)
+    out = relaxation.solve(formulation.SolveLimits(budget, budget.work(shares["lagrange"]), max(gap, OPTIMAL_GAP),
+                                                   on_bound=lambda b: clock.tell("lagrangian bound", bound=b),
+                                                   stop=stop))
+    deadline.count("dp_operations", out.work)
+    notes.extend(out.notes)
+    if out.bound is None or out.x is None or _proven(value, out.bound, gap):
+        return out.bound, x, False
     seconds = budget.work(shares["bound_plans"])
-    y = search.iterated(inst, start, search.kick_budget(inst, seconds), inst.req.seed + 7, stop=budget.stopper(
+    y = search.iterated(inst, out.x, search.kick_budget(inst, seconds), inst.req.seed + 7, stop=budget.stopper(
         "local search from the bound's plans"), counter=_Renamed(deadline, "kicks_from_bound"),
-        target=result.bound / (1 - max(gap, OPTIMAL_GAP)))
+        target=out.bound / (1 - max(gap, OPTIMAL_GAP)))
     if _value(inst, y) < value:
         clock.tell("local search from the bound's plans", objective=_value(inst, y))
-        return result.bound, y, True
-    return result.bound, x, False
+        return out.bound, y, True
+    return out.bound, x, False
 
 
 def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clock: _Clock, notes: list[str]):
