@@ -54,7 +54,7 @@ def test_a_looser_target_gap_stops_the_search_sooner(water):
     reports = {}
     for gap in (0.9, 0.0):
         result = plan_site(water, PlanRequirements(seed=2, target_gap=gap), TWO, detail="system",
-                           with_sequences=False, budget=roomy(1.0))
+                           with_sequences=False, budget=roomy(2.0))
         reports[gap] = result.report
     loose, tight = reports[0.9], reports[0.0]
     assert loose.gap <= 0.9
@@ -65,7 +65,7 @@ def test_a_looser_target_gap_stops_the_search_sooner(water):
 
 def test_the_lagrangian_bound_is_reported_below_the_plan(water):
     result = plan_site(water, PlanRequirements(seed=1, target_gap=0.0), TWO, detail="system", with_sequences=False,
-                       budget=roomy(1.0))
+                       budget=roomy(2.0))
     r = result.report
     assert 0.0 < r.bounds["lagrangian"] <= r.objective + 1e-12
     assert any(n.startswith("Lagrangian bound:") and "drops" in n for n in r.notes)
@@ -92,3 +92,11 @@ def test_shares_sum_to_one_with_and_without_the_dp(shares):
     assert sum(big.values()) == pytest.approx(1.0)
     assert big["lagrange"] == big["bound_plans"] == 0.0 and notes
     assert engine._without_dp(shares, SimpleNamespace(n_systems=LAGRANGE_MAX_SYSTEMS), []) is shares
+
+
+def test_a_short_budget_skips_the_dp_and_says_so(water):
+    """One DP solve cannot be interrupted: below MIN_LAGRANGE_WORK_S of work for it the phase does not run."""
+    r = plan_site(water, PlanRequirements(seed=1, target_gap=0.0), TWO, detail="system", with_sequences=False,
+                  budget=roomy(0.4)).report
+    assert "dp_operations" not in r.work and "lagrangian" not in r.bounds
+    assert any("Lagrangian bound skipped" in n for n in r.notes)

@@ -245,9 +245,14 @@ def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget) -> bound
 #: time (the large bench site, 50 systems: millions of transition pairs per channel): its shares go to the local
 #: search and the column generation bounds alone.
 LAGRANGE_MAX_SYSTEMS = 24
+#: The Lagrangian bound runs only if its share is at least this much calibrated work: one DP solve cannot be
+#: interrupted and costs 0.2 to 1 s on the medium bench site (busy machine), so a short limit would overrun.
+MIN_LAGRANGE_WORK_S = 0.5
 
 
 def _without_dp(shares: dict, inst: PlanningInstance, notes: list[str]) -> dict:
+    """The shares, with the Lagrangian bound's given to the local search when the DP is out of reach (too many
+    systems)."""
     if inst.n_systems <= LAGRANGE_MAX_SYSTEMS:
         return shares
     out = dict(shares)
@@ -386,7 +391,10 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
                      "of its share of this time limit")
     if x is None:
         raise PlanInfeasible(_diagnose(inst, budget, settings)[0] or [], proven=False)
-    if shares["lagrange"] > 0 and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
+    short = budget.work(shares["lagrange"]) < MIN_LAGRANGE_WORK_S
+    if shares["lagrange"] > 0 and short and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
+        notes.append("Lagrangian bound skipped: its share of this time limit is below one uninterruptible DP solve")
+    elif shares["lagrange"] > 0 and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
         lb, x, won = _lagrange_phase(inst, x, quick, budget, shares, clock, notes, gap,
                                      windows.stopper("lagrangian bound", shares, "lagrange"))
         if lb is not None:

@@ -123,6 +123,6 @@ class LagrangianBound:
                                 "relaxation drops " + result.dropped.describe(inst.ids)]
         x = None
         if result.plans and inst.req.objective != "worst_system" and not np.isfinite(inst.ceilings).any():
-            x = search.from_relaxation(inst, result.plans)
+            x = search.from_relaxation(inst, result.plans, stop=lambda: any(s() for s in stops))
         return Outcome(x, result.bound, "converged" if result.converged else "stopped", work=result.work,
                        notes=notes)

@@ -240,11 +240,14 @@ def improve_worst(inst: PlanningInstance, x: np.ndarray, rounds: int = 12) -> np
     return best
 
 
-def from_relaxation(inst: PlanningInstance, paths: list[np.ndarray]) -> np.ndarray | None:
+def from_relaxation(inst: PlanningInstance, paths: list[np.ndarray], stop=None) -> np.ndarray | None:
     """The best plan made from relaxed plans (occupancies whose counts are off): each repaired to the exact
-    counts by the guided greedy (`greedy(prefer=...)`), then improved by best swaps; None if none repairs."""
+    counts by the guided greedy (`greedy(prefer=...)`), then improved by best swaps; None if none repairs.
+    `stop()` (the wall clock) is asked before each path after the first."""
     best, best_value = None, np.inf
-    for path in paths:
+    for i, path in enumerate(paths):
+        if i and stop is not None and stop():
+            break
         x = greedy(inst, prefer=np.asarray(path, dtype=bool))
         if x is None:
             continue
