@@ -72,9 +72,10 @@ def victim_weights(inst: PlanningInstance, dual_weights: np.ndarray | None) -> n
     return mu / mu.sum()
 
 
-def value_at(rel: channel_dp.Relaxation, lam: np.ndarray, weights: np.ndarray) -> tuple[float, channel_dp.PathSolution]:
+def value_at(rel: channel_dp.Relaxation, lam: np.ndarray, weights: np.ndarray,
+             max_work: float = math.inf) -> tuple[float, channel_dp.PathSolution]:
     """L(lambda) and the DP's solution (the bound is -inf when the DP gave up)."""
-    sol = channel_dp.solve(rel, lam, weights)
+    sol = channel_dp.solve(rel, lam, weights, max_work=max_work)
     if not sol.complete:
         return -math.inf, sol
     n = rel.inst.sizes.astype(float)
@@ -104,13 +105,18 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
     converged, it = False, 0
     direction = None
     for it in range(1, max_iterations + 1):
-        value, sol = value_at(rel, lam, weights)
+        value, sol = value_at(rel, lam, weights, max_work=budget - work)
         work += sol.work
+        if sol.over_budget and math.isfinite(best) and theta >= MIN_THETA:
+            # the step overshot into a costly region (many states): halve it back towards the best multipliers
+            lam, theta = 0.5 * (lam + best_lam), theta / 2.0
+            continue
         if not sol.complete:
+            why = ("the next DP solve's estimated work exceeded what its budget had left" if sol.over_budget
+                   else f"a channel class had more than {channel_dp.STATE_CAP} states")
             return LagrangeResult(max(best, 0.0), best_lam if math.isfinite(best) else None, it, work,
                                   math.isfinite(best), False, rel.dropped, [p for _, _, p in plans],
-                                  notes=["Lagrangian bound stopped: a channel class had more than "
-                                         f"{channel_dp.STATE_CAP} states"])
+                                  notes=["Lagrangian bound stopped: " + why])
         if sol.x is None:  # the kept constraints leave no plan at all: nothing to bound
             break
         if value > best + 1e-15 * max(1.0, abs(best) if math.isfinite(best) else 1.0):
