@@ -24,7 +24,7 @@ from cohop.assess import Assessment, assess_site
 from cohop.config import default_of
 from cohop.errors import PlanInfeasible
 from cohop import cpsat
-from cohop.planning import baselines, bound, costs, formulation, model, search
+from cohop.planning import baselines, bound, costs, formulation, lagrange, model, search
 from cohop.deadline import Budget, Deadline
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import PlanningInstance, build_instance, without_inter_system_terms
@@ -40,12 +40,13 @@ OPTIMAL, FEASIBLE, INFEASIBLE, NO_PLAN = "optimal", "feasible", "infeasible", "n
 OPTIMAL_GAP = 1e-4
 #: Shares of the search's work budget; each set sums to 1. Loss ceilings take CEILING_SHARE out of the
 #: local search's share, and the infeasibility diagnosis (when there is no start) DIAGNOSIS_SHARE. The
-#: Lagrangian bound (`planning.lagrange`) is warm-started from the quick bound's duals; its DP plans, repaired,
-#: start the last local search ("bound_plans").
-SHARES = {"quick_bound": 0.05, "local_search": 0.25, "cp_sat": 0.25, "lagrange": 0.25, "bound_plans": 0.10,
-          "column_generation": 0.10}
-SHARES_WITHOUT_CP_SAT = {"quick_bound": 0.05, "local_search": 0.40, "lagrange": 0.35, "bound_plans": 0.10,
-                         "column_generation": 0.10}
+#: Lagrangian bound (`planning.lagrange`) is warm-started from the column generation's duals (the stronger of
+#: the quick and the windowed one); its DP plans, repaired, start the last local search ("bound_plans").
+#: The order of the keys is the order of the phases (`_Windows`).
+SHARES = {"quick_bound": 0.05, "local_search": 0.25, "cp_sat": 0.25, "column_generation": 0.15, "lagrange": 0.20,
+          "bound_plans": 0.10}
+SHARES_WITHOUT_CP_SAT = {"quick_bound": 0.05, "local_search": 0.40, "column_generation": 0.20, "lagrange": 0.25,
+                         "bound_plans": 0.10}
 CEILING_SHARE = 0.10
 MIN_CP_SAT_WORK_S = 0.1  # CP-SAT runs only if its share leaves this much work after building the model
 DIAGNOSIS_SHARE = 0.5
@@ -299,12 +300,14 @@ class _Renamed:
 
 def _lagrange_phase(inst: PlanningInstance, x: np.ndarray, quick: bound.BoundResult | None, budget: Budget,
                     shares: dict, clock: _Clock, notes: list[str], gap: float, stop: Callable[[], bool]):
-    """The Lagrangian bound from the quick bound's duals, then local search from its DP plans (repaired to the
+    """The Lagrangian bound from the column generation's duals (`warm`), then local search from its DP plans (repaired to the
     counts). Returns (bound or None, the best plan, whether a plan from the bound won)."""
     deadline = budget.deadline
     value = _value(inst, x)
     relaxation = formulation.LagrangianBound(inst, quick.multipliers if quick is not None else None,
-                                             quick.victim_weights if quick is not None else None)
+                                             quick.victim_weights if quick is not None else None,
+                                             theta=lagrange.THETA_NEAR if quick is not None and quick.window > 1
+                                             else lagrange.THETA0)
     relaxation.hint(x)
     out = relaxation.solve(formulation.SolveLimits(budget, budget.work(shares["lagrange"]), max(gap, OPTIMAL_GAP),
                                                    on_bound=lambda b: clock.tell("lagrangian bound", bound=b),
@@ -391,25 +394,28 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
                      "of its share of this time limit")
     if x is None:
         raise PlanInfeasible(_diagnose(inst, budget, settings)[0] or [], proven=False)
-    short = budget.work(shares["lagrange"]) < MIN_LAGRANGE_WORK_S
-    if shares["lagrange"] > 0 and short and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
-        notes.append("Lagrangian bound skipped: its share of this time limit is below one uninterruptible DP solve")
-    elif shares["lagrange"] > 0 and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
-        lb, x, won = _lagrange_phase(inst, x, quick, budget, shares, clock, notes, gap,
-                                     windows.stopper("lagrangian bound", shares, "lagrange"))
-        if lb is not None:
-            bounds["lagrangian"] = lb
-        if won:
-            method += ", then local search from the Lagrangian bound's plans"
-    if not _proven(_value(inst, x), max(bounds.values()), gap):
+    warm = quick
+    if x is not None and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
         cg = bound.lower_bound(inst, x, length=bound.window_length(inst), iterations=400,
                                seconds=budget.work(shares["column_generation"]),
-                               deadline=budget.stopper("column generation"))
+                               deadline=windows.stopper("column generation", shares, "column_generation"))
         deadline.count("pricing_operations", cg.work)
         bounds["column_generation"] = max(cg.bound, bounds.get("column_generation", 0.0))
         clock.tell("column generation", bound=cg.bound)
         notes.append(f"column generation: windows of {cg.window} channel(s), {cg.iterations} iteration(s), "
                      f"{cg.columns} columns, {'converged' if cg.converged else 'stopped at its work budget'}")
+        if cg.multipliers is not None and (quick is None or cg.bound >= quick.bound):
+            warm = cg
+    short = budget.work(shares["lagrange"]) < MIN_LAGRANGE_WORK_S
+    if shares["lagrange"] > 0 and short and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
+        notes.append("Lagrangian bound skipped: its share of this time limit is below one uninterruptible DP solve")
+    elif shares["lagrange"] > 0 and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
+        lb, x, won = _lagrange_phase(inst, x, warm, budget, shares, clock, notes, gap,
+                                     windows.stopper("lagrangian bound", shares, "lagrange"))
+        if lb is not None:
+            bounds["lagrangian"] = lb
+        if won:
+            method += ", then local search from the Lagrangian bound's plans"
     return x, bounds, method, scale, start
 
 

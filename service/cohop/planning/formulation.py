@@ -100,8 +100,8 @@ class LagrangianBound:
     name = "lagrangian"
 
     def __init__(self, inst: PlanningInstance, multipliers: np.ndarray | None = None,
-                 dual_weights: np.ndarray | None = None):
-        self.inst, self.multipliers, self.dual_weights = inst, multipliers, dual_weights
+                 dual_weights: np.ndarray | None = None, theta: float = lagrange.THETA0):
+        self.inst, self.multipliers, self.dual_weights, self.theta = inst, multipliers, dual_weights, theta
         self.start: np.ndarray | None = None
 
     def hint(self, x: np.ndarray | None) -> None:
@@ -115,7 +115,7 @@ class LagrangianBound:
                                            dual_weights=self.dual_weights, seconds=limits.work_s,
                                            stop=lambda: any(s() for s in stops),
                                            target=upper * (1.0 - limits.gap) if math.isfinite(upper) else None,
-                                           on_bound=limits.on_bound)
+                                           on_bound=limits.on_bound, theta=self.theta)
         if not result.solved:
             return Outcome(None, None, "out of reach", work=result.work, notes=result.notes)
         notes = result.notes + [f"Lagrangian bound: {result.iterations} DP solve(s), "

@@ -35,13 +35,15 @@ from cohop.planning import channel_dp
 from cohop.planning.instance import PlanningInstance
 
 #: DP operations (states enumerated plus transition pairs) per second on our 2-core machines, measured on the
-#: medium bench site (about 25 million in 0.2 to 0.3 s): turns a time share into a work budget.
-WORK_PER_SECOND = 8e7
+#: medium bench site near its optimal multipliers (about 3 100 states, 300 to 350 million operations per solve at
+#: 90 to 190 million per second on a shared machine): turns a time share into a work budget.
+WORK_PER_SECOND = 1.2e8
 #: Halve the step factor after this many steps without a better bound; stop when it falls below MIN_THETA.
 PATIENCE = 5
 MIN_THETA = 1e-3
-#: The first step factor (Polyak's theta).
+#: The first step factor (Polyak's theta) from the co-channel LP's duals, and from a windowed LP's (closer).
 THETA0 = 1.0
+THETA_NEAR = 0.2
 #: Deflected subgradient: each step follows g + DEFLECTION times the previous direction (damps the zigzag).
 DEFLECTION = 0.0
 #: Keep the DP plans of this many multipliers (those whose counts lie closest to the requirement) as starts.
@@ -85,12 +87,14 @@ def value_at(rel: channel_dp.Relaxation, lam: np.ndarray, weights: np.ndarray,
 def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | None = None,
                      dual_weights: np.ndarray | None = None, seconds: float | None = None,
                      max_iterations: int = 10_000, stop: Callable[[], bool] | None = None,
-                     target: float | None = None, on_bound: Callable[[float], None] | None = None) -> LagrangeResult:
+                     target: float | None = None, on_bound: Callable[[float], None] | None = None,
+                     theta: float = THETA0) -> LagrangeResult:
     """Maximise L(lambda) from `start` (the column generation's multipliers; zeros if None).
 
     `upper` is the best plan's objective (Polyak's target). It stops after `max_iterations`, when one more DP
     solve as costly as the last would take its work past `seconds` worth of WORK_PER_SECOND, when `stop()` (the wall clock) says so, or as soon as the bound
-    reaches `target` (the plan is then proven within the requested gap)."""
+    reaches `target` (the plan is then proven within the requested gap). `theta` is the first step factor:
+    smaller when the start is near the optimum (the duals of a converged or nearly converged windowed LP)."""
     s = inst.n_systems
     if s > channel_dp.MAX_SYSTEMS:
         return LagrangeResult(0.0, None, 0, 0.0, False, False,
@@ -100,7 +104,7 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
     lam = np.zeros(s) if start is None else np.asarray(start, dtype=float).copy()
     n = inst.sizes.astype(float)
     budget = math.inf if seconds is None else seconds * WORK_PER_SECOND
-    best, best_lam, work, theta, since = -math.inf, lam.copy(), 0.0, THETA0, 0
+    best, best_lam, work, since = -math.inf, lam.copy(), 0.0, 0
     plans: list[tuple[float, int, np.ndarray]] = []
     converged, it = False, 0
     direction = None
