@@ -10,7 +10,6 @@ from hypothesis import HealthCheck, given, settings, strategies as st
 
 from cohop.planning import bound, lagrange, search
 from cohop.planning.linear import objective_value, system_estimates
-from cohop.planning.requirements import PlanRequirements
 from tests.planning import helpers
 
 
