@@ -45,7 +45,9 @@ from cohop import deadline as deadlines
 
 log = logging.getLogger("cohop.solver")
 
-_PRELOAD = ["cohop.api.solver_runner"]  # the jobs, the engine and the response schemas
+#: The jobs, the engine and the response schemas; then the planner's compiled kernels, compiled or loaded from
+#: numba's disk cache once in the fork server (`cohop.planning.preload`), so that no solve compiles.
+_PRELOAD = ["cohop.api.solver_runner", "cohop.planning.preload"]
 _lock = threading.Lock()
 _context = None
 #: How often the parent looks at the client's connection while the solve runs.

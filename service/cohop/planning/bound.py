@@ -51,6 +51,11 @@ class BoundResult:
     columns: int
     converged: bool
     work: float = 0.0  # pricing operations spent (the deterministic work count)
+    #: The master LP's last duals of the use rows, per channel use (L times the per-window dual): the value of
+    #: one more channel of each system, the channel-count multipliers `planning.lagrange` starts from.
+    multipliers: np.ndarray | None = None
+    #: Worst-system objective: the LP's duals of the victim rows (weights on the systems, summing to 1).
+    victim_weights: np.ndarray | None = None
 
 
 def _channel_types(inst: PlanningInstance) -> list[tuple]:
@@ -426,10 +431,13 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
     def spent() -> float:
         return float(sum(p.work for p in pricers.values()))
 
+    multipliers = victim_weights = None
     for it in range(1, iterations + 1):
         if lp.Solve() != pywraplp.Solver.OPTIMAL:
             break
         value = objective.Value() + (0.0 if worst else float(inst.weights @ constant))
+        multipliers = length * np.array([row.dual_value() for row in use_row])
+        victim_weights = np.array([row.dual_value() for row in victim_row]) if worst else None
         last = it == iterations or spent() > budget or (deadline is not None and deadline())
         found, lagrange = price(exact=False)
         if not found:  # the heuristic found nothing: price exactly, which also bounds
@@ -446,4 +454,4 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
         if added == 0 or last:
             break
     return BoundResult(bound=max(best, 0.0), window=length, iterations=it, columns=len(seen),
-                       converged=converged, work=spent())
+                       converged=converged, work=spent(), multipliers=multipliers, victim_weights=victim_weights)

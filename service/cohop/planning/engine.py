@@ -24,7 +24,7 @@ from cohop.assess import Assessment, assess_site
 from cohop.config import default_of
 from cohop.errors import PlanInfeasible
 from cohop import cpsat
-from cohop.planning import baselines, bound, costs, model, search
+from cohop.planning import baselines, bound, costs, formulation, lagrange, model, search
 from cohop.deadline import Budget, Deadline
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import PlanningInstance, build_instance, without_inter_system_terms
@@ -39,9 +39,14 @@ OPTIMAL, FEASIBLE, INFEASIBLE, NO_PLAN = "optimal", "feasible", "infeasible", "n
 #: rounding allowance of this order (see SolverReport.rounding).
 OPTIMAL_GAP = 1e-4
 #: Shares of the search's work budget; each set sums to 1. Loss ceilings take CEILING_SHARE out of the
-#: local search's share, and the infeasibility diagnosis (when there is no start) DIAGNOSIS_SHARE.
-SHARES = {"quick_bound": 0.05, "local_search": 0.45, "cp_sat": 0.25, "column_generation": 0.25}
-SHARES_WITHOUT_CP_SAT = {"quick_bound": 0.05, "local_search": 0.70, "column_generation": 0.25}
+#: local search's share, and the infeasibility diagnosis (when there is no start) DIAGNOSIS_SHARE. The
+#: Lagrangian bound (`planning.lagrange`) is warm-started from the column generation's duals (the stronger of
+#: the quick and the windowed one); its DP plans, repaired, start the last local search ("bound_plans").
+#: The order of the keys is the order of the phases (`_Windows`).
+SHARES = {"quick_bound": 0.05, "local_search": 0.25, "cp_sat": 0.25, "column_generation": 0.15, "lagrange": 0.20,
+          "bound_plans": 0.10}
+SHARES_WITHOUT_CP_SAT = {"quick_bound": 0.05, "local_search": 0.40, "column_generation": 0.20, "lagrange": 0.25,
+                         "bound_plans": 0.10}
 CEILING_SHARE = 0.10
 MIN_CP_SAT_WORK_S = 0.1  # CP-SAT runs only if its share leaves this much work after building the model
 DIAGNOSIS_SHARE = 0.5
@@ -136,35 +141,17 @@ class _Clock:
 
 
 def _cp_sat(inst: PlanningInstance, start: np.ndarray | None, budget: Budget, work_s: float,
-            settings: SolveSettings, clock: _Clock, proven_bound: float | None):
+            settings: SolveSettings, clock: _Clock, proven_bound: float | None, gap: float = OPTIMAL_GAP):
     """Solve the full model (improving `start` if given); returns (x, proven bound, status name, scale).
 
-    It stops at a relative gap of OPTIMAL_GAP / 2 (CP-SAT's own), or as soon as a solution is within
-    OPTIMAL_GAP / 2 of `proven_bound` (a bound another method proved)."""
-    m, mv, objective, scale = model.full_model(inst, start)
-    worst = inst.req.objective == "worst_system"
-    model.minimise(m, mv, inst, objective, scale)
-    constant = 0.0 if worst else mv.constant
-    allowance = _rounding_allowance(objective, scale, mv, inst)
-    stop_at = None
-    if proven_bound is not None and proven_bound > 0:
-        stop_at = math.floor((proven_bound * (1 + 0.5 * OPTIMAL_GAP) - constant) * scale.factor)
-    out = cpsat.run(m, budget, "CP-SAT", work_s, settings.solver_threads, inst.req.seed, settings.deterministic,
-                    gap_limit=0.5 * OPTIMAL_GAP, stop_at=stop_at,
-                    on_solution=lambda v: clock.tell("cp-sat", objective=v / scale.factor + constant),
-                    on_bound=lambda b: clock.tell("cp-sat", bound=max(0.0, b / scale.factor + constant - allowance)))
-    if not out.found:
-        return None, None, out.name, scale
-    x = model.solution(out.solver, mv, inst.allowed.shape)
-    proven = out.solver.best_objective_bound / scale.factor + constant - allowance
-    return x, max(proven, 0.0), out.name, scale
-
-
-def _rounding_allowance(objective: model.Objective, scale: model.Scale, mv: model.ModelVars,
-                        inst: PlanningInstance) -> float:
-    """Largest amount by which integer rounding can overstate the objective of any plan (the exact excess of
-    the terms a plan can switch on: `model.rounding_allowance`; zero when every scaled cost is an integer)."""
-    return model.rounding_allowance(objective, mv, inst, scale)
+    It stops at a relative gap of max(OPTIMAL_GAP / 2, `gap`) (CP-SAT's own), or as soon as a solution is within
+    that of `proven_bound` (a bound another method proved)."""
+    cp = formulation.PairBooleanCpSat(inst, settings.solver_threads, inst.req.seed, settings.deterministic)
+    cp.hint(start)
+    out = cp.solve(formulation.SolveLimits(budget, work_s, max(0.5 * OPTIMAL_GAP, gap), proven_bound,
+                                           on_solution=lambda v: clock.tell("cp-sat", objective=v),
+                                           on_bound=lambda b: clock.tell("cp-sat", bound=b)))
+    return out.x, out.bound, out.status, out.scale
 
 
 def _binding(inst: PlanningInstance, x: np.ndarray, estimates: np.ndarray) -> list[str]:
@@ -241,16 +228,102 @@ def _meet_ceilings(inst: PlanningInstance, x: np.ndarray, seconds: float, stop, 
     return x
 
 
-def _proven(objective: float, bound_value: float) -> bool:
-    return objective <= 0 or (objective - bound_value) / objective <= OPTIMAL_GAP
+def _proven(objective: float, bound_value: float, gap: float = OPTIMAL_GAP) -> bool:
+    """The plan is proven within `gap` (relative) of the best possible."""
+    return objective <= 0 or (objective - bound_value) / objective <= max(gap, OPTIMAL_GAP)
 
 
-def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget):
-    """The co-channel (one-channel window) bound: cheap, and it proves many sites at once."""
+def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget) -> bound.BoundResult:
+    """The co-channel (one-channel window) bound: cheap, and it proves many sites at once. Its LP duals warm-start
+    the Lagrangian bound."""
     work = budget.work(SHARES["quick_bound"])
     result = bound.lower_bound(inst, x, length=1, iterations=20, seconds=work, deadline=budget.stopper("quick bound"))
     budget.deadline.count("pricing_operations", result.work)
-    return result.bound
+    return result
+
+
+#: Above this many systems the channel DP's states (sets of systems per channel) are out of reach in a request's
+#: time (the large bench site, 50 systems: millions of transition pairs per channel): its shares go to the local
+#: search and the column generation bounds alone.
+LAGRANGE_MAX_SYSTEMS = 24
+#: The Lagrangian bound runs only if its share is at least this much calibrated work: one DP solve cannot be
+#: interrupted and costs 0.2 to 1 s on the medium bench site (busy machine), so a short limit would overrun.
+MIN_LAGRANGE_WORK_S = 0.5
+
+
+def _without_dp(shares: dict, inst: PlanningInstance, notes: list[str]) -> dict:
+    """The shares, with the Lagrangian bound's given to the local search when the DP is out of reach (too many
+    systems)."""
+    if inst.n_systems <= LAGRANGE_MAX_SYSTEMS:
+        return shares
+    out = dict(shares)
+    out["local_search"] += out.pop("lagrange") + out.pop("bound_plans")
+    out["lagrange"] = out["bound_plans"] = 0.0
+    notes.append(f"Lagrangian bound skipped: {inst.n_systems} systems (the channel DP takes at most "
+                 f"{LAGRANGE_MAX_SYSTEMS} in a request's time)")
+    return out
+
+
+class _Windows:
+    """Wall-clock windows per phase: a phase that runs slower than calibrated (a busy machine) stops where the
+    cumulative shares up to and including it end, counted from the search's start, so it cannot eat the time of
+    the phases after it (the bound among them). The search's own end still stops every phase."""
+
+    def __init__(self, budget: Budget):
+        self.budget = budget
+        self.start = time.monotonic()
+        self.window = budget.left()
+
+    def stopper(self, phase: str, shares: dict, name: str) -> Callable[[], bool]:
+        names = list(shares)
+        cumulative = sum(shares[k] for k in names[:names.index(name) + 1])
+        end = self.start + cumulative * self.window
+
+        def stop() -> bool:
+            if time.monotonic() >= end:
+                self.budget.deadline.record_stop(phase)
+                return True
+            return self.budget.expired(phase)
+
+        return stop
+
+
+class _Renamed:
+    """Counts work under another name (the local search from the bound's plans: `kicks_from_bound`)."""
+
+    def __init__(self, deadline: Deadline, kind: str):
+        self.deadline, self.kind = deadline, kind
+
+    def count(self, kind: str, amount: float) -> None:
+        self.deadline.count(self.kind, amount)
+
+
+def _lagrange_phase(inst: PlanningInstance, x: np.ndarray, quick: bound.BoundResult | None, budget: Budget,
+                    shares: dict, clock: _Clock, notes: list[str], gap: float, stop: Callable[[], bool]):
+    """The Lagrangian bound from the column generation's duals (`warm`), then local search from its DP plans (repaired to the
+    counts). Returns (bound or None, the best plan, whether a plan from the bound won)."""
+    deadline = budget.deadline
+    value = _value(inst, x)
+    relaxation = formulation.LagrangianBound(inst, quick.multipliers if quick is not None else None,
+                                             quick.victim_weights if quick is not None else None,
+                                             theta=lagrange.THETA_NEAR if quick is not None and quick.window > 1
+                                             else lagrange.THETA0)
+    relaxation.hint(x)
+    out = relaxation.solve(formulation.SolveLimits(budget, budget.work(shares["lagrange"]), max(gap, OPTIMAL_GAP),
+                                                   on_bound=lambda b: clock.tell("lagrangian bound", bound=b),
+                                                   stop=stop))
+    deadline.count("dp_operations", out.work)
+    notes.extend(out.notes)
+    if out.bound is None or out.x is None or _proven(value, out.bound, gap):
+        return out.bound, x, False
+    seconds = budget.work(shares["bound_plans"])
+    y = search.iterated(inst, out.x, search.kick_budget(inst, seconds), inst.req.seed + 7, stop=budget.stopper(
+        "local search from the bound's plans"), counter=_Renamed(deadline, "kicks_from_bound"),
+        target=out.bound / (1 - max(gap, OPTIMAL_GAP)))
+    if _value(inst, y) < value:
+        clock.tell("local search from the bound's plans", objective=_value(inst, y))
+        return out.bound, y, True
+    return out.bound, x, False
 
 
 def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clock: _Clock, notes: list[str]):
@@ -260,6 +333,9 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
     wall clock at the budget's end; a phase is skipped once the plan is proven optimal.
     """
     deadline = budget.deadline
+    gap = inst.req.target_gap
+    quick = None
+    windows = _Windows(budget)
     start = search.greedy(inst)
     if start is None:
         _infeasible(inst, budget, settings)  # raises when no plan exists; otherwise CP-SAT looks for one
@@ -268,37 +344,39 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
     build_s = cpsat.BUILD_S_PER_PRODUCT * products
     small_enough = products <= settings.max_products
     use_cp_sat = small_enough and budget.work(SHARES["cp_sat"]) >= build_s + MIN_CP_SAT_WORK_S
-    shares = SHARES if use_cp_sat else SHARES_WITHOUT_CP_SAT
+    shares = _without_dp(SHARES if use_cp_sat else SHARES_WITHOUT_CP_SAT, inst, notes)
     ceilings = bool(np.isfinite(inst.ceilings).any())
     scale = model.Scale(1.0, 0.0)
     method = "greedy construction and iterated local search"
     x = None
     if start is not None:
         x = search.improve(inst, start) if inst.req.objective != "worst_system" else search.improve_worst(inst, start)
-        bounds["column_generation"] = _quick_bound(inst, x, budget)
+        quick = _quick_bound(inst, x, budget)
+        bounds["column_generation"] = quick.bound
         clock.tell("greedy start", objective=_value(inst, x), bound=bounds["column_generation"])
-        if _proven(_value(inst, x), bounds["column_generation"]) and not ceilings:
-            notes.append("the greedy start was proven optimal by the co-channel bound")
+        if _proven(_value(inst, x), bounds["column_generation"], gap) and not ceilings:
+            notes.append("the greedy start was proven " + _within(gap) + " by the co-channel bound")
             return x, bounds, "greedy construction and local search", scale, start
         local = budget.work(shares["local_search"] - (CEILING_SHARE if ceilings else 0.0))
-        proven_at = None if ceilings else max(bounds.values()) / (1 - OPTIMAL_GAP) if bounds else None
+        proven_at = None if ceilings else max(bounds.values()) / (1 - max(gap, OPTIMAL_GAP)) if bounds else None
         kicks_before, started = deadline.work_done.get("kicks", 0), time.monotonic()
-        x = search.search_plan(inst, x, local, stop=budget.stopper("local search"), counter=deadline,
+        x = search.search_plan(inst, x, local, stop=windows.stopper("local search", shares, "local_search"),
+                               counter=deadline,
                                progress=lambda k, v: clock.tell("local search", objective=v), target=proven_at)
         kicks = deadline.work_done.get("kicks", 0) - kicks_before
         budget.observe(local * kicks / max(1, search.kick_budget(inst, local)), time.monotonic() - started)
         if ceilings:
             x = _meet_ceilings(inst, x, budget.work(CEILING_SHARE), budget.stopper("local search"), deadline)
         clock.tell("local search", objective=_value(inst, x))
-        if _proven(_value(inst, x), max(bounds.values())) and not ceilings:
-            notes.append("the local-search plan was proven optimal by the co-channel bound")
+        if _proven(_value(inst, x), max(bounds.values()), gap) and not ceilings:
+            notes.append("the local-search plan was proven " + _within(gap) + " by the co-channel bound")
             return x, bounds, method, scale, start
     if use_cp_sat or x is None:
         work = max(MIN_CP_SAT_WORK_S, budget.work(shares.get("cp_sat", 0.0) if x is not None else 1.0) - build_s)
         known = max(bounds.values()) if bounds else None
         # without a start there is no plan at all yet: CP-SAT may then run up to the limit itself
         cp_budget = budget if x is not None else deadline.budget(budget.seconds, deadline.end)
-        cx, cb, status, scale = _cp_sat(inst, x, cp_budget, work, settings, clock, known)
+        cx, cb, status, scale = _cp_sat(inst, x, cp_budget, work, settings, clock, known, gap)
         if cb is not None:
             bounds["cp_sat"] = cb
         if status == "INFEASIBLE":
@@ -316,16 +394,33 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
                      "of its share of this time limit")
     if x is None:
         raise PlanInfeasible(_diagnose(inst, budget, settings)[0] or [], proven=False)
-    if not _proven(_value(inst, x), max(bounds.values())):
+    warm = quick
+    if x is not None and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
         cg = bound.lower_bound(inst, x, length=bound.window_length(inst), iterations=400,
                                seconds=budget.work(shares["column_generation"]),
-                               deadline=budget.stopper("column generation"))
+                               deadline=windows.stopper("column generation", shares, "column_generation"))
         deadline.count("pricing_operations", cg.work)
         bounds["column_generation"] = max(cg.bound, bounds.get("column_generation", 0.0))
         clock.tell("column generation", bound=cg.bound)
         notes.append(f"column generation: windows of {cg.window} channel(s), {cg.iterations} iteration(s), "
                      f"{cg.columns} columns, {'converged' if cg.converged else 'stopped at its work budget'}")
+        if cg.multipliers is not None and (quick is None or cg.bound >= quick.bound):
+            warm = cg
+    short = budget.work(shares["lagrange"]) < MIN_LAGRANGE_WORK_S
+    if shares["lagrange"] > 0 and short and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
+        notes.append("Lagrangian bound skipped: its share of this time limit is below one uninterruptible DP solve")
+    elif shares["lagrange"] > 0 and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
+        lb, x, won = _lagrange_phase(inst, x, warm, budget, shares, clock, notes, gap,
+                                     windows.stopper("lagrangian bound", shares, "lagrange"))
+        if lb is not None:
+            bounds["lagrangian"] = lb
+        if won:
+            method += ", then local search from the Lagrangian bound's plans"
     return x, bounds, method, scale, start
+
+
+def _within(gap: float) -> str:
+    return "optimal" if gap <= OPTIMAL_GAP else f"within the target gap of {100 * gap:g} %"
 
 
 def _value(inst: PlanningInstance, x: np.ndarray) -> float:

@@ -10,6 +10,9 @@ from cohop.sequences.report import DEFAULT_PACKETS
 #: planner excludes that channel for that system.
 DEFAULT_INTERFERER_THRESHOLD = 0.05
 
+#: Default relative gap at which the search stops: the plan is then proven within 1 % of the best possible.
+DEFAULT_TARGET_GAP = 0.01
+
 #: weighted_sum and worst_system: the linearised per-hop collision (priority-weighted sum, worst system), which
 #: the linear planner minimises and bounds; residual_loss: the priority-weighted residual loss after retries
 #: on the evaluated figures, and worst_margin: the largest share of a system's loss ceiling (max_residual_loss,
@@ -47,6 +50,8 @@ class PlanRequirements:
     objective: str = "weighted_sum"
     time_limit_s: float = 10.0
     seed: int = 0
+    #: The search stops once the plan is proven within this relative gap (objective - bound) / objective.
+    target_gap: float = DEFAULT_TARGET_GAP
     baselines: tuple[str, ...] = ()
     sequence_packets: int = DEFAULT_PACKETS  # simulated packets per system for the sequence-driven retry figures
     # independent coordination (`cohop.planning.independent`): the order systems go on air (ids; systems not

@@ -53,8 +53,11 @@ class Placement:
         return self.inst.allowed[v] & (self.own[v] == 0) & (self.guarded[v] == 0)
 
 
-def greedy(inst: PlanningInstance, weights: np.ndarray | None = None) -> np.ndarray | None:
-    """Hand out the least harmful open channel, one at a time, to the system needing most."""
+def greedy(inst: PlanningInstance, weights: np.ndarray | None = None,
+           prefer: np.ndarray | None = None) -> np.ndarray | None:
+    """Hand out the least harmful open channel, one at a time, to the system needing most. With `prefer` (an
+    occupancy, e.g. a relaxation's plan whose counts are off), a system takes its least harmful preferred open
+    channel while it has one: the guide's channels are kept where the counts allow and topped up greedily."""
     place = Placement(inst, np.zeros_like(inst.allowed), weights)
     for v, c in zip(*np.nonzero(inst.pinned)):
         if not place.open_channels(int(v))[c]:
@@ -66,6 +69,8 @@ def greedy(inst: PlanningInstance, weights: np.ndarray | None = None) -> np.ndar
         ok = place.open_channels(v)
         if not ok.any():
             return None
+        if prefer is not None and (ok & prefer[v]).any():
+            ok = ok & prefer[v]
         c = int(np.argmin(np.where(ok, place.table.m[v], np.inf)))
         place.add(v, c)
         need[v] -= 1
@@ -232,6 +237,24 @@ def improve_worst(inst: PlanningInstance, x: np.ndarray, rounds: int = 12) -> np
         value = objective_value(inst, system_estimates(inst, current))
         if value < best_value - 1e-15:
             best, best_value = current, value
+    return best
+
+
+def from_relaxation(inst: PlanningInstance, paths: list[np.ndarray], stop=None) -> np.ndarray | None:
+    """The best plan made from relaxed plans (occupancies whose counts are off): each repaired to the exact
+    counts by the guided greedy (`greedy(prefer=...)`), then improved by best swaps; None if none repairs.
+    `stop()` (the wall clock) is asked before each path after the first."""
+    best, best_value = None, np.inf
+    for i, path in enumerate(paths):
+        if i and stop is not None and stop():
+            break
+        x = greedy(inst, prefer=np.asarray(path, dtype=bool))
+        if x is None:
+            continue
+        x = polish(inst, x)
+        value = objective_value(inst, system_estimates(inst, x))
+        if value < best_value:
+            best, best_value = x, value
     return best
 
 

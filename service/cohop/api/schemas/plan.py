@@ -81,6 +81,10 @@ class SearchSchema(StrictSchema):
     time_limit_s = Number(limits.TIME_LIMIT_S, load_default=default(PlanRequirements, "time_limit_s"),
                           metadata={"description": "Search budget; clamped by the server's cap."})
     seed = Count(limits.SEED, load_default=default(PlanRequirements, "seed"))
+    target_gap = Number(limits.FRACTION, load_default=default(PlanRequirements, "target_gap"),
+                        metadata={"description": "The search stops as soon as its plan is proven within this relative "
+                                                 "gap of the best possible (linearised objective; default "
+                                                 f"{default(PlanRequirements, 'target_gap')})."})
     sequence_packets = Count(limits.SEQUENCE_PACKETS, load_default=default(PlanRequirements, "sequence_packets"),
                              metadata={"description": "Simulated packets per system for the sequence-driven "
                                                       "retry figures"})
@@ -120,7 +124,7 @@ class SolverReportSchema(StrictSchema):  # cohop.planning.engine.SolverReport
     bound = fields.Float(metadata={"description": "Proven lower bound on that objective"})
     gap = fields.Float(allow_none=True, metadata={"description": "(objective - bound) / objective"})
     bounds = fields.Dict(keys=fields.String(), values=fields.Float(),
-                         metadata={"description": "Bound from each method (cp_sat, column_generation)"})
+                         metadata={"description": "Bound from each method (cp_sat, column_generation, lagrangian)"})
     evaluated_objective = fields.Float(metadata={"description": "The same objective on the evaluated figures"})
     linearisation_error = fields.Float(metadata={"description": "The linearised estimate of the request's "
                                                                 "objective minus evaluated_objective (>= 0)"})
@@ -138,8 +142,10 @@ class SolverReportSchema(StrictSchema):  # cohop.planning.engine.SolverReport
                                                                     "(a busy machine): the same request and seed "
                                                                     "may then give another plan"})
     work = fields.Dict(keys=fields.String(), values=fields.Float(), metadata={
-        "description": "Work done: kicks (local search), cp_sat_deterministic_time, pricing_operations (bound), "
-                       "objective_rounds (rounds of the linear planner: residual_loss, worst_margin)"})
+        "description": "Work done: kicks (local search), kicks_from_bound (local search from the Lagrangian bound's "
+                       "plans), cp_sat_deterministic_time, pricing_operations (column generation), dp_operations "
+                       "(Lagrangian bound: DP states and transition pairs), objective_rounds (rounds of the linear "
+                       "planner: residual_loss, worst_margin)"})
     binding = fields.List(fields.String(), metadata={"description": "Requirements the plan presses against"})
     notes = fields.List(fields.String())
 

@@ -1,0 +1,571 @@
+"""The channel-count relaxation's subproblem: a dynamic programme along the channels.
+
+Relaxing every system's channel count |x_v| = N_v with a multiplier lambda_v
+(`planning.lagrange`) leaves: choose for each channel c a set t_c of systems
+(the state) among those allowed there, pins included, minimising
+
+    sum_c [ sum_{v in t_c} (w_v node[v, c] - lambda_v) + P0(t_c) + P1(t_{c-1}, t_c) ]
+
+with w the victims' weights, node[v, c] = q_v(c) / N_v, P0(t) the co-channel
+cost of the pairs inside t and P1(s, t) the offset-1 cost of the pairs across
+two consecutive channels (both directions; `pair_offset_costs`). The minimum
+over such paths is found exactly by a DP whose states are the sets.
+
+What the relaxed problem keeps and what it drops (so every bound stays valid):
+
+- kept exactly: allowed channels, pins, pair costs at offsets 0 and 1,
+  separation 2 (a system with separation >= 2 is never on two consecutive
+  channels), guards of width 0 and 1;
+- dropped: pair costs at offsets >= 2 (they are >= 0, so dropping them lowers
+  every plan's objective), separation beyond one channel, guards beyond
+  offset 1 (dropping a constraint only adds plans). `Dropped` lists them with
+  their cost weight. The least harm of a pair over all offsets is paid on
+  every pair of channel uses whatever the plan (today: pairs harmed at every
+  offset) and stays a constant (`split_harm`). The per-offset harm is read in
+  one place, `harm_table`: the instance's `offset_harm` when it has one, else
+  the 0/1 window.
+
+Exact pruning. Pair costs are >= 0, so removing system v from a state
+changes the path's cost by at most -(node - lambda_v) - (v's co-channel cost
+in the state), and removing it never breaks a kept constraint. So a state in
+which some unpinned v has lambda_v - w_v node[v, c] <= its co-channel cost
+there is never needed: some optimal path avoids it. The states left are the
+sets whose every unpinned member earns more than its co-channel cost
+(`_class_states` enumerates them depth first; the family is closed under
+removing unpinned members, so each is met once). Channels that look the same
+to every system (allowed set, pins, node costs) share one list of states.
+The transition from channel c - 1 to c uses one matrix of offset-1 costs per
+pair of channel classes (built once per solve; infinite where separation or a
+guard forbids) and scans the previous states in order of their DP value,
+stopping as soon as a value reaches the best found, since the offset-1 cost
+added is >= 0 (`_min_plus`). When that matrix would exceed DENSE_PAIRS
+entries, the compiled scan `_forward` sums the costs per pair instead. The
+work is the states enumerated, the matrix entries built and the pairs
+scanned.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from cohop.planning.instance import PlanningInstance
+from cohop.planning.jit import njit
+
+#: Offsets the DP carries: 0 (co-channel) and 1 (consecutive channels).
+KEPT_OFFSETS = 2
+#: At most this many systems: states are bit masks in 64-bit integers.
+MAX_SYSTEMS = 62
+
+
+# --- pair costs per offset ------------------------------------------------------------------------------------
+
+def harm_table(inst: PlanningInstance) -> np.ndarray:
+    """H[v, a, d] for d = 0 .. C - 1: the share of a pair of channel uses (v on c, a on c +- d) that counts as a
+    hit to v. The one place the planner's bound reads the per-offset harm: the instance's `offset_harm`
+    (S, S, W + 1) when it has one (zero beyond W), else today's 0/1 window (1 for d <= window[v, a])."""
+    s, c = inst.n_systems, inst.n_channels
+    given = getattr(inst, "offset_harm", None)
+    if given is not None:
+        given = np.asarray(given, dtype=float)
+        out = np.zeros((s, s, c))
+        top = min(c, given.shape[2])
+        out[:, :, :top] = given[:, :, :top]
+    else:
+        out = (inst.window[:, :, None] >= np.arange(c)[None, None, :]).astype(float)
+    idx = np.arange(s)
+    out[idx, idx, :] = 0.0
+    return out
+
+
+def split_harm(inst: PlanningInstance) -> tuple[np.ndarray, np.ndarray]:
+    """(constant share, varying harm): every pair of channel uses of v and a lies at some offset 0 .. C - 1, so
+    the least harm over those offsets, K[v, a], is paid on all N_v N_a pairs whatever the plan (today: the
+    pairs harmed at every offset); the rest, H - K >= 0 per offset, is what channels change."""
+    h = harm_table(inst)
+    floor = h.min(axis=2)
+    return floor, h - floor[:, :, None]
+
+
+def widest_offset(inst: PlanningInstance) -> int:
+    """The largest offset at which some pair's cost still depends on the channels (-1: none)."""
+    varying = split_harm(inst)[1].max(axis=(0, 1))
+    hit = np.flatnonzero(varying > 0)
+    return int(hit[-1]) if hit.size else -1
+
+
+def pair_offset_costs(inst: PlanningInstance, max_offset: int | None = None) -> np.ndarray:
+    """U[d, v, a]: cost to victim v (unweighted) of one pair (v on c, a on c +- d), d = 0 .. max_offset, less
+    the constant share (`constant_per_victim`)."""
+    top = widest_offset(inst) if max_offset is None else max_offset
+    coef = inst.pair_coef()
+    varying = split_harm(inst)[1]
+    out = np.zeros((max(top, 0) + 1, *coef.shape))
+    for d in range(min(out.shape[0], varying.shape[2])):
+        out[d] = coef * varying[:, :, d]
+    return out
+
+
+def constant_per_victim(inst: PlanningInstance) -> np.ndarray:
+    """Each victim's cost from the constant share of its pairs: N_v N_a pairs whatever the plan."""
+    n = inst.sizes.astype(float)
+    return (inst.pair_coef() * split_harm(inst)[0] * n[:, None] * n[None, :]).sum(axis=1)
+
+
+def symmetric(u: np.ndarray, weights: np.ndarray) -> np.ndarray:
+    """P[v, a] = w_v U[v, a] + w_a U[a, v]: the weighted cost of one pair of channel uses of v and a."""
+    wu = weights[:, None] * u
+    return wu + wu.T
+
+
+# --- what the relaxation drops -----------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Dropped:
+    """What the relaxed problem leaves out; every bound built on it stays valid (see the module's text)."""
+
+    offsets_from: int  # pair costs at offsets >= this are dropped
+    #: (victim, source, offset, cost to the victim per pair of channel uses, unweighted)
+    pairs: tuple[tuple[int, int, int, float], ...]
+    #: the weighted cost of one pair of channel uses, summed over the dropped (victim, source, offset)
+    total_weight: float
+    separations: tuple[tuple[int, int], ...]  # (system, separation) enforced only between consecutive channels
+    guards: tuple[tuple[int, int, int], ...]  # (v, a, width) enforced only up to offset 1
+    #: weighted cost of the dropped pairs on the plans returned with the bound (filled by `planning.lagrange`)
+    on_best_plan: float | None = None
+
+    def describe(self, ids: list[str]) -> str:
+        parts = []
+        if self.pairs:
+            parts.append(f"{len(self.pairs)} pair cost(s) at offsets >= {self.offsets_from} (weight "
+                         f"{self.total_weight:.3g} per pair of channel uses"
+                         + (f", {self.on_best_plan:.3g} of the best plan's objective" if self.on_best_plan is not None
+                            else "") + ")")
+        if self.separations:
+            parts.append("separation beyond one channel for " + ", ".join(ids[v] for v, _ in self.separations))
+        if self.guards:
+            parts.append("guards beyond offset 1 for " + ", ".join(f"{ids[v]}/{ids[a]}" for v, a, _ in self.guards))
+        return "; ".join(parts) if parts else "nothing"
+
+
+def dropped_terms(inst: PlanningInstance, from_offset: int = KEPT_OFFSETS,
+                  weights: np.ndarray | None = None) -> Dropped:
+    u = pair_offset_costs(inst)
+    w = inst.weights if weights is None else weights
+    pairs = []
+    total = 0.0
+    for d in range(from_offset, u.shape[0]):
+        for v, a in zip(*np.nonzero(u[d])):
+            pairs.append((int(v), int(a), d, float(u[d, v, a])))
+            total += float(w[v] * u[d, v, a])
+    seps = tuple((int(v), int(s)) for v, s in enumerate(inst.separation) if s > from_offset)
+    guards = tuple((int(v), int(a), int(g)) for v, a, g in inst.guards if g >= from_offset)
+    return Dropped(from_offset, tuple(pairs), total, seps, guards)
+
+
+# --- the relaxed problem ----------------------------------------------------------------------------------
+
+def _masks(rows: np.ndarray) -> np.ndarray:
+    """Bit masks of the columns of a boolean (systems, n) array: one int64 per column."""
+    bits = (np.int64(1) << np.arange(rows.shape[0], dtype=np.int64))[:, None]
+    return (rows.astype(np.int64) * bits).sum(axis=0).astype(np.int64)
+
+
+@dataclass
+class Relaxation:
+    """The relaxed problem of an instance, built once; each DP solve only re-weights it."""
+
+    inst: PlanningInstance
+    node: np.ndarray  # (S, C) q_v(c) / N_v, unweighted
+    u: np.ndarray  # (2, S, S) unweighted per-victim cost at offsets 0 and 1
+    constant: np.ndarray  # (S,) per-victim constant (pairs harmed at every offset)
+    channel_class: np.ndarray  # (C,) class of each channel
+    class_allowed: np.ndarray  # (K,) int64 masks of systems allowed (or pinned) on the class's channels
+    class_pinned: np.ndarray  # (K,) int64 masks of pinned systems
+    class_node: np.ndarray  # (K, S)
+    sep_mask: int  # systems that may not hold two consecutive channels
+    g0: np.ndarray  # (S,) int64: systems that may not share a channel with v (guards)
+    g1: np.ndarray  # (S,) int64: systems that may not sit on a channel next to v's (guards of width >= 1)
+    dropped: Dropped
+    feasible: bool = True  # False when the kept constraints alone leave no plan (pins that clash)
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def n_systems(self) -> int:
+        return self.node.shape[0]
+
+    @property
+    def n_channels(self) -> int:
+        return self.node.shape[1]
+
+    def weighted(self, weights: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(P0, P1): symmetric weighted pair costs at offsets 0 and 1."""
+        return symmetric(self.u[0], weights), symmetric(self.u[1], weights)
+
+    def per_victim(self, x: np.ndarray) -> np.ndarray:
+        """Each victim's relaxed cost on an occupancy x (any counts): node, offsets 0 and 1, constant."""
+        xf = x.astype(float)
+        co = xf @ xf.T
+        adj = xf[:, :-1] @ xf[:, 1:].T
+        adj = adj + adj.T
+        np.fill_diagonal(co, 0.0)
+        return (self.node * xf).sum(axis=1) + (self.u[0] * co).sum(axis=1) + (self.u[1] * adj).sum(axis=1) \
+            + self.constant
+
+
+def relax(inst: PlanningInstance) -> Relaxation:
+    s, c = inst.n_systems, inst.n_channels
+    if s > MAX_SYSTEMS:
+        raise ValueError(f"the channel DP takes at most {MAX_SYSTEMS} systems")
+    u = pair_offset_costs(inst, KEPT_OFFSETS - 1)
+    pool = inst.allowed | inst.pinned
+    node = np.where(pool, inst.node_coef(), 0.0)
+    keys: dict[tuple, int] = {}
+    channel_class = np.empty(c, dtype=np.int64)
+    for k in range(c):
+        key = (pool[:, k].tobytes(), inst.pinned[:, k].tobytes(), np.round(node[:, k], 15).tobytes())
+        channel_class[k] = keys.setdefault(key, len(keys))
+    first = np.array([int(np.flatnonzero(channel_class == k)[0]) for k in range(len(keys))], dtype=int)
+    g0 = np.zeros(s, dtype=np.int64)
+    g1 = np.zeros(s, dtype=np.int64)
+    for v, a, w in inst.guards:
+        if w >= 0:
+            g0[v] |= np.int64(1) << a
+            g0[a] |= np.int64(1) << v
+        if w >= 1:
+            g1[v] |= np.int64(1) << a
+            g1[a] |= np.int64(1) << v
+    sep_mask = int(_masks((inst.separation >= 2)[:, None])[0])
+    out = Relaxation(inst=inst, node=node, u=u, constant=constant_per_victim(inst), channel_class=channel_class,
+                     class_allowed=_masks(pool[:, first]), class_pinned=_masks(inst.pinned[:, first]),
+                     class_node=node[:, first].T.copy(), sep_mask=sep_mask, g0=g0, g1=g1,
+                     dropped=dropped_terms(inst))
+    for k in range(len(keys)):
+        pins = inst.pinned[:, first[k]]
+        if any(g0[v] & out.class_pinned[k] for v in np.flatnonzero(pins)):
+            out.feasible = False
+            out.notes.append("pins on one channel clash with a guard")
+    return out
+
+
+# --- the compiled kernels -----------------------------------------------------------------------------------
+
+@njit(cache=True)
+def _class_states(cand, pins, margin, p0, g0, cap, out_mask, out_cost):
+    """Sets of systems on one class of channels that pass the pruning: every pin, and unpinned members
+    (from `cand`) each earning more (margin = lambda - weighted node cost) than its co-channel cost.
+    Writes masks and costs (sum of -margin plus co-channel costs); returns the count, or -1 above `cap`."""
+    n_sys = margin.size
+    depth_max = cand.size + 1
+    loads = np.zeros((depth_max, n_sys))
+    masks = np.zeros(depth_max, np.int64)
+    costs = np.zeros(depth_max)
+    nxt = np.zeros(depth_max, np.int64)
+    added = np.zeros(depth_max, np.int64)
+    base = np.int64(0)
+    for i in range(pins.size):
+        v = pins[i]
+        costs[0] += loads[0, v] - margin[v]
+        for a in range(n_sys):
+            loads[0, a] += p0[v, a]
+        base |= np.int64(1) << v
+    masks[0] = base
+    count = 0
+    if count >= cap:
+        return -1
+    out_mask[0] = base
+    out_cost[0] = costs[0]
+    count = 1
+    depth = 0
+    nxt[0] = 0
+    while depth >= 0:
+        i = nxt[depth]
+        if i >= cand.size:
+            depth -= 1
+            continue
+        nxt[depth] = i + 1
+        a = cand[i]
+        m = masks[depth]
+        if (g0[a] & m) != 0 or loads[depth, a] >= margin[a]:
+            continue
+        ok = True
+        for k in range(1, depth + 1):
+            u = added[k]
+            if loads[depth, u] + p0[u, a] >= margin[u]:
+                ok = False
+                break
+        if not ok:
+            continue
+        d2 = depth + 1
+        masks[d2] = m | (np.int64(1) << a)
+        costs[d2] = costs[depth] + loads[depth, a] - margin[a]
+        for b in range(n_sys):
+            loads[d2, b] = loads[depth, b] + p0[a, b]
+        added[d2] = a
+        nxt[d2] = i + 1
+        if count >= cap:
+            return -1
+        out_mask[count] = masks[d2]
+        out_cost[count] = costs[d2]
+        count += 1
+        depth = d2
+    return count
+
+
+@njit(cache=True)
+def _forward(channel_class, lo, hi, mask, cost, reach, g1, members, n_members, sep_mask, offsets, pred):
+    """The DP along the channels over the states of each channel's class (`lo[k]:hi[k]` of the state arrays).
+
+    reach[s, a]: offset-1 cost between state s's systems and system a on the next channel. Returns (value,
+    path of global state indices, scanned pairs); value is inf when no path exists."""
+    n_ch = channel_class.size
+    widest = 0
+    for k in range(lo.size):
+        widest = max(widest, hi[k] - lo[k])
+    prev = np.empty(max(widest, 1))
+    cur = np.empty(max(widest, 1))
+    k = channel_class[0]
+    for j in range(hi[k] - lo[k]):
+        prev[j] = cost[lo[k] + j]
+    work = 0
+    for c in range(1, n_ch):
+        kp = channel_class[c - 1]
+        k = channel_class[c]
+        n_prev = hi[kp] - lo[kp]
+        n_cur = hi[k] - lo[k]
+        order = np.argsort(prev[:n_prev])
+        for j in range(n_cur):
+            t = lo[k] + j
+            mt = mask[t]
+            best = np.inf
+            arg = -1
+            for r in range(n_prev):
+                i = order[r]
+                vi = prev[i]
+                if vi >= best:
+                    break
+                work += 1
+                s = lo[kp] + i
+                if (mask[s] & mt & sep_mask) != 0 or (g1[s] & mt) != 0:
+                    continue
+                val = vi
+                for q in range(n_members[t]):
+                    val += reach[s, members[t, q]]
+                if val < best:
+                    best = val
+                    arg = i
+            cur[j] = cost[t] + best
+            pred[offsets[c] + j] = arg
+        for j in range(n_cur):
+            prev[j] = cur[j]
+    k = channel_class[n_ch - 1]
+    n_last = hi[k] - lo[k]
+    path = np.full(n_ch, -1, np.int64)
+    if n_last == 0:
+        return np.inf, path, work
+    best_j = 0
+    for j in range(1, n_last):
+        if prev[j] < prev[best_j]:
+            best_j = j
+    value = prev[best_j]
+    if not np.isfinite(value):
+        return np.inf, path, work
+    j = best_j
+    for c in range(n_ch - 1, -1, -1):
+        path[c] = lo[channel_class[c]] + j
+        if c > 0:
+            j = pred[offsets[c] + j]
+    return value, path, work
+
+
+@njit(cache=True)
+def _min_plus(prev, t, cost, out, arg):
+    """out[j] = cost[j] + min_i (prev[i] + t[j, i]), arg[j] the i reaching it (-1: none finite); returns the
+    pairs evaluated. The previous states are scanned by increasing value and the scan stops as soon as one
+    starts at or above the best found (transition costs are >= 0)."""
+    order = np.argsort(prev)
+    work = 0
+    for j in range(t.shape[0]):
+        best = np.inf
+        at = -1
+        for r in range(order.size):
+            i = order[r]
+            if prev[i] >= best:  # every later one starts no lower, and t >= 0
+                break
+            work += 1
+            val = prev[i] + t[j, i]
+            if val < best:
+                best = val
+                at = i
+        out[j] = cost[j] + best
+        arg[j] = at
+    return work
+
+
+def _forward_dense(rel: "Relaxation", lo, hi, mask, cost, member, p1, g1):
+    """The same DP as `_forward` with the transition costs of each pair of consecutive channel classes as one
+    matrix (states of the class before x states of the class after: offset-1 costs, inf where separation or a
+    guard forbids the pair), built once per pair of classes; each channel is then one min-plus product.
+    Returns (value, path of global state indices, pairs evaluated)."""
+    classes = rel.channel_class
+    sep = np.int64(rel.sep_mask)
+    cache: dict[tuple[int, int], np.ndarray] = {}
+    work = 0
+
+    def transition(kp: int, k: int) -> np.ndarray:
+        nonlocal work
+        key = (kp, k)
+        if key not in cache:
+            a, b = slice(lo[kp], hi[kp]), slice(lo[k], hi[k])
+            t = member[b].astype(float) @ p1.T @ member[a].astype(float).T  # [next, previous]
+            if sep != 0:
+                t[(mask[b][:, None] & (mask[a][None, :] & sep)) != 0] = np.inf
+            if g1[a].any():
+                t[(mask[b][:, None] & g1[a][None, :]) != 0] = np.inf
+            cache[key] = np.ascontiguousarray(t)
+            work += t.size
+        return cache[key]
+
+    n_ch = classes.size
+    k0 = classes[0]
+    value = cost[lo[k0]:hi[k0]].copy()
+    pred = []
+    for c in range(1, n_ch):
+        kp, k = classes[c - 1], classes[c]
+        t = transition(kp, k)
+        nxt = np.empty(t.shape[0])
+        arg = np.empty(t.shape[0], np.int64)
+        work += _min_plus(value, t, cost[lo[k]:hi[k]], nxt, arg)
+        value = nxt
+        pred.append(arg)
+    path = np.full(n_ch, -1, np.int64)
+    j = int(np.argmin(value))
+    if not np.isfinite(value[j]):
+        return np.inf, path, work
+    best = float(value[j])
+    for c in range(n_ch - 1, -1, -1):
+        path[c] = lo[classes[c]] + j
+        if c > 0:
+            j = int(pred[c - 1][j])
+    return best, path, work
+
+
+#: Above this many (previous state, next state) pairs in a class transition, the compiled scan (`_forward`)
+#: replaces the dense min-plus products.
+DENSE_PAIRS = 16_000_000
+
+
+# --- one solve -----------------------------------------------------------------------------------------------
+
+@dataclass
+class PathSolution:
+    """The relaxed problem's optimum for one set of multipliers and weights."""
+
+    value: float  # min over paths of sum (weighted cost - lambda . counts), without the constant
+    x: np.ndarray | None  # (S, C) bool: the optimal path's sets (None when no path exists)
+    work: int  # states enumerated plus pairs scanned
+    states: int  # states over all classes
+    pairs_scanned: int
+    complete: bool = True  # False when a class had more states than the cap (then `value` is not computed)
+    over_budget: bool = False  # the transitions' estimated work exceeded the solve's `max_work` (not computed)
+
+
+def transition_estimate(rel: Relaxation, class_sizes: np.ndarray) -> float:
+    """Work of the transitions, estimated before they run. Dense transitions: the matrix entries of each pair of
+    consecutive classes, plus DENSE_SCAN_SHARE of the (previous, next) state pairs over every channel; the
+    compiled scan: SCAN_SHARE of those pairs (the scans by increasing value stop early; the shares are rounded
+    up from what they scanned on the medium bench site, 1.2 % of 11 billion pairs at 24 687 states)."""
+    sizes = class_sizes[rel.channel_class].astype(float)
+    pairs = float(sizes[:-1] @ sizes[1:])
+    if float(class_sizes.max(initial=0)) ** 2 > DENSE_PAIRS:
+        return SCAN_SHARE * pairs
+    kinds = sorted({(int(a), int(b)) for a, b in zip(rel.channel_class[:-1], rel.channel_class[1:])})
+    return sum(float(class_sizes[a]) * float(class_sizes[b]) for a, b in kinds) + DENSE_SCAN_SHARE * pairs
+
+
+#: Shares of the (previous, next) state pairs the scans evaluate (`transition_estimate`).
+DENSE_SCAN_SHARE = 0.25
+SCAN_SHARE = 0.02
+#: Most states one class of channels may have; above it the solve gives up (the caller then keeps its bound).
+STATE_CAP = 200_000
+
+
+def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STATE_CAP,
+          max_work: float = np.inf) -> PathSolution:
+    """The DP's optimum for multipliers `lam` (per channel use) and victim weights `weights`.
+
+    Once the states are enumerated, the transitions' work is estimated (`transition_estimate`); above
+    `max_work` the solve gives up before them (`complete` False, `over_budget` True), since it cannot be
+    interrupted once started."""
+    s = rel.n_systems
+    if not rel.feasible:
+        return PathSolution(np.inf, None, 0, 0, 0)
+    p0, p1 = rel.weighted(weights)
+    n_classes = rel.class_allowed.size
+    masks, costs, lo, hi = [], [], np.zeros(n_classes, np.int64), np.zeros(n_classes, np.int64)
+    total = 0
+    bits = np.int64(1) << np.arange(s, dtype=np.int64)
+    for k in range(n_classes):
+        margin = lam - weights * rel.class_node[k]
+        allowed = (rel.class_allowed[k] & bits) != 0
+        pinned = (rel.class_pinned[k] & bits) != 0
+        cand = np.flatnonzero(allowed & ~pinned & (margin > 0)).astype(np.int64)
+        pins = np.flatnonzero(pinned).astype(np.int64)
+        size = 1024
+        while True:
+            out_mask = np.empty(size, np.int64)
+            out_cost = np.empty(size)
+            n = _class_states(cand, pins, margin, p0, rel.g0, size, out_mask, out_cost)
+            if n >= 0 or size >= cap:
+                break
+            size = min(cap, 8 * size)
+        if n < 0:
+            return PathSolution(-np.inf, None, total, total, 0, complete=False)
+        lo[k] = total
+        total += n
+        hi[k] = total
+        masks.append(out_mask[:n])
+        costs.append(out_cost[:n])
+    estimate = total + transition_estimate(rel, hi - lo)
+    if estimate > max_work:
+        return PathSolution(-np.inf, None, total, total, 0, complete=False, over_budget=True)
+    mask = np.concatenate(masks)
+    cost = np.concatenate(costs)
+    member = ((mask[:, None] & bits[None, :]) != 0)
+    reach = member.astype(float) @ p1
+    g1 = np.bitwise_or.reduce(np.where(member, rel.g1[None, :], 0), axis=1) if s else np.zeros(mask.size, np.int64)
+    n_members = member.sum(axis=1).astype(np.int64)
+    members = np.zeros((mask.size, max(1, int(n_members.max(initial=0)))), np.int64)
+    rows, cols = np.nonzero(member)
+    rank = np.arange(rows.size) - np.searchsorted(rows, rows)
+    members[rows, rank] = cols
+    widest = int((hi - lo).max(initial=0))
+    if widest * widest <= DENSE_PAIRS:
+        value, path, scanned = _forward_dense(rel, lo, hi, mask, cost, member, p1, g1.astype(np.int64))
+    else:
+        sizes = (hi - lo)[rel.channel_class]
+        offsets = np.concatenate([[0], np.cumsum(sizes)[:-1]]).astype(np.int64)
+        pred = np.empty(int(sizes.sum()), np.int64)
+        value, path, scanned = _forward(rel.channel_class, lo, hi, mask, cost, reach, g1.astype(np.int64), members,
+                                        n_members, np.int64(rel.sep_mask), offsets, pred)
+    if not np.isfinite(value):
+        return PathSolution(np.inf, None, total + int(scanned), total, int(scanned))
+    x = member[path].T.copy()
+    return PathSolution(float(value), x, total + int(scanned), total, int(scanned))
+
+
+def warm_kernels() -> None:
+    """Compile (or load from the cache) the kernels on a two-system, three-channel problem."""
+    p = np.zeros((2, 2))
+    out_mask = np.empty(8, np.int64)
+    out_cost = np.empty(8)
+    n = _class_states(np.array([0, 1], np.int64), np.zeros(0, np.int64), np.ones(2), p, np.zeros(2, np.int64), 8,
+                      out_mask, out_cost)
+    classes = np.zeros(3, np.int64)
+    lo, hi = np.array([0], np.int64), np.array([n], np.int64)
+    members = np.zeros((n, 2), np.int64)
+    _forward(classes, lo, hi, out_mask[:n], out_cost[:n], np.zeros((n, 2)), np.zeros(n, np.int64), members,
+             np.zeros(n, np.int64), np.int64(0), np.array([0, n, 2 * n], np.int64), np.empty(3 * n, np.int64))
+    cost = np.zeros(2 * n)
+    _min_plus(np.zeros(n), np.ascontiguousarray(np.zeros((n, n))), cost[n:2 * n], np.empty(n), np.empty(n, np.int64))

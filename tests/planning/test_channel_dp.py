@@ -1,0 +1,150 @@
+"""The channel DP (`planning.channel_dp`) against full enumeration of its relaxed problem on small instances.
+
+The relaxed objective is re-implemented here from its definition (the instance's pair coefficients and
+windows, the DP module's text): for every channel c a set t_c of systems, cost
+    sum_c sum_{v in t_c} (w_v q_v(c) / N_v - lambda_v)
+  + sum over ordered pairs (v, a), v != a, at offset d in {0, 1} within v's window: w_v beta_va / (N_v N_a),
+and the kept constraints (allowed channels or pins, pins held, separation 2 between consecutive channels,
+guards of width 0 and 1). Every path over the channels is enumerated (common practice: exhaustive search as
+the reference for a dynamic programme).
+"""
+
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+import pytest
+
+from cohop.planning import channel_dp
+from cohop.planning.linear import occupancy, system_estimates
+from tests.planning import helpers
+
+
+def _instance(loss=30.0, sizes=(2, 2, 2), n_channels=5, seed=0, **req):
+    body = helpers.tiny_site(len(sizes), n_channels, losses={(0, 1): loss, (1, 2): loss + 10, (0, 2): loss - 5})
+    inst = helpers.instance(body, sizes, **req)
+    rng = np.random.default_rng(seed)
+    inst.interferer_cost = rng.uniform(0.0, 0.2, inst.interferer_cost.shape)
+    return inst
+
+
+def _relaxed_cost(inst, sets, lam, w) -> float | None:
+    """Cost of one path (a tuple of sets of systems, one per channel), None where a kept constraint fails."""
+    s, c = inst.n_systems, inst.n_channels
+    coef = inst.pair_coef()
+    full = inst.window >= c - 1
+    total = 0.0
+    for k, t in enumerate(sets):
+        for v in range(s):
+            if inst.pinned[v, k] and v not in t:
+                return None
+        for v in t:
+            if not (inst.allowed[v, k] or inst.pinned[v, k]):
+                return None
+            total += w[v] * inst.interferer_cost[v, k] / inst.sizes[v] - lam[v]
+        for v, a in itertools.permutations(t, 2):
+            if inst.window[v, a] >= 0 and not full[v, a]:
+                total += w[v] * coef[v, a]
+        for v, a, g in inst.guards:
+            if v in t and a in t:
+                return None
+        if k == 0:
+            continue
+        prev = sets[k - 1]
+        for v in prev:
+            if v in t and inst.separation[v] >= 2:
+                return None
+        for v, a, g in inst.guards:
+            if g >= 1 and ((v in prev and a in t) or (a in prev and v in t)):
+                return None
+        for v in prev:
+            for a in t:
+                if v == a:
+                    continue
+                if inst.window[v, a] >= 1 and not full[v, a]:
+                    total += w[v] * coef[v, a]
+                if inst.window[a, v] >= 1 and not full[a, v]:
+                    total += w[a] * coef[a, v]
+    return total
+
+
+def _enumerate(inst, lams, w) -> np.ndarray:
+    """The least relaxed cost over every path, for each row of multipliers `lams` (cost is linear in them)."""
+    s = inst.n_systems
+    subsets = [frozenset(t) for r in range(s + 1) for t in itertools.combinations(range(s), r)]
+    zero = np.zeros(s)
+    base, counts = [], []
+    for sets in itertools.product(subsets, repeat=inst.n_channels):
+        cost = _relaxed_cost(inst, sets, zero, w)
+        if cost is not None:
+            base.append(cost)
+            counts.append([sum(v in t for t in sets) for v in range(s)])
+    return (np.array(base)[None, :] - np.asarray(lams) @ np.array(counts, float).T).min(axis=1)
+
+
+def _check(inst, lams, w) -> None:
+    rel = channel_dp.relax(inst)
+    expected = _enumerate(inst, lams, w)
+    for lam, value in zip(lams, expected):
+        sol = channel_dp.solve(rel, lam, w)
+        assert sol.value == pytest.approx(value, abs=1e-12)
+        sets = [frozenset(np.flatnonzero(sol.x[:, k]).tolist()) for k in range(inst.n_channels)]
+        assert _relaxed_cost(inst, sets, lam, w) == pytest.approx(sol.value, abs=1e-12)  # the path is as claimed
+
+
+@pytest.mark.parametrize("loss", [30.0, 40.0, 50.0, 60.0, 20.0])
+def test_dp_matches_enumeration_on_random_multipliers(loss):
+    inst = _instance(loss=loss, seed=int(loss))
+    rng = np.random.default_rng(int(loss))
+    _check(inst, rng.uniform(-0.05, 0.4, (6, inst.n_systems)), inst.weights.astype(float))
+
+
+def test_dp_keeps_pins_exclusions_separation_and_guards():
+    inst = _instance(loss=40.0, seed=3, r0={"pinned_channels": (1,)}, r2={"excluded_channels": (0, 4)})
+    inst.separation = np.array([1, 2, 2])
+    inst.guards = [(0, 2, 1)]
+    rng = np.random.default_rng(5)
+    _check(inst, rng.uniform(0.0, 0.5, (6, 3)), np.array([1.0, 2.0, 0.5]))
+
+
+def test_dense_and_compiled_scans_agree(monkeypatch):
+    inst = _instance(loss=40.0, sizes=(3, 2, 3), n_channels=8, seed=7)
+    rel = channel_dp.relax(inst)
+    lam = np.array([0.3, 0.2, 0.35])
+    dense = channel_dp.solve(rel, lam, inst.weights.astype(float))
+    monkeypatch.setattr(channel_dp, "DENSE_PAIRS", -1)
+    scan = channel_dp.solve(rel, lam, inst.weights.astype(float))
+    assert scan.value == pytest.approx(dense.value, abs=1e-12)
+
+
+def test_relaxed_cost_is_the_objective_when_nothing_is_dropped():
+    """With windows of at most one channel the relaxation drops nothing: on a plan with the right counts its
+    per-victim cost is the linearised estimate (`planning.linear`)."""
+    inst = _instance(loss=40.0, sizes=(2, 2, 2), n_channels=6)
+    rel = channel_dp.relax(inst)
+    assert not rel.dropped.pairs
+    x = occupancy([[0, 3], [1, 3], [2, 5]], 3, 6)
+    np.testing.assert_allclose(rel.per_victim(x), system_estimates(inst, x), rtol=1e-12)
+
+
+def test_wider_windows_are_dropped_and_listed():
+    inst = _instance(loss=30.0)
+    dropped = channel_dp.relax(inst).dropped
+    assert {(v, a, d) for v, a, d, _ in dropped.pairs} == {(0, 2, 2), (2, 0, 2)}
+    assert "offsets >= 2" in dropped.describe(inst.ids)
+
+
+def test_given_offset_harm_replaces_the_window():
+    """The kernel's per-offset harm, when the instance has it, is what the DP costs: the 0/1 window given as
+    offset_harm changes nothing; halving the harm at offset 1 halves those pair costs."""
+    inst = _instance(loss=40.0)
+    lam = np.array([0.3, 0.25, 0.3])
+    w = inst.weights.astype(float)
+    base = channel_dp.solve(channel_dp.relax(inst), lam, w).value
+    harm = (inst.window[:, :, None] >= np.arange(2)[None, None, :]).astype(float)
+    inst.offset_harm = harm
+    assert channel_dp.solve(channel_dp.relax(inst), lam, w).value == pytest.approx(base, abs=1e-14)
+    assert channel_dp.pair_offset_costs(inst)[1] == pytest.approx(inst.pair_coef() * harm[:, :, 1])
+    inst.offset_harm = harm * np.array([1.0, 0.5])
+    assert channel_dp.pair_offset_costs(inst)[1] == pytest.approx(0.5 * inst.pair_coef() * harm[:, :, 1])

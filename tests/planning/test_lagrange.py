@@ -1,0 +1,76 @@
+"""The Lagrangian bound (`planning.lagrange`): never above an optimum found by brute force (tiny sites) or above
+the best plan found (random sites, hypothesis); weak duality is the whole argument (common practice: any
+Lagrangian value bounds the primal minimum, e.g. Wolsey, Integer Programming, 2nd ed., ch. 10)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings, strategies as st
+
+from cohop.planning import bound, lagrange, search
+from cohop.planning.linear import objective_value, system_estimates
+from tests.planning import helpers
+
+
+def _inst(loss, sizes, n_channels, objective="weighted_sum", **req):
+    body = helpers.tiny_site(len(sizes), n_channels, losses={(0, 1): loss, (1, 2): loss + 10, (0, 2): loss - 5})
+    return helpers.instance(body, sizes, objective=objective, **req)
+
+
+CASES = [(30.0, (2, 2, 2), 5), (40.0, (2, 3, 2), 5), (50.0, (3, 2, 2), 5), (60.0, (2, 2, 1), 6), (40.0, (1, 2, 2), 5)]
+
+
+@pytest.mark.parametrize("loss, sizes, n_channels", CASES)
+def test_bound_below_brute_force_optimum(loss, sizes, n_channels):
+    inst = _inst(loss, sizes, n_channels)
+    optimum, _ = helpers.brute_force(inst)
+    rng = np.random.default_rng(int(loss))
+    for lam in [np.zeros(3), rng.uniform(0.0, 0.3, 3), rng.uniform(-0.1, 0.6, 3)]:  # any multipliers bound
+        assert lagrange.lagrangian_bound(inst, optimum, lam, max_iterations=1).bound <= optimum + 1e-12
+    first = lagrange.lagrangian_bound(inst, optimum, max_iterations=1)
+    result = lagrange.lagrangian_bound(inst, optimum, max_iterations=200)
+    assert result.solved and result.iterations > 1
+    assert first.bound <= result.bound <= optimum + 1e-12  # the best value met is kept
+
+
+@pytest.mark.parametrize("loss, sizes, n_channels", CASES[:3])
+def test_worst_system_bound_below_brute_force_optimum(loss, sizes, n_channels):
+    inst = _inst(loss, sizes, n_channels, objective="worst_system")
+    optimum, _ = helpers.brute_force(inst)
+    for mu in (None, np.array([0.2, 0.5, 0.3])):
+        result = lagrange.lagrangian_bound(inst, optimum, dual_weights=mu, max_iterations=100)
+        assert result.bound <= optimum + 1e-12
+
+
+def test_warm_start_is_at_least_the_co_channel_bound():
+    """The DP relaxes less than the one-channel pattern LP (it keeps offset 1), so at the LP's converged duals
+    its value is at least the LP's bound."""
+    inst = _inst(40.0, (2, 3, 2), 7)
+    x = search.improve(inst, search.greedy(inst))
+    cg = bound.lower_bound(inst, x, length=1, iterations=200)
+    assert cg.converged
+    at_duals = lagrange.lagrangian_bound(inst, 1.0, cg.multipliers, max_iterations=1)
+    assert at_duals.bound >= cg.bound - 1e-12
+
+
+def test_stops_at_the_target():
+    inst = _inst(40.0, (2, 3, 2), 7)
+    upper = objective_value(inst, system_estimates(inst, search.improve(inst, search.greedy(inst))))
+    full = lagrange.lagrangian_bound(inst, upper, max_iterations=300)
+    early = lagrange.lagrangian_bound(inst, upper, max_iterations=300, target=0.5 * full.bound)
+    assert early.bound >= 0.5 * full.bound and early.iterations < full.iterations and early.work < full.work
+
+
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(losses=st.lists(st.floats(25.0, 70.0), min_size=3, max_size=3), n=st.integers(3, 4),
+       per=st.integers(1, 3), seed=st.integers(0, 10_000))
+def test_bound_below_best_plan_on_random_sites(losses, n, per, seed):
+    body = helpers.tiny_site(n, 12, losses={(0, 1): losses[0], (1, 2): losses[1], (0, 2): losses[2]})
+    inst = helpers.instance(body, (per,) * n, seed=seed)
+    rng = np.random.default_rng(seed)
+    inst.interferer_cost = rng.uniform(0.0, 0.1, inst.interferer_cost.shape)
+    x = search.iterated(inst, search.greedy(inst), 30, seed)
+    best = objective_value(inst, system_estimates(inst, x))
+    result = lagrange.lagrangian_bound(inst, best, max_iterations=60)
+    assert result.bound <= best + 1e-12
