@@ -20,6 +20,7 @@ diagnosis and the slot-aligned sequence construction all solve through
 
 from __future__ import annotations
 
+import threading
 from dataclasses import dataclass
 from typing import Callable
 
@@ -54,16 +55,41 @@ class Outcome:
 
 
 class _Watcher(cp_model.CpSolverSolutionCallback):
-    def __init__(self, on_solution: Callable[[float], None] | None, stop_at: float | None):
+    """Reports each solution; one at or below `stop_at` asks the solver to stop.
+
+    The stop is asked from a thread of our own, never from inside the callback: with `interleave_search`,
+    `stop_search()` called in the callback aborts the whole process in OR-Tools 9.15 ("Check failed:
+    solution->size() == postsolve_mapping.size()", reproduced on a plan model; tests/planning/
+    test_cpsat_stop.py), while the same stop from another thread returns the solution."""
+
+    def __init__(self, solver: cp_model.CpSolver, on_solution: Callable[[float], None] | None,
+                 stop_at: float | None):
         super().__init__()
         self.on_solution, self.stop_at = on_solution, stop_at
+        self._reached = threading.Event()
+        self._done = threading.Event()
+        self._stopper = None
+        if stop_at is not None:
+            self._stopper = threading.Thread(target=self._stop_when_reached, args=(solver,), daemon=True)
+            self._stopper.start()
+
+    def _stop_when_reached(self, solver: cp_model.CpSolver) -> None:
+        while not self._done.is_set():
+            if self._reached.wait(0.05):
+                solver.stop_search()
+                return
+
+    def finish(self) -> None:
+        self._done.set()
+        if self._stopper is not None:
+            self._stopper.join()
 
     def on_solution_callback(self) -> None:
         value = self.objective_value
         if self.on_solution is not None:
             self.on_solution(value)
         if self.stop_at is not None and value <= self.stop_at:
-            self.stop_search()
+            self._reached.set()
 
 
 def configure(solver: cp_model.CpSolver, budget: Budget, work_s: float, workers: int, seed: int,
@@ -97,8 +123,12 @@ def run(m: cp_model.CpModel, budget: Budget, phase: str, work_s: float, workers:
     configure(solver, budget, work_s, workers, seed, deterministic, gap_limit)
     if on_bound is not None:
         solver.best_bound_callback = on_bound
-    watcher = _Watcher(on_solution, stop_at) if (on_solution is not None or stop_at is not None) else None
-    status = solver.solve(m, watcher) if watcher is not None else solver.solve(m)
+    watcher = _Watcher(solver, on_solution, stop_at) if (on_solution is not None or stop_at is not None) else None
+    try:
+        status = solver.solve(m, watcher) if watcher is not None else solver.solve(m)
+    finally:
+        if watcher is not None:
+            watcher.finish()
     p = solver.parameters
     unfinished = status not in (cp_model.OPTIMAL, cp_model.INFEASIBLE, cp_model.MODEL_INVALID)
     budget.deadline.count("cp_sat_deterministic_time", solver.deterministic_time)

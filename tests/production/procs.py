@@ -91,6 +91,9 @@ class Server:
         return self
 
     def _healthy(self):
+        if self.proc.poll() is not None:
+            raise RuntimeError(f"server exited with {self.proc.returncode} before it was healthy: "
+                               + (self.proc.stdout.read() if self.proc.stdout else ""))
         try:
             return requests.get(self.url + "/v1/health", timeout=1).ok
         except requests.RequestException:

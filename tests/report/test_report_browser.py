@@ -1,6 +1,6 @@
 """The HTML report in a real headless browser: it renders, every image loads, a screenshot is not blank.
 
-Needs Debian's `chromium` (`.ci/run` installs it and sets COHOP_REQUIRE_BROWSER=1, so there a missing
+Needs Debian's `chromium` (`.ci/run` installs it and sets CI_REQUIRE_BROWSER=1, so there a missing
 browser fails instead of skipping).
 """
 
@@ -35,7 +35,7 @@ window.addEventListener("load", () => {
 def chromium():
     binary = browser.find()
     if binary is None:
-        if os.environ.get("COHOP_REQUIRE_BROWSER") == "1":
+        if os.environ.get("CI_REQUIRE_BROWSER") == "1":
             pytest.fail("chromium is not installed (apt-get install chromium)")
         pytest.skip("chromium is not installed (apt-get install chromium); .ci/run installs it")
     return binary
