@@ -48,7 +48,7 @@ def _assess(body: dict):
 
 def main() -> None:
     print(f"machine: {machine()}")
-    sample = samples.load("container_terminal_eu2400")["site"]
+    sample = samples.load("container_terminal")["site"]
     sites = {"fixed (baseline)": _fixed(sample), "sample (crane: 5 positions)": sample,
              "4 areas of 20 x 6": _areas(sample, 4, 6)}
     base = None

@@ -5,7 +5,7 @@ weighted and worst per-hop collision (evaluated figures), its worst share of a l
 time. Asserts nothing. The sites have no ceilings; with --ceiling X every system gets max_attempt_loss X
 and worst_margin is planned too. Usage:
 
-    python bench/bench_objectives.py [--limit 10] [--sites medium,water_works_us915,...] [--ceiling 0.5]
+    python bench/bench_objectives.py [--limit 10] [--sites medium,water_works,...] [--ceiling 0.5]
 """
 
 from __future__ import annotations
@@ -19,7 +19,7 @@ import time
 import _common  # noqa: F401
 from _common import ROOT, machine
 
-SITES = ("medium", "water_works_us915", "container_terminal_eu2400", "open_pit_mine_ca915")
+SITES = ("medium", "water_works", "container_terminal", "open_pit_mine")
 
 
 def _body(name: str) -> tuple[dict, int | None]:

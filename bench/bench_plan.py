@@ -49,7 +49,7 @@ def _run_one(kind: str, arg: str, seed: int, limit: float) -> dict:
     if kind == "size" and arg == "sample":
         from cohop import samples
 
-        body, per = samples.load("water_works_us915")["site"], None
+        body, per = samples.load("water_works")["site"], None
     elif kind == "size":
         body = sitegen.generate(arg, seed=seed, with_hop_sets=False)
         per = sitegen.SIZES[arg][4]

@@ -28,7 +28,7 @@ from _common import machine
 
 from bench import sitegen
 
-SAMPLES = ("water_works_us915", "container_terminal_eu2400", "open_pit_mine_ca915")
+SAMPLES = ("water_works", "container_terminal", "open_pit_mine")
 SITES = SAMPLES + tuple(sitegen.SIZES)
 REPLAN_SAMPLE = "water_works_replan"
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import json
 from importlib import resources
 
-DEFAULT = "water_works_us915"
+DEFAULT = "water_works"
 
 
 def all_names() -> list[str]:

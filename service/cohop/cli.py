@@ -557,12 +557,12 @@ def _answered(p: argparse.ArgumentParser, func, solves: bool = False) -> None:
 def _add_site_commands(sub) -> None:
     p = _site_command(sub, "assess", "predict collisions, losses and compliance of each system's hop set",
                       "site JSON (a request body, a bare site, or a re-plan request: its current plan)",
-                      "water_works_us915")
+                      "water_works")
     p.add_argument("--trials", type=int, metavar="N", help="also run a Monte Carlo check with N attempts per system")
     p.add_argument("--seed", type=int, default=0, help="Monte Carlo seed (default 0)")
     _answered(p, _cmd_assess)
     p = _site_command(sub, "plan", "assign hop sets to every system, with a proven bound and baselines",
-                      "site or plan request JSON", "water_works_us915")
+                      "site or plan request JSON", "water_works")
     p.add_argument("--objective", choices=("weighted_sum", "worst_system", "residual_loss", "worst_margin"),
                    help=OBJECTIVE_HELP)
     p.add_argument("--coordination", choices=("joint", "independent"), help=COORDINATION_HELP)
@@ -696,6 +696,11 @@ def main(argv: list[str] | None = None) -> int:
         return args.func(args)
     except CliFailure as failure:
         return _report(failure, as_json)
+    except BrokenPipeError:
+        # the reader went away (`cohop profiles | head`): stop quietly (Python's documentation, "Note on
+        # SIGPIPE"); what was asked for was printed as far as the reader wanted it, so the exit is 0
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return EXIT_OK
     except ImportError as err:
         if (err.name or "").split(".")[0] == "requests":
             return _report(fail(EXIT_EXTRA, "cohop: the client needs requests: pip install requests",

@@ -14,13 +14,19 @@ diagnosis and the slot-aligned sequence construction all solve through
   budget, so no call outlives the request's limit; a call the wall clock
   stopped is recorded on the deadline (the answer says the run may differ);
 - an early end: optimisation calls stop at a relative gap of `gap_limit`
-  (what the service calls optimal), or as soon as a solution reaches
-  `stop_at`, a bound already proven by another method.
+  (what the service calls optimal). A bound already proven by another
+  method enters as `floor`, the lower end of the objective's domain, so
+  that CP-SAT's own gap test ends the search once a solution is close
+  enough to it. Nothing ever calls `stop_search()`: in OR-Tools 9.15 a
+  stop asked during interleaved search aborts the whole process ("Check
+  failed: solution->size() == postsolve_mapping.size()"), from inside the
+  solution callback always, from another thread in about one call in
+  three on a loaded machine (measured; tests/planning/test_cpsat_stop.py).
 """
 
 from __future__ import annotations
 
-import threading
+import math
 from dataclasses import dataclass
 from typing import Callable
 
@@ -35,6 +41,8 @@ DETERMINISTIC_UNITS_PER_SECOND = 0.35
 #: Building a full plan model in Python costs about this per pair boolean (samples: 3 000 booleans,
 #: 0.15 to 0.3 s; the medium bench site: 52 000, 2.8 s).
 BUILD_S_PER_PRODUCT = 8e-5
+#: The largest value a CP-SAT domain may hold ((2^63 - 1) / 2, cp_model.proto); the objective's open top.
+DOMAIN_TOP = 2**62 - 1
 #: Below this many wall seconds left, a call is not started at all.
 MIN_WALL_S = 0.005
 
@@ -55,41 +63,24 @@ class Outcome:
 
 
 class _Watcher(cp_model.CpSolverSolutionCallback):
-    """Reports each solution; one at or below `stop_at` asks the solver to stop.
+    """Reports each solution's objective; it never stops the search (see the module's docstring)."""
 
-    The stop is asked from a thread of our own, never from inside the callback: with `interleave_search`,
-    `stop_search()` called in the callback aborts the whole process in OR-Tools 9.15 ("Check failed:
-    solution->size() == postsolve_mapping.size()", reproduced on a plan model; tests/planning/
-    test_cpsat_stop.py), while the same stop from another thread returns the solution."""
-
-    def __init__(self, solver: cp_model.CpSolver, on_solution: Callable[[float], None] | None,
-                 stop_at: float | None):
+    def __init__(self, on_solution: Callable[[float], None]):
         super().__init__()
-        self.on_solution, self.stop_at = on_solution, stop_at
-        self._reached = threading.Event()
-        self._done = threading.Event()
-        self._stopper = None
-        if stop_at is not None:
-            self._stopper = threading.Thread(target=self._stop_when_reached, args=(solver,), daemon=True)
-            self._stopper.start()
-
-    def _stop_when_reached(self, solver: cp_model.CpSolver) -> None:
-        while not self._done.is_set():
-            if self._reached.wait(0.05):
-                solver.stop_search()
-                return
-
-    def finish(self) -> None:
-        self._done.set()
-        if self._stopper is not None:
-            self._stopper.join()
+        self.on_solution = on_solution
 
     def on_solution_callback(self) -> None:
-        value = self.objective_value
-        if self.on_solution is not None:
-            self.on_solution(value)
-        if self.stop_at is not None and value <= self.stop_at:
-            self._reached.set()
+        self.on_solution(self.objective_value)
+
+
+def set_floor(m: cp_model.CpModel, floor: float) -> None:
+    """Declare `floor`, a proven lower bound of the minimised objective (offset included), as the lower end
+    of the objective's domain. The domain is on the sum of the objective's terms, without the offset
+    (cp_model.proto, CpObjectiveProto.domain); rounding down keeps it a bound."""
+    objective = m.proto.objective
+    inner = min(math.floor(floor - objective.offset), DOMAIN_TOP)
+    objective.domain.clear()
+    objective.domain.extend([int(inner), DOMAIN_TOP])
 
 
 def configure(solver: cp_model.CpSolver, budget: Budget, work_s: float, workers: int, seed: int,
@@ -112,10 +103,11 @@ def configure(solver: cp_model.CpSolver, budget: Budget, work_s: float, workers:
 
 
 def run(m: cp_model.CpModel, budget: Budget, phase: str, work_s: float, workers: int, seed: int,
-        deterministic: bool, gap_limit: float | None = None, stop_at: float | None = None,
+        deterministic: bool, gap_limit: float | None = None, floor: float | None = None,
         on_solution: Callable[[float], None] | None = None,
         on_bound: Callable[[float], None] | None = None) -> Outcome:
-    """Solve `m` within the budget. `stop_at` and the callbacks are in the model's (scaled) objective units."""
+    """Solve `m` within the budget. `floor` (a proven lower bound) and the callbacks are in the model's
+    (scaled) objective units; with a floor and no `gap_limit`, a solution at the floor ends the search."""
     solver = cp_model.CpSolver()
     if budget.left() < MIN_WALL_S:
         budget.expired(phase)
@@ -123,19 +115,15 @@ def run(m: cp_model.CpModel, budget: Budget, phase: str, work_s: float, workers:
     configure(solver, budget, work_s, workers, seed, deterministic, gap_limit)
     if on_bound is not None:
         solver.best_bound_callback = on_bound
-    watcher = _Watcher(solver, on_solution, stop_at) if (on_solution is not None or stop_at is not None) else None
-    try:
-        status = solver.solve(m, watcher) if watcher is not None else solver.solve(m)
-    finally:
-        if watcher is not None:
-            watcher.finish()
+    if floor is not None:
+        set_floor(m, floor)
+    watcher = _Watcher(on_solution) if on_solution is not None else None
+    status = solver.solve(m, watcher) if watcher is not None else solver.solve(m)
     p = solver.parameters
     unfinished = status not in (cp_model.OPTIMAL, cp_model.INFEASIBLE, cp_model.MODEL_INVALID)
     budget.deadline.count("cp_sat_deterministic_time", solver.deterministic_time)
     work_left = (solver.deterministic_time < 0.99 * p.max_deterministic_time if deterministic
                  else p.max_time_in_seconds < work_s)
-    stopped_early = watcher is not None and stop_at is not None and status == cp_model.FEASIBLE \
-        and solver.objective_value <= stop_at
-    if unfinished and work_left and not stopped_early and solver.wall_time >= 0.95 * p.max_time_in_seconds:
+    if unfinished and work_left and solver.wall_time >= 0.95 * p.max_time_in_seconds:
         budget.deadline.record_stop(phase)
     return Outcome(status, solver)

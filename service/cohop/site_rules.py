@@ -32,6 +32,7 @@ from typing import Iterable, Mapping
 from cohop import limits
 from cohop.errors import SiteError
 from cohop.regulatory import PROFILES
+from cohop.regulatory.profiles import unknown_profile_message
 from cohop.physics.geometry import axis_sample_count
 from cohop.site import MOBILITY_POLICIES, Band, Coupling, Grid, Site, Survey, System
 from cohop.site_form import site_from
@@ -262,7 +263,7 @@ def effective_band(site: Site) -> Band | None:
 def _band(site: Site) -> list[Problem]:
     profile = PROFILES.get(site.profile)
     if profile is None:
-        return [(("profile",), f"Unknown profile {site.profile!r}.")]
+        return [(("profile",), unknown_profile_message(site.profile))]
     if profile.band is None:
         return [(("band",), f"Profile {site.profile!r} needs band edges.")] if site.band is None else []
     band = site.band

@@ -18,7 +18,7 @@ ASSESSMENTS = "/v1/assessments"
 _CACHE: dict[str, dict] = {}
 
 
-def load_sample(name: str = "water_works_us915.json") -> dict:
+def load_sample(name: str = "water_works.json") -> dict:
     """A fresh deep copy of one sample request body."""
     if name not in _CACHE:
         _CACHE[name] = json.loads((SAMPLES_DIR / name).read_text())

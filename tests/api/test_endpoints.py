@@ -8,10 +8,10 @@ import pytest
 
 from .conftest import ASSESSMENTS, SAMPLE_FILES, assert_problem, load_sample
 
-REQUIRED_PROFILES = ("us-915", "us-2400", "us-5800", "ca-915", "eu-2400-adaptive", "eu-2400-nonadaptive",
-                     "eu-868", "custom")
+REQUIRED_PROFILES = ("fcc15.247-902-928", "fcc15.247-2400-2483.5", "fcc15.247-5725-5850", "rss247-902-928", "en300328-2400-2483.5-adaptive", "en300328-2400-2483.5-nonadaptive",
+                     "erc7003-863-870", "custom")
 CERTAINTIES = {"published", "seen quoted", "partly seen", "from memory", "common practice"}
-COORDINATION_REGIONS = ("us-", "ca-")
+COORDINATION_REGIONS = ("fcc15.247-", "rss247-")
 
 
 def _strict_json(resp):
@@ -63,8 +63,8 @@ def test_every_rule_has_citation_and_certainty(profiles, profile_id):
 
 
 def test_profile_bands(profiles):
-    assert profiles["us-915"]["band"] == {"low_hz": 902e6, "high_hz": 928e6}
-    assert profiles["eu-868"]["band"] == {"low_hz": 863e6, "high_hz": 870e6}
+    assert profiles["fcc15.247-902-928"]["band"] == {"low_hz": 902e6, "high_hz": 928e6}
+    assert profiles["erc7003-863-870"]["band"] == {"low_hz": 863e6, "high_hz": 870e6}
     assert profiles["custom"]["band"] is None
     for pid, p in profiles.items():
         if p["band"] is not None:
@@ -107,7 +107,7 @@ def test_post_to_get_only_path_is_405(client):
     assert "GET" in resp.headers["Allow"]
 
 
-@pytest.mark.parametrize("path", ["/nope", "/v1", "/v1/assessment", "/v1/profiles/us-915/rules", "/v2/health"])
+@pytest.mark.parametrize("path", ["/nope", "/v1", "/v1/assessment", "/v1/profiles/fcc15.247-902-928/rules", "/v2/health"])
 def test_unknown_path_is_404_problem(client, path):
     body = assert_problem(client.get(path), 404)
     assert body["instance"] == path
@@ -138,8 +138,9 @@ def _assess(client, body):
 
 
 def test_samples_exist():
-    assert "water_works_us915.json" in SAMPLE_FILES
-    assert any("eu" in name for name in SAMPLE_FILES)
+    assert "water_works.json" in SAMPLE_FILES
+    profiles = {load_sample(name)["site"]["profile"] for name in SAMPLE_FILES}
+    assert any(pid.startswith("en300328-") for pid in profiles)
 
 
 def test_sample_assessment_shape(client, sample_name):
@@ -173,7 +174,7 @@ def test_sample_cautions(client, sample_name):
 
 
 def test_eu_sample_has_no_coordination_caution(client):
-    eu = [n for n in SAMPLE_FILES if load_sample(n)["site"]["profile"].startswith("eu-")]
+    eu = [n for n in SAMPLE_FILES if load_sample(n)["site"]["profile"].startswith(("en300328-", "erc7003-"))]
     assert eu, "no EU sample"
     for name in eu:
         assert not any("15.247(h)" in c for c in _assess(client, load_sample(name))["cautions"])

@@ -103,6 +103,15 @@ def test_non_finite_numbers_rejected(post, sample, literal, needle, pointer):
     assert_pointer(post(data=raw), pointer)
 
 
+@pytest.mark.parametrize("former, new", [("us-915", "fcc15.247-902-928"), ("eu-868", "erc7003-863-870"),
+                                         ("ca-2400", "rss247-2400-2483.5")])
+def test_a_former_profile_id_is_refused_with_its_new_id(post, sample, former, new):
+    sample["site"]["profile"] = former
+    body = assert_pointer(post(sample), "/site/profile")
+    detail = body["errors"][0]["detail"]
+    assert repr(former) in detail and repr(new) in detail
+
+
 def test_every_error_is_reported_at_once(post, sample):
     sample["site"]["systems"][0]["tx_power_dbm"] = "high"
     sample["site"]["systems"][2]["bandwidth_hz"] = -1
@@ -148,7 +157,7 @@ def test_body_over_size_cap_is_413(sample):
 
 
 @pytest.mark.parametrize("data, content_type", [
-    ("site=us-915", "application/x-www-form-urlencoded"),
+    ("site=fcc15.247-902-928", "application/x-www-form-urlencoded"),
     ("hello", "text/plain"),
     (None, None),
 ])

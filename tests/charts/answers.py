@@ -23,7 +23,7 @@ def _post(path: str, body: dict) -> dict:
 
 
 @functools.lru_cache(maxsize=None)
-def assessed(sample: str = "container_terminal_eu2400", detail: str = "source") -> tuple[dict, dict]:
+def assessed(sample: str = "container_terminal", detail: str = "source") -> tuple[dict, dict]:
     """(request body, answer) of an assessment."""
     body = copy.deepcopy(samples.load(sample))
     body["detail"] = detail
@@ -31,7 +31,7 @@ def assessed(sample: str = "container_terminal_eu2400", detail: str = "source") 
 
 
 @functools.lru_cache(maxsize=None)
-def planned(sample: str = "water_works_us915") -> tuple[dict, dict]:
+def planned(sample: str = "water_works") -> tuple[dict, dict]:
     body = copy.deepcopy(samples.load(sample))
     body.update(detail="channel", search=FAST_SEARCH, baselines=["all"])
     return body, _post("/v1/plans", body)

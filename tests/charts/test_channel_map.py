@@ -79,7 +79,7 @@ def test_no_two_labels_overlap(which):
 def test_the_assessment_chart_and_the_plan_chart_say_different_things():
     body, answer = planned()
     plan_fig = charts.channel_map(body["site"], answer)
-    assess_body, assess_answer = assessed("water_works_us915", "channel")
+    assess_body, assess_answer = assessed("water_works", "channel")
     assess_fig = charts.channel_map(assess_body["site"], assess_answer)
     assert plan_fig._suptitle.get_text().startswith("Plan for")
     assert assess_fig._suptitle.get_text().startswith("Assessment of")
@@ -88,7 +88,7 @@ def test_the_assessment_chart_and_the_plan_chart_say_different_things():
     figures = _by_gid(plan_fig, "figures:")
     for s in best["systems"]:
         assert figures[s["id"]].get_text().endswith(f"baseline {data.pct(s['collision_probability'])}")
-    statuses = {s["id"]: s["compliance"]["status"] for s in assessed("water_works_us915", "channel")[1]["systems"]}
+    statuses = {s["id"]: s["compliance"]["status"] for s in assessed("water_works", "channel")[1]["systems"]}
     for sid, text in _by_gid(assess_fig, "figures:").items():
         assert text.get_text().endswith(statuses[sid])
 

@@ -17,7 +17,7 @@ from cohop.api import create_app
 from cohop.workflow import profiles_json
 from tests.cli_helpers import run_cli
 
-WATER = samples.load("water_works_us915")
+WATER = samples.load("water_works")
 
 
 def _stdin(monkeypatch, text: str) -> None:
@@ -180,3 +180,14 @@ def test_misshapen_documents_are_usage_errors(capsys, tmp_path):
         code, out, err = run_cli(capsys, *argv)
         assert code == cli.EXIT_USAGE, argv
         assert "expected shape" in err and "Traceback" not in err
+
+
+def test_a_reader_that_stops_early_ends_the_command_quietly():
+    """`cohop profiles | head -1`: the closed pipe ends the command with exit 0 and no traceback."""
+    proc = subprocess.Popen([sys.executable, "-m", "cohop", "profiles"], stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE)
+    first = proc.stdout.readline()
+    proc.stdout.close()
+    _, err = proc.communicate(timeout=60)
+    assert first.startswith(b"fcc15.247-902-928")
+    assert proc.returncode == 0 and b"Traceback" not in err and b"BrokenPipe" not in err

@@ -34,7 +34,7 @@ def live_server():
 @pytest.fixture
 def sample_site() -> dict:
     """A fresh copy of the default sample's site (tests may mutate it)."""
-    return copy.deepcopy(samples.load("water_works_us915")["site"])
+    return copy.deepcopy(samples.load("water_works")["site"])
 
 
 @pytest.fixture

@@ -20,11 +20,11 @@ POINTER = "/site/systems/0/tx_power_dbm"
 @pytest.fixture
 def request_file(tmp_path):
     path = tmp_path / "request.json"
-    path.write_text(json.dumps(samples.load("water_works_us915")), encoding="utf-8")
+    path.write_text(json.dumps(samples.load("water_works")), encoding="utf-8")
     return path
 
 
-def _ids(name="water_works_us915"):
+def _ids(name="water_works"):
     return [s["id"] for s in samples.load(name)["site"]["systems"]]
 
 
@@ -34,15 +34,15 @@ def test_assess_default_sample_prints_table(capsys):
     for system_id in _ids():
         assert system_id in out
     assert "cautions" in out
-    assert "profile us-915" in out
-    assert "water_works_us915" in err
+    assert "profile fcc15.247-902-928" in out
+    assert "water_works" in err
     assert "Traceback" not in out + err
 
 
 def test_assess_other_sample(capsys):
-    code, out, _ = run_cli(capsys, "assess", "--sample", "open_pit_mine_ca915")
+    code, out, _ = run_cli(capsys, "assess", "--sample", "open_pit_mine")
     assert code == 0
-    assert all(system_id in out for system_id in _ids("open_pit_mine_ca915"))
+    assert all(system_id in out for system_id in _ids("open_pit_mine"))
 
 
 def test_assess_unknown_sample(capsys):
@@ -92,7 +92,7 @@ def test_assess_monte_carlo(capsys):
 
 
 def test_simulation_from_request_file(capsys, tmp_path):
-    body = samples.load("water_works_us915")
+    body = samples.load("water_works")
     body["simulation"] = {"trials_per_system": 3000, "seed": 4}
     path = tmp_path / "sim.json"
     path.write_text(json.dumps(body), encoding="utf-8")
@@ -102,7 +102,7 @@ def test_simulation_from_request_file(capsys, tmp_path):
 
 
 def test_assess_invalid_site(capsys, tmp_path):
-    body = samples.load("water_works_us915")
+    body = samples.load("water_works")
     body["site"]["systems"][0]["tx_power_dbm"] = "loud"
     path = tmp_path / "bad.json"
     path.write_text(json.dumps(body), encoding="utf-8")
@@ -152,7 +152,7 @@ def test_json_that_is_not_an_object(capsys, tmp_path):
 
 def test_bare_site_same_as_full_request(capsys, tmp_path, request_file):
     bare = tmp_path / "bare.json"
-    bare.write_text(json.dumps(samples.load("water_works_us915")["site"]), encoding="utf-8")
+    bare.write_text(json.dumps(samples.load("water_works")["site"]), encoding="utf-8")
     code_full, out_full, _ = run_cli(capsys, "assess", str(request_file))
     code_bare, out_bare, _ = run_cli(capsys, "assess", str(bare))
     assert code_full == code_bare == 0
@@ -165,7 +165,7 @@ def test_profiles(capsys):
     code, out, _ = run_cli(capsys, "profiles")
     assert code == 0
     ids = [line.split()[0] for line in out.splitlines() if line and not line.startswith(" ")]
-    assert {"us-915", "eu-868"} <= set(ids)
+    assert {"fcc15.247-902-928", "erc7003-863-870"} <= set(ids)
     code, out, _ = run_cli(capsys, "profiles", "--json")
     assert code == 0
     listed = json.loads(out)
@@ -177,8 +177,8 @@ def test_samples(capsys):
     code, out, _ = run_cli(capsys, "samples")
     assert code == 0
     names = [line.split(":")[0] for line in out.splitlines()]
-    assert names == ["container_terminal_eu2400", "open_pit_mine_ca915", "water_works_replan", "water_works_us915"]
-    assert "re-plan request" in out.splitlines()[2]
+    assert names == ["container_terminal", "open_pit_mine", "water_works", "water_works_replan"]
+    assert "re-plan request" in out.splitlines()[3]
 
 
 def test_server_gives_same_table_as_embedded(capsys, live_server, request_file):
@@ -192,7 +192,7 @@ def test_server_gives_same_table_as_embedded(capsys, live_server, request_file):
 
 
 def test_server_invalid_site_reports_pointer(capsys, live_server, tmp_path):
-    site = copy.deepcopy(samples.load("water_works_us915")["site"])
+    site = copy.deepcopy(samples.load("water_works")["site"])
     site["systems"][0]["tx_power_dbm"] = "loud"
     path = tmp_path / "bad_site.json"
     path.write_text(json.dumps(site), encoding="utf-8")
@@ -231,4 +231,4 @@ SCRIPT = Path(sys.executable).parent / ("cohop.exe" if os.name == "nt" else "coh
 def test_console_script(tmp_path):
     proc = subprocess.run([str(SCRIPT), "samples"], capture_output=True, text=True, timeout=120, cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
-    assert "water_works_us915" in proc.stdout
+    assert "water_works" in proc.stdout

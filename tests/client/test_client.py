@@ -37,7 +37,7 @@ def test_profiles_match_raw_listing(api, live_server):
     raw = requests.get(live_server + "/v1/profiles", timeout=30).json()
     assert all(isinstance(p, Profile) for p in profiles)
     assert [p.id for p in profiles] == [r["id"] for r in raw]
-    assert {"us-915", "eu-868"} <= {p.id for p in profiles}
+    assert {"fcc15.247-902-928", "erc7003-863-870"} <= {p.id for p in profiles}
     for p, r in zip(profiles, raw):
         assert p.name == r["name"] and p.region == r["region"]
         assert p.coordination_caution is r["coordination_caution"]
@@ -46,8 +46,8 @@ def test_profiles_match_raw_listing(api, live_server):
 
 
 def test_one_profile(api):
-    us = api.profile("us-915")
-    assert us.id == "us-915"
+    us = api.profile("fcc15.247-902-928")
+    assert us.id == "fcc15.247-902-928"
     assert us.band_hz == (902e6, 928e6)
     assert isinstance(us.rules, tuple) and us.rules
     assert api.profile("custom").band_hz is None
@@ -128,7 +128,7 @@ def test_unknown_profile_gives_404(api):
 
 
 def test_profile_id_is_one_path_segment(api):
-    for bad in ("../health", "us-915/../eu-868"):
+    for bad in ("../health", "fcc15.247-902-928/../erc7003-863-870"):
         with pytest.raises(InvalidRequest) as info:
             api.profile(bad)
         assert info.value.status == 404

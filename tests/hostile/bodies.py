@@ -20,11 +20,11 @@ def encode(body) -> bytes:
 
 
 def assessment() -> dict:
-    return copy.deepcopy(samples.load("water_works_us915"))
+    return copy.deepcopy(samples.load("water_works"))
 
 
 def plan() -> dict:
-    body = copy.deepcopy(samples.load("container_terminal_eu2400"))
+    body = copy.deepcopy(samples.load("container_terminal"))
     body["search"] = dict(FAST_SEARCH)
     return body
 

@@ -72,7 +72,7 @@ ROUTES = [
     Case("options-assessments", "OPTIONS", A, statuses=(200,), content_type=None),
     Case("head-health", "HEAD", "/v1/health", statuses=(200,), content_type=None),
     _get("unknown-profile", "/v1/profiles/nope", (404,)),
-    _get("profile", "/v1/profiles/us-915"),
+    _get("profile", "/v1/profiles/fcc15.247-902-928"),
     _get("profiles", "/v1/profiles"),
     _get("health", "/v1/health"),
     _get("ready", "/v1/ready"),
@@ -89,7 +89,7 @@ ROUTES = [
 
 CONTENT = [
     _post("text-plain", A, b"site=x", (415,), content_type="text/plain"),
-    _post("form-urlencoded", A, b"site=us-915", (415,), content_type="application/x-www-form-urlencoded"),
+    _post("form-urlencoded", A, b"site=fcc15.247-902-928", (415,), content_type="application/x-www-form-urlencoded"),
     _post("multipart", A, b"--x\r\n\r\n--x--\r\n", (415,), content_type="multipart/form-data; boundary=x"),
     _post("no-content-type", A, lambda: b.encode(b.assessment()), (415,), content_type=None),
     _post("empty-json-body", A, b"", (400, 422)),

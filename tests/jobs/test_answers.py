@@ -18,7 +18,7 @@ class _Sequences:
         self.depends_on_alignment = aligned
 
 
-US, EU = PROFILES["us-915"], PROFILES["eu-2400-adaptive"]
+US, EU = PROFILES["fcc15.247-902-928"], PROFILES["en300328-2400-2483.5-adaptive"]
 
 
 @pytest.mark.parametrize("coordination, aligned, expected", [

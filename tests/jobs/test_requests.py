@@ -21,7 +21,7 @@ from tests.problems import set_at
 
 
 def _plan_body() -> dict:
-    site = samples.load("water_works_us915")["site"]
+    site = samples.load("water_works")["site"]
     return {"site": site, "baselines": ["greedy", "random", "greedy"], "detail": "system",
             "search": {"time_limit_s": 3.0, "seed": 4},
             "requirements": {"systems": [{"system": "dosing-link", "min_channels": 50, "excluded_channels": [3, 4],
@@ -37,7 +37,7 @@ def test_a_plan_request_loads_alike_both_ways():
 
 
 def test_defaults_are_the_dataclasses_both_ways():
-    site = samples.load("water_works_us915")["site"]
+    site = samples.load("water_works")["site"]
     loaded = load_plan_request({"site": copy.deepcopy(site)})
     assert loaded == PlanRequestSchema().load({"site": copy.deepcopy(site)})
     assert loaded == PlanRequest(site=loaded.site)
@@ -57,7 +57,7 @@ def test_the_replan_sample_loads_alike_both_ways():
 
 
 def test_an_assessment_request_with_a_simulation_loads_alike_both_ways():
-    body = samples.load("water_works_us915")
+    body = samples.load("water_works")
     body.update(simulation={"trials_per_system": 1000}, detail="source")
     req = load_assessment_request(copy.deepcopy(body))
     assert req == AssessmentRequestSchema().load(copy.deepcopy(body))

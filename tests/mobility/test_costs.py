@@ -19,7 +19,7 @@ def _instance(site_body):
 
 
 def test_reserve_grows_with_the_moving_positions_only():
-    moving = load_sample("container_terminal_eu2400.json")["site"]
+    moving = load_sample("container_terminal.json")["site"]
     fixed = copy.deepcopy(moving)
     crane = fixed["systems"][0]
     crane["position"] = crane.pop("positions")[2]

@@ -94,7 +94,7 @@ def test_load_site_checks_the_same_rules():
 
 
 def test_the_sample_crane_moves_and_its_worst_position_is_named(client):
-    body = load_sample("container_terminal_eu2400.json")
+    body = load_sample("container_terminal.json")
     resp = client.post(ASSESSMENTS, json=body)
     assert resp.status_code == 200, resp.get_data(as_text=True)[:2000]
     answer = resp.get_json()
@@ -110,7 +110,7 @@ def test_the_sample_crane_moves_and_its_worst_position_is_named(client):
 
 
 def test_mean_policy_in_the_answer(client):
-    body = load_sample("container_terminal_eu2400.json")
+    body = load_sample("container_terminal.json")
     body["site"]["mobility_policy"] = "mean"
     answer = client.post(ASSESSMENTS, json=body).get_json()
     for s in answer["systems"]:
@@ -120,7 +120,7 @@ def test_mean_policy_in_the_answer(client):
 
 
 def test_the_sample_through_load_site():
-    body = load_sample("container_terminal_eu2400.json")
+    body = load_sample("container_terminal.json")
     answer = assessment_answer(assess_site(prepare_site(load_site(body["site"]))), caution=False)
     crane = answer.systems[0].mobility
     assert crane.id == "sts-1" and crane.positions_sampled == 5 and crane.worst is not None
@@ -129,7 +129,7 @@ def test_the_sample_through_load_site():
 def test_a_plan_names_the_moving_crane_worst_position(client):
     # The sample as a plan request (the site and a short search): planning uses the worst-case coupling, and
     # the plan's assessment carries the crane's mobility block like an assessment does.
-    body = {"site": load_sample("container_terminal_eu2400.json")["site"], "search": {"time_limit_s": 0.5, "seed": 0}}
+    body = {"site": load_sample("container_terminal.json")["site"], "search": {"time_limit_s": 0.5, "seed": 0}}
     resp = client.post("/v1/plans", json=body)
     assert resp.status_code == 200, resp.get_data(as_text=True)[:2000]
     answer = resp.get_json()["assessment"]

@@ -60,7 +60,7 @@ def test_aligned_piconets():
 
 
 def test_simulation_is_deterministic_for_a_seed():
-    body = copy.deepcopy(samples.load("container_terminal_eu2400")["site"])
+    body = copy.deepcopy(samples.load("container_terminal")["site"])
     prep = prepare_site(sites.load(body))
     a = simulate_site(prep, 20_000, seed=3)
     b = simulate_site(prep, 20_000, seed=3)

@@ -72,7 +72,7 @@ def test_random_sites_recompute_from_request(client, seed):
 
 def test_recompute_catches_a_wrong_figure(client):
     # The checker is not vacuous: altering one reported figure makes it fail.
-    body = copy.deepcopy(samples.load("water_works_us915"))
+    body = copy.deepcopy(samples.load("water_works"))
     resp = client.post("/v1/assessments", json=body).json
     resp["systems"][1]["channels"][3]["collision_probability"] *= 1.001
     with pytest.raises(AssertionError):

@@ -21,7 +21,7 @@ from tests.problems import problem_body
 PLANS = "/v1/plans"
 INFEASIBLE = "urn:cohop:problem:no-feasible-plan"
 INVALID = "urn:cohop:problem:invalid-request"
-SAMPLE_NAMES = ("water_works_us915", "container_terminal_eu2400", "open_pit_mine_ca915")
+SAMPLE_NAMES = ("water_works", "container_terminal", "open_pit_mine")
 BASELINE_NAMES = ("whole_band", "random", "contiguous", "interleaved", "greedy")
 
 N_CHANNELS = 30

@@ -185,7 +185,7 @@ def test_cli_plan_invalid_request(capsys, tmp_path):
 def test_cli_plan_default_sample(capsys):
     code, out, err = run_cli(capsys, "plan", "--time-limit", "1")
     assert code == 0, err
-    assert "water_works_us915" in err
-    for s in samples.load("water_works_us915")["site"]["systems"]:
+    assert "water_works" in err
+    for s in samples.load("water_works")["site"]["systems"]:
         assert s["id"] in out
     assert "15.247(h)" in out and "proven bound" in out

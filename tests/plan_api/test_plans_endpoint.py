@@ -17,7 +17,7 @@ from .conftest import (BASELINE_NAMES, INFEASIBLE, INTERFERED_CHANNELS, INTERFER
 
 
 # open_pit runs at the longest allowed limit: the time-budget test below reads its report.
-SAMPLE_LIMITS_S = {"open_pit_mine_ca915": 2.0}
+SAMPLE_LIMITS_S = {"open_pit_mine": 2.0}
 
 
 def _sample_plan(planned, name):
@@ -57,12 +57,12 @@ def test_sample_cautions(sample_plan):
     text = " ".join(answer["cautions"]).lower()
     assert "planning estimate" in text and "site survey" in text
     assert answer["coordination"] == "joint"
-    fcc_like = body["site"]["profile"] in ("us-915", "ca-915")
+    fcc_like = body["site"]["profile"] in ("fcc15.247-902-928", "rss247-902-928")
     assert ("15.247(h)" in text) == fcc_like
 
 
 def test_independent_coordination_keeps_the_caution_while_the_joint_plan_is_shown(planned):
-    req = sample_request("water_works_us915", requirements={"coordination": "independent"})
+    req = sample_request("water_works", requirements={"coordination": "independent"})
     _, status, answer = planned("water-independent", lambda: req)
     assert status == 200, answer
     assert answer["coordination"] == "independent"
@@ -74,7 +74,7 @@ def test_independent_coordination_keeps_the_caution_while_the_joint_plan_is_show
 def test_the_report_states_the_limit_and_the_work_done(planned):
     """Time limits are kept by work budgets (see tests/planning/test_budgets.py); the answer states the
     effective limit, the work each phase did, and whether the wall clock had to stop one (then a note)."""
-    s = _sample_plan(planned, "open_pit_mine_ca915")[1]["solver"]
+    s = _sample_plan(planned, "open_pit_mine")[1]["solver"]
     assert s["time_limit_s"] == s["requested_time_limit_s"] == 2.0
     assert s["work"]["kicks"] >= 1 and s["work"]["pricing_operations"] > 0
     assert s["stopped_by_wall_clock"] == any("wall clock stopped" in n for n in s["notes"])

@@ -17,12 +17,12 @@ FAST = SolveSettings(solver_threads=2, max_solve_s=10.0)
 
 @pytest.fixture(scope="module")
 def mine():
-    return prepare_site(sites.load(samples.load("open_pit_mine_ca915")["site"]))
+    return prepare_site(sites.load(samples.load("open_pit_mine")["site"]))
 
 
 @pytest.fixture(scope="module")
 def water():
-    return prepare_site(sites.load(samples.load("water_works_us915")["site"]))
+    return prepare_site(sites.load(samples.load("water_works")["site"]))
 
 
 def test_same_request_and_seed_same_plan(water):

@@ -25,7 +25,7 @@ TWO = SolveSettings(solver_threads=2, max_solve_s=60.0)
 
 @pytest.fixture(scope="module")
 def water():
-    return prepare_site(sites.load(samples.load("water_works_us915")["site"]))
+    return prepare_site(sites.load(samples.load("water_works")["site"]))
 
 
 def test_plans_from_the_relaxation_meet_every_hard_requirement():
@@ -72,7 +72,7 @@ def test_the_lagrangian_bound_is_reported_below_the_plan(water):
 
 
 def test_target_gap_in_the_request_form():
-    body = {"site": samples.load("water_works_us915")["site"], "search": {"target_gap": 0.05}}
+    body = {"site": samples.load("water_works")["site"], "search": {"target_gap": 0.05}}
     assert load_plan_request(body).requirements.target_gap == 0.05
     assert load_plan_request({"site": body["site"]}).requirements.target_gap == DEFAULT_TARGET_GAP
 

@@ -32,7 +32,7 @@ CP_SAT_OVERSHOOT = 1.3
 
 @pytest.fixture(scope="module")
 def water():
-    return prepare_site(sites.load(samples.load("water_works_us915")["site"]))
+    return prepare_site(sites.load(samples.load("water_works")["site"]))
 
 
 def test_work_follows_the_budget(water):

@@ -1,17 +1,17 @@
-"""An early stop at a proven bound survives interleaved CP-SAT workers.
+"""An early end at a proven bound, with interleaved CP-SAT workers, never aborts the process.
 
 With `interleave_search` and two workers, OR-Tools 9.15 aborts the whole process ("Check failed:
-solution->size() == postsolve_mapping.size()") when `stop_search()` is called inside the solution callback;
-the water works' full model stopped at its first solution reproduced it. `cohop.cpsat` asks for the stop
-from a thread of its own. The call runs in a child process so that a regression fails this test instead of
-killing the test worker."""
+solution->size() == postsolve_mapping.size()") when `stop_search()` is called inside the solution callback
+(always, on the water works' full model stopped at its first solution) and, on a loaded machine, in about one
+call in three when it is called from another thread (7 of 20 runs, four at a time on two cores). `cohop.cpsat`
+therefore never asks for a stop: a bound proven elsewhere becomes the lower end of the objective's domain and
+CP-SAT's own gap test ends the search."""
 
 from __future__ import annotations
 
-import subprocess
-import sys
+import pytest
+from ortools.sat.python import cp_model
 
-CHILD = """
 from cohop import cpsat, samples
 from cohop.planning import model, search
 from cohop.planning.instance import build_instance
@@ -20,20 +20,45 @@ from cohop.prepare import prepare_site
 from tests import sites
 from tests.planning.helpers import roomy
 
-inst = build_instance(prepare_site(sites.load(samples.load("water_works_us915")["site"])), PlanRequirements(seed=2))
-start = search.greedy(inst)
-m, mv, objective, scale = model.full_model(inst, start)
-model.minimise(m, mv, inst, objective, scale)
-seen = []
-out = cpsat.run(m, roomy(3.0), "CP-SAT", 3.0, workers=2, seed=2, deterministic=True, gap_limit=0.9,
-                stop_at=2**62, on_solution=seen.append)
-assert out.solver.parameters.interleave_search
-print(out.name, len(seen))
-"""
+
+@pytest.fixture(scope="module")
+def water_instance():
+    return build_instance(prepare_site(sites.load(samples.load("water_works")["site"])), PlanRequirements(seed=2))
 
 
-def test_a_stop_at_the_first_solution_returns_it_with_interleaved_workers():
-    child = subprocess.run([sys.executable, "-c", CHILD], capture_output=True, text=True, timeout=240)
-    assert child.returncode == 0, child.stderr[-2000:]
-    status, solutions = child.stdout.split()
-    assert status in ("FEASIBLE", "OPTIMAL") and int(solutions) >= 1
+def _model(inst):
+    m, mv, objective, scale = model.full_model(inst, search.greedy(inst))
+    model.minimise(m, mv, inst, objective, scale)
+    return m
+
+
+@pytest.fixture
+def no_stop_search(monkeypatch):
+    calls = []
+    monkeypatch.setattr(cp_model.CpSolver, "stop_search", lambda self: calls.append(self))
+    return calls
+
+
+def test_a_floor_reached_ends_the_search_as_proven_with_interleaved_workers(water_instance, no_stop_search):
+    first = cpsat.run(_model(water_instance), roomy(3.0), "CP-SAT", 0.3, workers=2, seed=2, deterministic=True)
+    assert first.found and first.solver.parameters.interleave_search
+    reached = first.solver.objective_value
+    seen = []
+    out = cpsat.run(_model(water_instance), roomy(3.0), "CP-SAT", 30.0, workers=2, seed=2, deterministic=True,
+                    floor=reached, on_solution=seen.append)
+    assert out.name == "OPTIMAL" and out.solver.objective_value == reached and reached in seen
+    assert out.solver.deterministic_time < 0.5 * out.solver.parameters.max_deterministic_time
+    assert not no_stop_search
+
+
+def test_a_floor_is_a_bound_it_never_cuts_the_optimum(no_stop_search):
+    """A floor below the optimum (3 x + 2 y >= 7 over integers: optimum 3 x + 2 y + 1 = 8 at x=1, y=2) changes
+    nothing; the floor's offset handling is checked by a floor equal to the optimum."""
+    for floor in (0, 5.5, 8):
+        m = cp_model.CpModel()
+        x, y = m.new_int_var(0, 5, "x"), m.new_int_var(0, 5, "y")
+        m.add(3 * x + 2 * y >= 7)
+        m.minimize(3 * x + 2 * y + 1)
+        out = cpsat.run(m, roomy(1.0), "CP-SAT", 1.0, workers=1, seed=1, deterministic=True, floor=floor)
+        assert out.name == "OPTIMAL" and out.solver.objective_value == 8
+    assert not no_stop_search

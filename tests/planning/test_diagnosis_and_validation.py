@@ -61,9 +61,9 @@ def test_feasible_requirements_diagnose_as_feasible():
 
 
 def test_profile_minimum_above_the_band():
-    # us-915 needs 50 channels below 250 kHz bandwidth (47 CFR 15.247(a)(1)(i)); a 40-channel grid cannot.
+    # fcc15.247-902-928 needs 50 channels below 250 kHz bandwidth (47 CFR 15.247(a)(1)(i)); a 40-channel grid cannot.
     body = tiny_site(1, 40)
-    body.update(profile="us-915", band=None, grid={"first_centre_hz": 902.1e6, "spacing_hz": 200e3, "count": 40})
+    body.update(profile="fcc15.247-902-928", band=None, grid={"first_centre_hz": 902.1e6, "spacing_hz": 200e3, "count": 40})
     body["systems"][0].update(bandwidth_hz=150e3, rejection=[{"offset_hz": 200e3, "rejection_db": 40.0}])
     with pytest.raises(PlanInfeasible) as err:
         build_instance(prepare_site(sites.load(body)), PlanRequirements())
@@ -86,7 +86,7 @@ def test_validator_catches_each_violation(mutate, kind):
 
 def test_validator_checks_the_profile():
     body = tiny_site(1, 60)
-    body.update(profile="us-915", band=None, grid={"first_centre_hz": 902.1e6, "spacing_hz": 200e3, "count": 60})
+    body.update(profile="fcc15.247-902-928", band=None, grid={"first_centre_hz": 902.1e6, "spacing_hz": 200e3, "count": 60})
     body["systems"][0].update(bandwidth_hz=150e3, rejection=[{"offset_hz": 200e3, "rejection_db": 40.0}])
     inst = build_instance(prepare_site(sites.load(body)),  # at the bare minimum: no spare channels
                           PlanRequirements(systems=(SystemRequirement("s0", spare_channels=0),)))

@@ -58,8 +58,8 @@ def _sample(name: str, **system_requirements):
     return prep, req
 
 
-@pytest.mark.parametrize("name, width", [("water_works_us915", 2e6), ("open_pit_mine_ca915", 2e6),
-                                         ("container_terminal_eu2400", 22e6)])
+@pytest.mark.parametrize("name, width", [("water_works", 2e6), ("open_pit_mine", 2e6),
+                                         ("container_terminal", 22e6)])
 def test_default_spare_on_the_samples(name, width):
     prep, req = _sample(name)
     inst = build_instance(prep, req)
@@ -74,7 +74,7 @@ def test_default_spare_on_the_samples(name, width):
 
 
 def test_explicit_spare_and_caps():
-    prep, _ = _sample("water_works_us915")
+    prep, _ = _sample("water_works")
     ids = [s.id for s in prep.site.systems]
     reqs = {ids[0]: {"spare_channels": 0}, ids[1]: {"spare_channels": 5},
             ids[2]: {"spare_channels": 30, "max_channels": 60}, ids[3]: {"spare_channels": 4000}}
@@ -97,7 +97,7 @@ def test_custom_profile_has_no_default_spare():
 
 
 def test_plan_answer_states_what_each_system_can_lose(client):
-    body = samples.load("container_terminal_eu2400")
+    body = samples.load("container_terminal")
     body["search"] = {"time_limit_s": 1.0}
     answer = client.post("/v1/plans", json=body).get_json()
     plan = {p["id"]: p for p in answer["plan"]}
@@ -108,7 +108,7 @@ def test_plan_answer_states_what_each_system_can_lose(client):
 
 
 def test_negative_spare_is_refused(client):
-    body = samples.load("water_works_us915")
+    body = samples.load("water_works")
     sid = body["site"]["systems"][0]["id"]
     body["requirements"] = {"systems": [{"system": sid, "spare_channels": -1}]}
     resp = client.post("/v1/plans", json=body)

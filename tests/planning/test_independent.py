@@ -22,7 +22,7 @@ from cohop.planning.requirements import PlanRequirements, SystemRequirement
 from cohop.prepare import prepare_site
 from tests import sites
 
-SAMPLES = ("water_works_us915", "open_pit_mine_ca915", "container_terminal_eu2400")
+SAMPLES = ("water_works", "open_pit_mine", "container_terminal")
 
 
 def _sample(name: str):

@@ -25,7 +25,7 @@ def _body(name: str, **requirements) -> dict:
 
 @pytest.fixture(scope="module")
 def water_works(client):
-    resp = client.post("/v1/plans", json=_body("water_works_us915", commissioning_order=["sludge-crane"]))
+    resp = client.post("/v1/plans", json=_body("water_works", commissioning_order=["sludge-crane"]))
     assert resp.status_code == 200, resp.get_json()
     return resp.get_json()
 
@@ -75,7 +75,7 @@ def test_caution_kept_while_a_joint_plan_is_shown(water_works):
 
 
 def test_joint_answers_have_no_side_by_side(client):
-    body = _body("water_works_us915")
+    body = _body("water_works")
     body["requirements"]["coordination"] = "joint"
     answer = client.post("/v1/plans", json=body).get_json()
     assert answer["independent"] is None
@@ -89,6 +89,6 @@ def test_orders_are_the_systems_own(water_works):
 
 def test_unknown_or_repeated_commissioning_order_is_refused(client):
     for order in (["no-such-system"], ["sludge-crane", "sludge-crane"]):
-        resp = client.post("/v1/plans", json=_body("water_works_us915", commissioning_order=order))
+        resp = client.post("/v1/plans", json=_body("water_works", commissioning_order=order))
         assert resp.status_code in (400, 422), order
         assert "commissioning_order" in str(resp.get_json())

@@ -94,7 +94,7 @@ def test_known_optimum_zero_when_blocks_fit_with_guards():
 def test_plan_beats_every_feasible_baseline_on_a_sample():
     from cohop import samples
 
-    site = sites.load(samples.load("water_works_us915")["site"])
+    site = sites.load(samples.load("water_works")["site"])
     prep = prepare_site(site)
     result = plan_site(prep, PlanRequirements(baselines=("random", "contiguous", "interleaved", "greedy")), FAST,
                        budget=roomy(1.5))

@@ -52,7 +52,7 @@ def test_metrics_count_requests_latency_and_rejections():
     c = app.test_client()
     c.get("/v1/health")
     c.post("/v1/assessments", data="x", content_type="text/plain")
-    body = copy.deepcopy(samples.load("water_works_us915"))
+    body = copy.deepcopy(samples.load("water_works"))
     body["search"] = {"time_limit_s": 0.3, "sequence_packets": 1000}
     assert c.post("/v1/plans", json=body).status_code == 200
     text = c.get("/metrics").get_data(as_text=True)
@@ -70,12 +70,12 @@ def test_busy_solver_answers_503_with_retry_after():
 
     held = slots(app)
     assert held.try_acquire()  # a solve is running
-    body = copy.deepcopy(samples.load("water_works_us915"))
+    body = copy.deepcopy(samples.load("water_works"))
     resp = app.test_client().post("/v1/plans", json=body)
     assert resp.status_code == 503 and resp.headers["Retry-After"] == "5"
     assert resp.json["type"] == "urn:cohop:problem:solver-busy"
     # evaluations are not held back by a running solve
-    assert app.test_client().post("/v1/assessments", json=samples.load("water_works_us915")).status_code == 200
+    assert app.test_client().post("/v1/assessments", json=samples.load("water_works")).status_code == 200
     held.release()
     text = app.test_client().get("/metrics").get_data(as_text=True)
     assert 'cohop_rejections_total{reason="solver busy"} 1.0' in text
@@ -83,7 +83,7 @@ def test_busy_solver_answers_503_with_retry_after():
 
 def test_access_log_is_json_with_request_id_and_no_secrets(caplog):
     app = create_app({"TESTING": True, "COHOP_TOKENS": TOKENS})
-    secret_body = copy.deepcopy(samples.load("water_works_us915"))
+    secret_body = copy.deepcopy(samples.load("water_works"))
     with caplog.at_level(logging.INFO, logger="cohop.access"):
         resp = app.test_client().post("/v1/assessments", json=secret_body, headers={
             "Authorization": f"Bearer {TOKENS[0]}", "X-Request-Id": "plant-42.a"})

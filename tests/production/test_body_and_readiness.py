@@ -21,7 +21,7 @@ def client():
 
 def _padded_sample(size: int) -> bytes:
     """The water-works assessment, padded with trailing spaces (still valid JSON) to exactly `size` bytes."""
-    raw = json.dumps(samples.load("water_works_us915")).encode()
+    raw = json.dumps(samples.load("water_works")).encode()
     assert len(raw) <= size
     return raw + b" " * (size - len(raw))
 

@@ -23,7 +23,7 @@ from tests.production.procs import Server, solver_processes, wait_for
 
 
 def _plan_body(seconds: float) -> dict:
-    body = copy.deepcopy(samples.load("water_works_us915"))
+    body = copy.deepcopy(samples.load("water_works"))
     body["search"] = {"time_limit_s": seconds, "sequence_packets": 1000}
     return body
 

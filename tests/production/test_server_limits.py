@@ -64,7 +64,7 @@ def test_slow_clients_do_not_starve_health_or_evaluations_and_get_408(server):
         t.start()
     # More slow clients than threads hold on; health and a small assessment must still be answered.
     assert requests.get(server.url + "/v1/health", timeout=60).json()["status"] == "ok"
-    assessed = requests.post(server.url + "/v1/assessments", json=samples.load("open_pit_mine_ca915"), timeout=60)
+    assessed = requests.post(server.url + "/v1/assessments", json=samples.load("open_pit_mine"), timeout=60)
     assert assessed.status_code == 200 and assessed.json()["systems"]
     for t in holders:
         t.join(60)
@@ -83,7 +83,7 @@ def _chunked_request(payload: bytes, piece: int = 8192) -> bytes:
 
 
 def _padded_sample(size: int) -> bytes:
-    raw = json.dumps(samples.load("water_works_us915")).encode()
+    raw = json.dumps(samples.load("water_works")).encode()
     return raw + b" " * (size - len(raw))
 
 

@@ -22,7 +22,7 @@ def _ready_status(url: str) -> int | None:
 
 
 def test_sigterm_drains_then_finishes_the_solve_in_flight_then_exits():
-    plan = copy.deepcopy(samples.load("water_works_us915"))
+    plan = copy.deepcopy(samples.load("water_works"))
     plan["search"] = {"time_limit_s": 2, "sequence_packets": 1000}
     with Server(COHOP_DRAIN_S=3) as s:
         answers = []
@@ -39,7 +39,7 @@ def test_sigterm_drains_then_finishes_the_solve_in_flight_then_exits():
         assert ready.headers["Content-Type"] == "application/problem+json"
         assert body["status"] == 503 and body["state"] == "draining" and body["type"] == "urn:cohop:problem:draining"
         # Sent during the drain (the listener is still open): answered in full.
-        assessed = requests.post(s.url + "/v1/assessments", json=samples.load("open_pit_mine_ca915"), timeout=60)
+        assessed = requests.post(s.url + "/v1/assessments", json=samples.load("open_pit_mine"), timeout=60)
         assert assessed.status_code == 200 and assessed.json()["systems"]
 
         solving.join(120)

@@ -16,7 +16,7 @@ def run(pid: str, system: System, centres_hz) -> dict:
     """Findings keyed by the rule id without its profile prefix ("channels", "power", "eirp", ...)."""
     p = PROFILES[pid]
     c = np.asarray(centres_hz, dtype=float)
-    return {f.rule.id.split(".", 1)[1]: f for f in check_compliance(p, system, np.arange(c.size), c, p.band)}
+    return {f.rule.kind: f for f in check_compliance(p, system, np.arange(c.size), c, p.band)}
 
 
 def statuses(findings: dict) -> dict:

@@ -13,7 +13,7 @@ from cohop.site import System
 from tests.regulatory.findings import centres, run, statuses
 
 KHZ, MHZ = 1e3, 1e6
-EU24 = ["eu-2400-adaptive", "eu-2400-nonadaptive"]
+EU24 = ["en300328-2400-2483.5-adaptive", "en300328-2400-2483.5-nonadaptive"]
 
 
 def make_system(**kw) -> System:
@@ -47,7 +47,7 @@ def test_compliant_2400_hop_set_passes_every_rule(pid):
 
 # CEPT ERC Rec 70-03 Annex 1 [partly seen]; EN 300 220-2 FHSS limits deliberately not encoded (warning).
 def test_compliant_868_hop_set_passes_all_but_en300220_note():
-    f = run("eu-868", erp_system(MW500, 0.10), G_869_4)
+    f = run("erc7003-863-870", erp_system(MW500, 0.10), G_869_4)
     note = f.pop("fhss")
     assert note.status == "warning" and "not checked" in note.message and "300 220" in note.message
     assert all(v == "pass" for v in statuses(f).values()), statuses(f)
@@ -55,10 +55,10 @@ def test_compliant_868_hop_set_passes_all_but_en300220_note():
 
 # EN 300 328 V2.2.2 [partly seen]: at least max(5 | 15, 15 MHz / hop separation) frequencies.
 @pytest.mark.parametrize("pid, spacing, need", [
-    ("eu-2400-nonadaptive", 1 * MHZ, 15), ("eu-2400-adaptive", 1 * MHZ, 15),
-    ("eu-2400-nonadaptive", 3 * MHZ, 5), ("eu-2400-adaptive", 3 * MHZ, 15),
-    ("eu-2400-nonadaptive", 4 * MHZ, 5), ("eu-2400-nonadaptive", 2 * MHZ, 8),
-    ("eu-2400-nonadaptive", 0.5 * MHZ, 30), ("eu-2400-adaptive", 0.5 * MHZ, 30),
+    ("en300328-2400-2483.5-nonadaptive", 1 * MHZ, 15), ("en300328-2400-2483.5-adaptive", 1 * MHZ, 15),
+    ("en300328-2400-2483.5-nonadaptive", 3 * MHZ, 5), ("en300328-2400-2483.5-adaptive", 3 * MHZ, 15),
+    ("en300328-2400-2483.5-nonadaptive", 4 * MHZ, 5), ("en300328-2400-2483.5-nonadaptive", 2 * MHZ, 8),
+    ("en300328-2400-2483.5-nonadaptive", 0.5 * MHZ, 30), ("en300328-2400-2483.5-adaptive", 0.5 * MHZ, 30),
 ])
 def test_minimum_frequency_count(pid, spacing, need):
     s = make_system(bandwidth_hz=min(1 * MHZ, spacing))
@@ -98,7 +98,7 @@ def test_eirp_20dbm(pid, tx, gain, expected):
 ])
 def test_nonadaptive_accumulated_transmit_time(dwell, airtime, expected):
     s = make_system(dwell_s=dwell, packet_airtime_s=airtime, activity_fraction=0.05)
-    f = run("eu-2400-nonadaptive", s, centres(2402 * MHZ, 1 * MHZ, 15))["occupancy"]
+    f = run("en300328-2400-2483.5-nonadaptive", s, centres(2402 * MHZ, 1 * MHZ, 15))["occupancy"]
     assert f.status == expected, f.message
     assert f.limit == pytest.approx(0.015)
 
@@ -108,7 +108,7 @@ def test_nonadaptive_accumulated_transmit_time(dwell, airtime, expected):
                                                       (0.3, 0.3, "warning"), (0.1, 0.1, "pass")])
 def test_adaptive_accumulated_transmit_time(dwell, airtime, expected):
     s = make_system(dwell_s=dwell, packet_airtime_s=airtime, activity_fraction=0.5)
-    f = run("eu-2400-adaptive", s, centres(2402 * MHZ, 1 * MHZ, 15))["occupancy"]
+    f = run("en300328-2400-2483.5-adaptive", s, centres(2402 * MHZ, 1 * MHZ, 15))["occupancy"]
     assert f.status == expected, f.message
     assert f.limit == pytest.approx(0.4)
 
@@ -123,7 +123,7 @@ def test_adaptive_accumulated_transmit_time(dwell, airtime, expected):
 ])
 def test_medium_utilisation(eirp_dbm, duty, expected):
     s = make_system(tx_power_dbm=eirp_dbm, antenna_gain_dbi=0.0, activity_fraction=duty)
-    f = run("eu-2400-nonadaptive", s, centres(2402 * MHZ, 1 * MHZ, 15))["medium-utilisation"]
+    f = run("en300328-2400-2483.5-nonadaptive", s, centres(2402 * MHZ, 1 * MHZ, 15))["medium-utilisation"]
     assert f.status == expected, f.message
     assert f.measured == pytest.approx(duty * 10 ** (eirp_dbm / 10) / 100)
 
@@ -131,7 +131,7 @@ def test_medium_utilisation(eirp_dbm, duty, expected):
 # EN 300 328 V2.2.2: medium utilisation is a non-adaptive limit; the adaptive profile has none.
 def test_adaptive_has_no_medium_utilisation_rule():
     s = make_system(activity_fraction=0.5)
-    assert "medium-utilisation" not in run("eu-2400-adaptive", s, centres(2402 * MHZ, 1 * MHZ, 15))
+    assert "medium-utilisation" not in run("en300328-2400-2483.5-adaptive", s, centres(2402 * MHZ, 1 * MHZ, 15))
 
 
 # ERC Rec 70-03 Annex 1 [partly seen]: 869.4-869.65 MHz, 500 mW e.r.p., 10 % duty.
@@ -139,7 +139,7 @@ def test_adaptive_has_no_medium_utilisation_rule():
     (MW500, 0.10, "pass", "pass"), (MW500, 0.11, "pass", "fail"), (MW500 + 0.1, 0.10, "fail", "pass"),
 ])
 def test_869_4_subband(erp, duty, power, duty_status):
-    f = run("eu-868", erp_system(erp, duty), G_869_4)
+    f = run("erc7003-863-870", erp_system(erp, duty), G_869_4)
     assert (f["erp"].status, f["duty-cycle"].status) == (power, duty_status)
     assert f["erp"].limit == pytest.approx(MW500) and f["duty-cycle"].limit == pytest.approx(0.10)
     assert "869.4-869.65" in f["erp"].message
@@ -151,7 +151,7 @@ def test_869_4_subband(erp, duty, power, duty_status):
     (MW25, 0.01, "pass", "pass"), (MW25, 0.02, "pass", "fail"), (MW25 + 0.1, 0.01, "fail", "pass"),
 ])
 def test_868_0_subband(erp, duty, power, duty_status):
-    f = run("eu-868", erp_system(erp, duty, bw_hz=100 * KHZ), G_868_0)
+    f = run("erc7003-863-870", erp_system(erp, duty, bw_hz=100 * KHZ), G_868_0)
     assert (f["erp"].status, f["duty-cycle"].status) == (power, duty_status)
     assert f["erp"].limit == pytest.approx(MW25) and f["duty-cycle"].limit == pytest.approx(0.01)
     assert f["band-fit"].status == "pass"
@@ -161,7 +161,7 @@ def test_868_0_subband(erp, duty, power, duty_status):
 # 1 % applies whether the set has 2 or 6 channels (not 1 % per channel).
 def test_868_duty_is_not_per_channel():
     for n in (2, 6):
-        f = run("eu-868", erp_system(MW25, 0.012, bw_hz=100 * KHZ), G_868_0[:n])
+        f = run("erc7003-863-870", erp_system(MW25, 0.012, bw_hz=100 * KHZ), G_868_0[:n])
         assert f["duty-cycle"].status == "fail"
         assert f["duty-cycle"].measured == pytest.approx(0.012)
 
@@ -170,27 +170,27 @@ def test_868_duty_is_not_per_channel():
 def test_erp_conversion():
     s = make_system(tx_power_dbm=MW25 + 2.15 - 3.0, antenna_gain_dbi=3.0, bandwidth_hz=100 * KHZ,
                     dwell_s=0.1, packet_airtime_s=0.1, activity_fraction=0.01)
-    f = run("eu-868", s, G_868_0)["erp"]
+    f = run("erc7003-863-870", s, G_868_0)["erp"]
     assert f.status == "pass"  # 16.13 dBm e.i.r.p. is 13.98 dBm (25 mW) e.r.p.
     assert f.measured == pytest.approx(s.eirp_dbm - 2.15)
     over = make_system(tx_power_dbm=MW25 + 2.2, antenna_gain_dbi=0.0, bandwidth_hz=100 * KHZ,
                        dwell_s=0.1, packet_airtime_s=0.1, activity_fraction=0.01)
-    assert run("eu-868", over, G_868_0)["erp"].status == "fail"
+    assert run("erc7003-863-870", over, G_868_0)["erp"].status == "fail"
 
 
 # ERC Rec 70-03 Annex 1 (863-870 MHz band-wide entry: from memory): a set spanning 868.6-869.4 MHz fits
 # no narrower sub-band, so the band-wide 25 mW / 0.1 % applies.
 def test_set_spanning_sub_bands_falls_back_to_band_wide_entry():
     spread = centres(868.1 * MHZ, 200 * KHZ, 8)  # 868.0-869.6 MHz occupied
-    f = run("eu-868", erp_system(MW25, 0.001, bw_hz=200 * KHZ), spread)
+    f = run("erc7003-863-870", erp_system(MW25, 0.001, bw_hz=200 * KHZ), spread)
     assert (f["erp"].status, f["duty-cycle"].status) == ("pass", "pass")
     assert "863-870" in f["duty-cycle"].message
-    assert run("eu-868", erp_system(MW25, 0.01, bw_hz=200 * KHZ), spread)["duty-cycle"].status == "fail"
+    assert run("erc7003-863-870", erp_system(MW25, 0.01, bw_hz=200 * KHZ), spread)["duty-cycle"].status == "fail"
 
 
 # Band fit (common practice) and ERC Rec 70-03: a set reaching outside 863-870 MHz fits no sub-band.
 def test_868_outside_band_fails():
-    f = run("eu-868", erp_system(MW25, 0.001, bw_hz=200 * KHZ), centres(869.5 * MHZ, 200 * KHZ, 4))
+    f = run("erc7003-863-870", erp_system(MW25, 0.001, bw_hz=200 * KHZ), centres(869.5 * MHZ, 200 * KHZ, 4))
     assert f["band-fit"].status == "fail"
     assert f["erp"].status == "fail" and "does not fit" in f["erp"].message
     assert f["duty-cycle"].status == "fail"
@@ -201,11 +201,11 @@ def test_868_outside_band_fails():
 # the checks pick 869.7-870.0 (by duty first) and fail it on its 5 mW limit.
 def test_subband_pick_uses_a_sub_band_the_system_meets():
     s = erp_system(MW25, 0.001, bw_hz=25 * KHZ)
-    f = run("eu-868", s, centres(869.7125 * MHZ, 25 * KHZ, 8))  # 869.700-869.900 MHz occupied
+    f = run("erc7003-863-870", s, centres(869.7125 * MHZ, 25 * KHZ, 8))  # 869.700-869.900 MHz occupied
     assert (f["erp"].status, f["duty-cycle"].status) == ("pass", "pass")
 
 
 # ERC Rec 70-03 Annex 1 (869.7-870.0 MHz, 5 mW, no duty limit: from memory).
 def test_869_7_subband_5mw_without_duty_limit():
-    f = run("eu-868", erp_system(10 * math.log10(5), 1.0), centres(869.7125 * MHZ, 25 * KHZ, 8))
+    f = run("erc7003-863-870", erp_system(10 * math.log10(5), 1.0), centres(869.7125 * MHZ, 25 * KHZ, 8))
     assert (f["erp"].status, f["duty-cycle"].status) == ("pass", "pass")

@@ -19,11 +19,11 @@ from tests.regulatory.findings import centres, run
 KHZ, MHZ = 1e3, 1e6
 # (profile, first centre, spacing, channels, bandwidth) of a compliant grid per profile
 GRIDS = {
-    "us-915": (902.5 * MHZ, 300 * KHZ, 50, 300 * KHZ), "ca-915": (902.5 * MHZ, 300 * KHZ, 50, 300 * KHZ),
-    "us-2400": (2402 * MHZ, 1 * MHZ, 75, 1 * MHZ), "ca-2400": (2402 * MHZ, 1 * MHZ, 75, 1 * MHZ),
-    "us-5800": (5726 * MHZ, 1.5 * MHZ, 75, 1 * MHZ), "ca-5800": (5726 * MHZ, 1.5 * MHZ, 75, 1 * MHZ),
-    "eu-2400-adaptive": (2402 * MHZ, 1 * MHZ, 15, 1 * MHZ), "eu-2400-nonadaptive": (2402 * MHZ, 1 * MHZ, 15, 1 * MHZ),
-    "eu-868": (869.4125 * MHZ, 25 * KHZ, 10, 25 * KHZ),
+    "fcc15.247-902-928": (902.5 * MHZ, 300 * KHZ, 50, 300 * KHZ), "rss247-902-928": (902.5 * MHZ, 300 * KHZ, 50, 300 * KHZ),
+    "fcc15.247-2400-2483.5": (2402 * MHZ, 1 * MHZ, 75, 1 * MHZ), "rss247-2400-2483.5": (2402 * MHZ, 1 * MHZ, 75, 1 * MHZ),
+    "fcc15.247-5725-5850": (5726 * MHZ, 1.5 * MHZ, 75, 1 * MHZ), "rss247-5725-5850": (5726 * MHZ, 1.5 * MHZ, 75, 1 * MHZ),
+    "en300328-2400-2483.5-adaptive": (2402 * MHZ, 1 * MHZ, 15, 1 * MHZ), "en300328-2400-2483.5-nonadaptive": (2402 * MHZ, 1 * MHZ, 15, 1 * MHZ),
+    "erc7003-863-870": (869.4125 * MHZ, 25 * KHZ, 10, 25 * KHZ),
 }
 
 
@@ -48,7 +48,7 @@ def test_no_finding_without_the_declaration(pid):
 # 15.247(c)(1)(i)-(ii): where the declaration relaxes the limit, exclusive fixed point-to-point use cannot be
 # checked here, so the finding is a warning that says so (15.247(c)(1)(iii), from memory: no point-to-multipoint,
 # omnidirectional or co-located transmitters sending the same information).
-@pytest.mark.parametrize("pid, cut", [("us-2400", "2.000 dB"), ("us-5800", "0.000 dB")])
+@pytest.mark.parametrize("pid, cut", [("fcc15.247-2400-2483.5", "2.000 dB"), ("fcc15.247-5725-5850", "0.000 dB")])
 def test_relaxing_declaration_is_a_warning_with_its_reason(pid, cut):
     f = findings(pid, fixed_point_to_point=True)["point-to-point"]
     assert f.status == "warning"
@@ -59,13 +59,13 @@ def test_relaxing_declaration_is_a_warning_with_its_reason(pid, cut):
 
 # Elsewhere the flag does not change the rule, and a finding says so (issue 11 item 4).
 @pytest.mark.parametrize("pid, why", [
-    ("us-915", "only in 2400-2483.5 and 5725-5850 MHz"),  # 15.247(c)(1) [seen quoted]
-    ("ca-915", "RSS-247's point-to-point provisions were not checked"),  # RSS-247 not encoded (from memory)
-    ("ca-2400", "RSS-247's point-to-point provisions were not checked"),
-    ("ca-5800", "RSS-247's point-to-point provisions were not checked"),
-    ("eu-2400-adaptive", "EN 300 328"),  # EN 300 328 V2.2.2 [partly seen]: e.i.r.p. includes the antenna
-    ("eu-2400-nonadaptive", "EN 300 328"),
-    ("eu-868", "ERC Rec 70-03"),  # ERC Rec 70-03 Annex 1 [partly seen]: e.r.p. includes the antenna
+    ("fcc15.247-902-928", "only in 2400-2483.5 and 5725-5850 MHz"),  # 15.247(c)(1) [seen quoted]
+    ("rss247-902-928", "RSS-247's point-to-point provisions were not checked"),  # RSS-247 not encoded (from memory)
+    ("rss247-2400-2483.5", "RSS-247's point-to-point provisions were not checked"),
+    ("rss247-5725-5850", "RSS-247's point-to-point provisions were not checked"),
+    ("en300328-2400-2483.5-adaptive", "EN 300 328"),  # EN 300 328 V2.2.2 [partly seen]: e.i.r.p. includes the antenna
+    ("en300328-2400-2483.5-nonadaptive", "EN 300 328"),
+    ("erc7003-863-870", "ERC Rec 70-03"),  # ERC Rec 70-03 Annex 1 [partly seen]: e.r.p. includes the antenna
 ])
 def test_declaration_without_effect_says_so(pid, why):
     declared, plain = findings(pid, fixed_point_to_point=True), findings(pid)
@@ -76,7 +76,7 @@ def test_declaration_without_effect_says_so(pid, why):
 
 # 15.247(c)(1)(i): at 6 dBi or less there is nothing to relax; the limit is the stated watts.
 def test_2400_point_to_point_at_6_dbi_has_no_reduction():
-    f = findings("us-2400", fixed_point_to_point=True, antenna_gain_dbi=6.0, tx_power_dbm=30.0)
+    f = findings("fcc15.247-2400-2483.5", fixed_point_to_point=True, antenna_gain_dbi=6.0, tx_power_dbm=30.0)
     assert f["power"].status == "pass" and f["power"].limit == pytest.approx(30.0, abs=1e-12)
 
 
@@ -84,8 +84,8 @@ def test_2400_point_to_point_at_6_dbi_has_no_reduction():
 # conducted as fixed point-to-point (9 dB above 6 dBi: 3 dB less) but 21 dBm otherwise (9 dB less).
 def test_2400_point_to_point_allows_the_link_that_dB_for_dB_refuses():
     link = dict(antenna_gain_dbi=15.0, tx_power_dbm=27.0)
-    assert findings("us-2400", fixed_point_to_point=True, **link)["power"].status == "pass"
-    plain = findings("us-2400", **link)["power"]
+    assert findings("fcc15.247-2400-2483.5", fixed_point_to_point=True, **link)["power"].status == "pass"
+    plain = findings("fcc15.247-2400-2483.5", **link)["power"]
     assert plain.status == "fail" and plain.limit == pytest.approx(21.0, abs=1e-12)
 
 
@@ -103,10 +103,10 @@ def test_request_field_loads_and_defaults():
 # End to end: the assessment answer carries the point-to-point finding with its citation and certainty.
 def test_assessment_answer_carries_the_finding():
     body = sites.site([sites.system("link", fixed_point_to_point=True, antenna_gain_dbi=12.0, tx_power_dbm=10.0)],
-                      coupling_loss_db=None, n_channels=75, profile="us-2400", band=None)
+                      coupling_loss_db=None, n_channels=75, profile="fcc15.247-2400-2483.5", band=None)
     reply = create_app({"TESTING": True}).test_client().post("/v1/assessments", json={"site": body})
     assert reply.status_code == 200, reply.get_json()
     found = {f["rule"]: f for f in reply.get_json()["systems"][0]["compliance"]["findings"]}
-    f = found["us-2400.point-to-point"]
+    f = found["fcc15.247-2400-2483.5.point-to-point"]
     assert (f["status"], f["certainty"]) == ("warning", "seen quoted") and "15.247(c)(1)" in f["citation"]
-    assert "fixed point-to-point" in found["us-2400.power"]["message"]
+    assert "fixed point-to-point" in found["fcc15.247-2400-2483.5.power"]["message"]

@@ -35,65 +35,65 @@ def make_system(**kw) -> System:
 #  what the limit bounds). Rule text and certainty beside each.
 CASES = [
     # 47 CFR 15.247(b)(2) [mem, seen quoted]: 902-928 MHz, 1 W with at least 50 hopping channels, 0.25 W with 25-49.
-    ("us-915 1 W", "us-915", "power", G915, 50, {}, 1.0, 0.0, "conducted"),
-    ("us-915 0.25 W, 49 ch", "us-915", "power", G915, 49, {}, 0.25, 0.0, "conducted"),
-    ("us-915 0.25 W, 25 ch", "us-915", "power", G915, 25, {}, 0.25, 0.0, "conducted"),
+    ("fcc15.247-902-928 1 W", "fcc15.247-902-928", "power", G915, 50, {}, 1.0, 0.0, "conducted"),
+    ("fcc15.247-902-928 0.25 W, 49 ch", "fcc15.247-902-928", "power", G915, 49, {}, 0.25, 0.0, "conducted"),
+    ("fcc15.247-902-928 0.25 W, 25 ch", "fcc15.247-902-928", "power", G915, 25, {}, 0.25, 0.0, "conducted"),
     # RSS-247 [mem]: Canada as the US.
-    ("ca-915 1 W", "ca-915", "power", G915, 50, {}, 1.0, 0.0, "conducted"),
-    ("ca-915 0.25 W", "ca-915", "power", G915, 30, {}, 0.25, 0.0, "conducted"),
+    ("rss247-902-928 1 W", "rss247-902-928", "power", G915, 50, {}, 1.0, 0.0, "conducted"),
+    ("rss247-902-928 0.25 W", "rss247-902-928", "power", G915, 30, {}, 0.25, 0.0, "conducted"),
     # 47 CFR 15.247(b)(1) [mem]: 2400-2483.5 MHz, 1 W with at least 75 non-overlapping channels, else 0.125 W.
-    ("us-2400 1 W", "us-2400", "power", G2400, 75, dict(bandwidth_hz=1 * MHZ), 1.0, 0.0, "conducted"),
-    ("us-2400 0.125 W", "us-2400", "power", G2400, 74, dict(bandwidth_hz=1 * MHZ), 0.125, 0.0, "conducted"),
-    ("ca-2400 1 W", "ca-2400", "power", G2400, 75, dict(bandwidth_hz=1 * MHZ), 1.0, 0.0, "conducted"),
-    ("ca-2400 0.125 W", "ca-2400", "power", G2400, 20, dict(bandwidth_hz=1 * MHZ), 0.125, 0.0, "conducted"),
+    ("fcc15.247-2400-2483.5 1 W", "fcc15.247-2400-2483.5", "power", G2400, 75, dict(bandwidth_hz=1 * MHZ), 1.0, 0.0, "conducted"),
+    ("fcc15.247-2400-2483.5 0.125 W", "fcc15.247-2400-2483.5", "power", G2400, 74, dict(bandwidth_hz=1 * MHZ), 0.125, 0.0, "conducted"),
+    ("rss247-2400-2483.5 1 W", "rss247-2400-2483.5", "power", G2400, 75, dict(bandwidth_hz=1 * MHZ), 1.0, 0.0, "conducted"),
+    ("rss247-2400-2483.5 0.125 W", "rss247-2400-2483.5", "power", G2400, 20, dict(bandwidth_hz=1 * MHZ), 0.125, 0.0, "conducted"),
     # 47 CFR 15.247(b)(1) [mem, seen quoted]: 5725-5850 MHz, 1 W.
-    ("us-5800 1 W", "us-5800", "power", G5800, 75, dict(bandwidth_hz=1 * MHZ), 1.0, 0.0, "conducted"),
-    ("ca-5800 1 W", "ca-5800", "power", G5800, 75, dict(bandwidth_hz=1 * MHZ), 1.0, 0.0, "conducted"),
+    ("fcc15.247-5725-5850 1 W", "fcc15.247-5725-5850", "power", G5800, 75, dict(bandwidth_hz=1 * MHZ), 1.0, 0.0, "conducted"),
+    ("rss247-5725-5850 1 W", "rss247-5725-5850", "power", G5800, 75, dict(bandwidth_hz=1 * MHZ), 1.0, 0.0, "conducted"),
     # 47 CFR 15.247(b)(4) [mem, seen quoted]: above 6 dBi the conducted limit falls by the dB above 6 dBi.
-    ("us-915 1 W, 9 dBi", "us-915", "power", G915, 50, dict(antenna_gain_dbi=9.0), 1.0, 3.0, "conducted"),
-    ("us-915 0.25 W, 7.5 dBi", "us-915", "power", G915, 30, dict(antenna_gain_dbi=7.5), 0.25, 1.5, "conducted"),
-    ("us-2400 0.125 W, 9 dBi", "us-2400", "power", G2400, 20, dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=9.0),
+    ("fcc15.247-902-928 1 W, 9 dBi", "fcc15.247-902-928", "power", G915, 50, dict(antenna_gain_dbi=9.0), 1.0, 3.0, "conducted"),
+    ("fcc15.247-902-928 0.25 W, 7.5 dBi", "fcc15.247-902-928", "power", G915, 30, dict(antenna_gain_dbi=7.5), 0.25, 1.5, "conducted"),
+    ("fcc15.247-2400-2483.5 0.125 W, 9 dBi", "fcc15.247-2400-2483.5", "power", G2400, 20, dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=9.0),
      0.125, 3.0, "conducted"),
-    ("us-5800 1 W, 14 dBi", "us-5800", "power", G5800, 75, dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=14.0),
+    ("fcc15.247-5725-5850 1 W, 14 dBi", "fcc15.247-5725-5850", "power", G5800, 75, dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=14.0),
      1.0, 8.0, "conducted"),
-    ("ca-2400 1 W, 10 dBi", "ca-2400", "power", G2400, 75, dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=10.0),
+    ("rss247-2400-2483.5 1 W, 10 dBi", "rss247-2400-2483.5", "power", G2400, 75, dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=10.0),
      1.0, 4.0, "conducted"),
     # 47 CFR 15.247(b)(4): 6 dBi itself is not above 6 dBi.
-    ("us-915 1 W, 6 dBi", "us-915", "power", G915, 50, dict(antenna_gain_dbi=6.0), 1.0, 0.0, "conducted"),
+    ("fcc15.247-902-928 1 W, 6 dBi", "fcc15.247-902-928", "power", G915, 50, dict(antenna_gain_dbi=6.0), 1.0, 0.0, "conducted"),
     # 47 CFR 15.247(c)(1)(i) [mem, seen quoted; check]: fixed point-to-point at 2400-2483.5 MHz, 1 dB less per
     # 3 dB of gain above 6 dBi (read proportionally).
-    ("us-2400 p2p 1 W, 12 dBi", "us-2400", "power", G2400, 75,
+    ("fcc15.247-2400-2483.5 p2p 1 W, 12 dBi", "fcc15.247-2400-2483.5", "power", G2400, 75,
      dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=12.0, fixed_point_to_point=True), 1.0, 2.0, "conducted"),
-    ("us-2400 p2p 0.125 W, 24 dBi", "us-2400", "power", G2400, 20,
+    ("fcc15.247-2400-2483.5 p2p 0.125 W, 24 dBi", "fcc15.247-2400-2483.5", "power", G2400, 20,
      dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=24.0, fixed_point_to_point=True), 0.125, 6.0, "conducted"),
-    ("us-2400 p2p 1 W, 7.5 dBi", "us-2400", "power", G2400, 75,
+    ("fcc15.247-2400-2483.5 p2p 1 W, 7.5 dBi", "fcc15.247-2400-2483.5", "power", G2400, 75,
      dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=7.5, fixed_point_to_point=True), 1.0, 0.5, "conducted"),
     # 47 CFR 15.247(c)(1)(ii) [mem, seen quoted; check]: fixed point-to-point at 5725-5850 MHz, no reduction.
-    ("us-5800 p2p 1 W, 23 dBi", "us-5800", "power", G5800, 75,
+    ("fcc15.247-5725-5850 p2p 1 W, 23 dBi", "fcc15.247-5725-5850", "power", G5800, 75,
      dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=23.0, fixed_point_to_point=True), 1.0, 0.0, "conducted"),
     # 15.247(c)(1) has no 902-928 MHz provision: the declaration leaves (b)(4)'s dB for dB.
-    ("us-915 p2p 1 W, 9 dBi", "us-915", "power", G915, 50,
+    ("fcc15.247-902-928 p2p 1 W, 9 dBi", "fcc15.247-902-928", "power", G915, 50,
      dict(antenna_gain_dbi=9.0, fixed_point_to_point=True), 1.0, 3.0, "conducted"),
     # RSS-247's point-to-point provisions are not encoded: Canada keeps dB for dB.
-    ("ca-2400 p2p 1 W, 12 dBi", "ca-2400", "power", G2400, 75,
+    ("rss247-2400-2483.5 p2p 1 W, 12 dBi", "rss247-2400-2483.5", "power", G2400, 75,
      dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=12.0, fixed_point_to_point=True), 1.0, 6.0, "conducted"),
-    ("ca-5800 p2p 1 W, 12 dBi", "ca-5800", "power", G5800, 75,
+    ("rss247-5725-5850 p2p 1 W, 12 dBi", "rss247-5725-5850", "power", G5800, 75,
      dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=12.0, fixed_point_to_point=True), 1.0, 6.0, "conducted"),
     # RSS-247 [mem]: 902-928 MHz e.i.r.p. caps, 4 W with at least 50 channels, 1 W with 25-49.
-    ("ca-915 e.i.r.p. 4 W", "ca-915", "eirp", G915, 50, dict(antenna_gain_dbi=6.0), 4.0, 0.0, "eirp"),
-    ("ca-915 e.i.r.p. 1 W", "ca-915", "eirp", G915, 25, dict(antenna_gain_dbi=3.0), 1.0, 0.0, "eirp"),
+    ("rss247-902-928 e.i.r.p. 4 W", "rss247-902-928", "eirp", G915, 50, dict(antenna_gain_dbi=6.0), 4.0, 0.0, "eirp"),
+    ("rss247-902-928 e.i.r.p. 1 W", "rss247-902-928", "eirp", G915, 25, dict(antenna_gain_dbi=3.0), 1.0, 0.0, "eirp"),
     # ETSI EN 300 328 V2.2.2 [partly seen]: 20 dBm (100 mW) e.i.r.p., adaptive or not.
-    ("eu-2400 adaptive 100 mW", "eu-2400-adaptive", "eirp", G2400, 15, dict(bandwidth_hz=1 * MHZ,
+    ("en300328-2400-2483.5 adaptive 100 mW", "en300328-2400-2483.5-adaptive", "eirp", G2400, 15, dict(bandwidth_hz=1 * MHZ,
                                                                             antenna_gain_dbi=3.0), 0.1, 0.0, "eirp"),
-    ("eu-2400 non-adaptive 100 mW", "eu-2400-nonadaptive", "eirp", G2400, 15,
+    ("en300328-2400-2483.5 non-adaptive 100 mW", "en300328-2400-2483.5-nonadaptive", "eirp", G2400, 15,
      dict(bandwidth_hz=1 * MHZ, antenna_gain_dbi=3.0), 0.1, 0.0, "eirp"),
     # CEPT ERC Rec 70-03 Annex 1: 868.0-868.6 MHz 25 mW [partly seen]; 869.4-869.65 MHz 500 mW [partly seen];
     # 869.7-870.0 MHz 5 mW [from memory]; e.r.p.
-    ("eu-868 868.0 25 mW", "eu-868", "erp", (868.05 * MHZ, 100 * KHZ), 6, dict(bandwidth_hz=100 * KHZ), 0.025, 0.0,
+    ("erc7003-863-870 868.0 25 mW", "erc7003-863-870", "erp", (868.05 * MHZ, 100 * KHZ), 6, dict(bandwidth_hz=100 * KHZ), 0.025, 0.0,
      "erp"),
-    ("eu-868 869.4 500 mW", "eu-868", "erp", (869.4125 * MHZ, 25 * KHZ), 10,
+    ("erc7003-863-870 869.4 500 mW", "erc7003-863-870", "erp", (869.4125 * MHZ, 25 * KHZ), 10,
      dict(bandwidth_hz=25 * KHZ, activity_fraction=0.1, dwell_s=0.1, packet_airtime_s=0.1), 0.5, 0.0, "erp"),
-    ("eu-868 869.7 5 mW", "eu-868", "erp", (869.7125 * MHZ, 25 * KHZ), 8,
+    ("erc7003-863-870 869.7 5 mW", "erc7003-863-870", "erp", (869.7125 * MHZ, 25 * KHZ), 8,
      dict(bandwidth_hz=25 * KHZ, activity_fraction=1.0, antenna_gain_dbi=2.0), 0.005, 0.0, "erp"),
 ]
 
@@ -117,11 +117,11 @@ def test_limit_at_its_boundary(case, ratio, expected):
 
 # The rounded levels a user might type for a limit: each is above the stated watts and must fail.
 @pytest.mark.parametrize("pid, key, grid, n, kw, typed_dbm", [
-    ("us-915", "power", G915, 30, {}, 24.0),      # 15.247(b)(2): 0.25 W = 23.979 dBm; 24 dBm = 251.2 mW
-    ("us-915", "power", G915, 30, {}, 23.99),     # 250.6 mW (issue 11)
-    ("us-2400", "power", G2400, 20, dict(bandwidth_hz=1 * MHZ), 21.0),   # 15.247(b)(1): 0.125 W = 20.969 dBm
-    ("us-2400", "power", G2400, 20, dict(bandwidth_hz=1 * MHZ), 20.97),  # 125.03 mW
-    ("ca-915", "eirp", G915, 50, {}, 36.03),      # RSS-247: 4 W = 36.021 dBm; 36.03 dBm = 4.009 W
+    ("fcc15.247-902-928", "power", G915, 30, {}, 24.0),      # 15.247(b)(2): 0.25 W = 23.979 dBm; 24 dBm = 251.2 mW
+    ("fcc15.247-902-928", "power", G915, 30, {}, 23.99),     # 250.6 mW (issue 11)
+    ("fcc15.247-2400-2483.5", "power", G2400, 20, dict(bandwidth_hz=1 * MHZ), 21.0),   # 15.247(b)(1): 0.125 W = 20.969 dBm
+    ("fcc15.247-2400-2483.5", "power", G2400, 20, dict(bandwidth_hz=1 * MHZ), 20.97),  # 125.03 mW
+    ("rss247-902-928", "eirp", G915, 50, {}, 36.03),      # RSS-247: 4 W = 36.021 dBm; 36.03 dBm = 4.009 W
 ])
 def test_rounded_dbm_above_the_watts_fails(pid, key, grid, n, kw, typed_dbm):
     f = run(pid, make_system(**dict(kw, tx_power_dbm=typed_dbm)), centres(*grid, n))[key]
@@ -130,17 +130,17 @@ def test_rounded_dbm_above_the_watts_fails(pid, key, grid, n, kw, typed_dbm):
 
 # The message shows why a level fails (issue 11: "18.0 dBm conducted, at most 18.0 dBm -> fail").
 def test_messages_show_the_difference():
-    f = run("us-915", make_system(tx_power_dbm=23.99), centres(*G915, 30))["power"]
+    f = run("fcc15.247-902-928", make_system(tx_power_dbm=23.99), centres(*G915, 30))["power"]
     assert f.message.startswith("23.990 dBm (250.6 mW) conducted, at most 23.979 dBm (250 mW")
     # 15.247(b)(1) 0.125 W less 3 dB for a 9 dBi antenna (15.247(b)(4)): 17.969 dBm, 62.65 mW.
-    f = run("us-2400", make_system(tx_power_dbm=18.0, antenna_gain_dbi=9.0, bandwidth_hz=1 * MHZ),
+    f = run("fcc15.247-2400-2483.5", make_system(tx_power_dbm=18.0, antenna_gain_dbi=9.0, bandwidth_hz=1 * MHZ),
             centres(*G2400, 20))["power"]
     assert f.status == "fail"
     assert f.message.startswith("18.000 dBm (63.1 mW) conducted, at most 17.969 dBm (62.65 mW")
     assert "0.125 W" in f.message and "15.247(b)(4)" in f.message
     # A level a hair above the limit prints with as many digits as it takes to differ.
     hair = dbm(0.25) + 1e-7
-    f = run("us-915", make_system(tx_power_dbm=hair), centres(*G915, 30))["power"]
+    f = run("fcc15.247-902-928", make_system(tx_power_dbm=hair), centres(*G915, 30))["power"]
     measured, limit = f.message.split(" conducted, at most ")
     assert f.status == "fail" and measured.split(" dBm")[0] != limit.split(" dBm")[0]
     assert float(measured.split(" dBm")[0]) > float(limit.split(" dBm")[0])
@@ -150,7 +150,7 @@ def test_messages_show_the_difference():
 @pytest.mark.parametrize("ratio, expected", [(1 - 1e-6, "pass"), (1.0, "pass"), (1 + 1e-6, "fail")])
 def test_two_thirds_separation_at_125_mw(ratio, expected):
     s = make_system(bandwidth_hz=1 * MHZ, tx_power_dbm=dbm(0.125 * ratio))
-    f = run("us-2400", s, centres(2402 * MHZ, 1 * MHZ * 2 / 3, 20))["separation"]
+    f = run("fcc15.247-2400-2483.5", s, centres(2402 * MHZ, 1 * MHZ * 2 / 3, 20))["separation"]
     assert f.status == expected, f.message
 
 
@@ -159,7 +159,7 @@ def test_two_thirds_separation_at_125_mw(ratio, expected):
 def test_medium_utilisation_boundary_in_milliwatts(ratio, expected):
     s = make_system(bandwidth_hz=1 * MHZ, tx_power_dbm=dbm(0.05 * ratio), activity_fraction=0.2,
                     dwell_s=0.005, packet_airtime_s=0.005)  # 50 mW at 20 %: 10 %
-    f = run("eu-2400-nonadaptive", s, centres(*G2400, 15))["medium-utilisation"]
+    f = run("en300328-2400-2483.5-nonadaptive", s, centres(*G2400, 15))["medium-utilisation"]
     assert f.status == expected, f.message
 
 

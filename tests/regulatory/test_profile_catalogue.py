@@ -13,24 +13,24 @@ from cohop.site import Band, System
 
 MHZ = 1e6
 CERTAINTIES = {"published", "seen quoted", "partly seen", "from memory", "common practice"}
-US = ["us-915", "us-2400", "us-5800"]
-CA = ["ca-915", "ca-2400", "ca-5800"]
-EU = ["eu-2400-adaptive", "eu-2400-nonadaptive", "eu-868"]
+US = ["fcc15.247-902-928", "fcc15.247-2400-2483.5", "fcc15.247-5725-5850"]
+CA = ["rss247-902-928", "rss247-2400-2483.5", "rss247-5725-5850"]
+EU = ["en300328-2400-2483.5-adaptive", "en300328-2400-2483.5-nonadaptive", "erc7003-863-870"]
 REGULATED = US + CA + EU
 
 # Band edges from the rule table: 902-928 MHz (15.247(a)(1)(i)), 2400-2483.5 MHz (15.247(a)(1)(iii),
 # EN 300 328), 5725-5850 MHz (15.247, from memory), 863-870 MHz (ERC Rec 70-03 Annex 1).
 EDGES_MHZ = {
-    "us-915": (902, 928), "ca-915": (902, 928),
-    "us-2400": (2400, 2483.5), "ca-2400": (2400, 2483.5),
-    "us-5800": (5725, 5850), "ca-5800": (5725, 5850),
-    "eu-2400-adaptive": (2400, 2483.5), "eu-2400-nonadaptive": (2400, 2483.5),
-    "eu-868": (863, 870),
+    "fcc15.247-902-928": (902, 928), "rss247-902-928": (902, 928),
+    "fcc15.247-2400-2483.5": (2400, 2483.5), "rss247-2400-2483.5": (2400, 2483.5),
+    "fcc15.247-5725-5850": (5725, 5850), "rss247-5725-5850": (5725, 5850),
+    "en300328-2400-2483.5-adaptive": (2400, 2483.5), "en300328-2400-2483.5-nonadaptive": (2400, 2483.5),
+    "erc7003-863-870": (863, 870),
 }
 
 
 def suffixes(pid: str) -> set[str]:
-    return {r.id.split(".", 1)[1] for r in PROFILES[pid].rules}
+    return {r.kind for r in PROFILES[pid].rules}
 
 
 def rule(pid: str, suffix: str):
@@ -75,7 +75,7 @@ def test_every_rule_has_citation_and_certainty(pid):
 def test_coordination_caution(pid):
     p = PROFILES[pid]
     assert p.coordination_caution is (p.region in ("US", "CA"))
-    assert p.region == {"us": "US", "ca": "CA", "eu": "EU"}[pid[:2]]
+    assert p.region == {"fcc15.247": "US", "rss247": "CA", "en300328": "EU", "erc7003": "EU"}[pid.split("-")[0]]
 
 
 # Which rules each profile encodes, per the rule table.
@@ -85,15 +85,15 @@ P2P = "point-to-point"
 
 
 @pytest.mark.parametrize("pid, expected", [
-    ("us-915", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", P2P}),
-    ("ca-915", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", "eirp", P2P}),
-    ("us-2400", {"band-fit", "channels", "separation", "occupancy", "power", "sequence", P2P}),
-    ("ca-2400", {"band-fit", "channels", "separation", "occupancy", "power", "sequence", P2P}),
-    ("us-5800", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", P2P}),
-    ("ca-5800", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", P2P}),
-    ("eu-2400-nonadaptive", {"band-fit", "channels", "separation", "occupancy", "eirp", "medium-utilisation", P2P}),
-    ("eu-2400-adaptive", {"band-fit", "channels", "separation", "occupancy", "eirp", P2P}),
-    ("eu-868", {"band-fit", "erp", "duty-cycle", "fhss", P2P}),
+    ("fcc15.247-902-928", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", P2P}),
+    ("rss247-902-928", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", "eirp", P2P}),
+    ("fcc15.247-2400-2483.5", {"band-fit", "channels", "separation", "occupancy", "power", "sequence", P2P}),
+    ("rss247-2400-2483.5", {"band-fit", "channels", "separation", "occupancy", "power", "sequence", P2P}),
+    ("fcc15.247-5725-5850", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", P2P}),
+    ("rss247-5725-5850", {"band-fit", "channels", "bandwidth", "separation", "occupancy", "power", "sequence", P2P}),
+    ("en300328-2400-2483.5-nonadaptive", {"band-fit", "channels", "separation", "occupancy", "eirp", "medium-utilisation", P2P}),
+    ("en300328-2400-2483.5-adaptive", {"band-fit", "channels", "separation", "occupancy", "eirp", P2P}),
+    ("erc7003-863-870", {"band-fit", "erp", "duty-cycle", "fhss", P2P}),
     ("custom", {"band-fit"}),
 ])
 def test_rule_sets(pid, expected):
@@ -102,13 +102,13 @@ def test_rule_sets(pid, expected):
 
 # 47 CFR 15.247 paragraphs named in the rule table.
 @pytest.mark.parametrize("pid, suffix, paragraph", [
-    ("us-915", "channels", "15.247(a)(1)(i)"), ("us-915", "bandwidth", "15.247(a)(1)(i)"),
-    ("us-915", "occupancy", "15.247(a)(1)(i)"), ("us-915", "separation", "15.247(a)(1)"),
-    ("us-915", "power", "15.247(b)(2)"), ("us-915", "power", "(b)(4)"), ("us-915", "sequence", "15.247(a)(1)"),
-    ("us-2400", "channels", "15.247(a)(1)(iii)"), ("us-2400", "occupancy", "15.247(a)(1)(iii)"),
-    ("us-2400", "power", "15.247(b)(1)"), ("us-2400", "power", "(b)(4)"), ("us-5800", "power", "(b)(4)"),
-    ("us-2400", "power", "(c)(1)(i)"), ("us-5800", "power", "(c)(1)(ii)"),
-    ("us-915", P2P, "15.247(c)(1)"), ("us-2400", P2P, "15.247(c)(1)(i)"), ("us-5800", P2P, "15.247(c)(1)(ii)"),
+    ("fcc15.247-902-928", "channels", "15.247(a)(1)(i)"), ("fcc15.247-902-928", "bandwidth", "15.247(a)(1)(i)"),
+    ("fcc15.247-902-928", "occupancy", "15.247(a)(1)(i)"), ("fcc15.247-902-928", "separation", "15.247(a)(1)"),
+    ("fcc15.247-902-928", "power", "15.247(b)(2)"), ("fcc15.247-902-928", "power", "(b)(4)"), ("fcc15.247-902-928", "sequence", "15.247(a)(1)"),
+    ("fcc15.247-2400-2483.5", "channels", "15.247(a)(1)(iii)"), ("fcc15.247-2400-2483.5", "occupancy", "15.247(a)(1)(iii)"),
+    ("fcc15.247-2400-2483.5", "power", "15.247(b)(1)"), ("fcc15.247-2400-2483.5", "power", "(b)(4)"), ("fcc15.247-5725-5850", "power", "(b)(4)"),
+    ("fcc15.247-2400-2483.5", "power", "(c)(1)(i)"), ("fcc15.247-5725-5850", "power", "(c)(1)(ii)"),
+    ("fcc15.247-902-928", P2P, "15.247(c)(1)"), ("fcc15.247-2400-2483.5", P2P, "15.247(c)(1)(i)"), ("fcc15.247-5725-5850", P2P, "15.247(c)(1)(ii)"),
 ])
 def test_us_citations(pid, suffix, paragraph):
     assert paragraph in rule(pid, suffix).citation
@@ -116,15 +116,15 @@ def test_us_citations(pid, suffix, paragraph):
 
 # Certainty column of the rule table for the US profiles.
 @pytest.mark.parametrize("pid, suffix, certainty", [
-    ("us-915", "channels", "published"), ("us-915", "bandwidth", "published"),
-    ("us-915", "occupancy", "published"), ("us-915", "separation", "published"),
-    ("us-915", "power", "seen quoted"),
-    ("us-2400", "channels", "published"), ("us-2400", "occupancy", "published"),
-    ("us-2400", "separation", "published"), ("us-2400", "power", "from memory"),
-    ("us-5800", "channels", "from memory"), ("us-5800", "bandwidth", "from memory"),
-    ("us-5800", "occupancy", "from memory"), ("us-5800", "power", "from memory"),
+    ("fcc15.247-902-928", "channels", "published"), ("fcc15.247-902-928", "bandwidth", "published"),
+    ("fcc15.247-902-928", "occupancy", "published"), ("fcc15.247-902-928", "separation", "published"),
+    ("fcc15.247-902-928", "power", "seen quoted"),
+    ("fcc15.247-2400-2483.5", "channels", "published"), ("fcc15.247-2400-2483.5", "occupancy", "published"),
+    ("fcc15.247-2400-2483.5", "separation", "published"), ("fcc15.247-2400-2483.5", "power", "from memory"),
+    ("fcc15.247-5725-5850", "channels", "from memory"), ("fcc15.247-5725-5850", "bandwidth", "from memory"),
+    ("fcc15.247-5725-5850", "occupancy", "from memory"), ("fcc15.247-5725-5850", "power", "from memory"),
     # 15.247(c)(1) fixed point-to-point [mem, seen quoted; check]
-    ("us-915", P2P, "seen quoted"), ("us-2400", P2P, "seen quoted"), ("us-5800", P2P, "seen quoted"),
+    ("fcc15.247-902-928", P2P, "seen quoted"), ("fcc15.247-2400-2483.5", P2P, "seen quoted"), ("fcc15.247-5725-5850", P2P, "seen quoted"),
 ])
 def test_us_certainties(pid, suffix, certainty):
     assert rule(pid, suffix).certainty == certainty
@@ -135,7 +135,7 @@ def test_us_certainties(pid, suffix, certainty):
 @pytest.mark.parametrize("pid", CA)
 def test_canadian_numeric_rules_from_memory(pid):
     for r in PROFILES[pid].rules:
-        if r.id.split(".", 1)[1] in {"channels", "bandwidth", "occupancy", "power", "eirp"}:
+        if r.kind in {"channels", "bandwidth", "occupancy", "power", "eirp"}:
             assert r.certainty == "from memory" and "RSS-247" in r.citation, r.id
 
 
@@ -153,10 +153,10 @@ def test_every_canadian_rule_from_memory_and_cites_rss247(pid):
 @pytest.mark.parametrize("pid", EU)
 def test_eu_citations_and_certainties(pid):
     for r in PROFILES[pid].rules:
-        suffix = r.id.split(".", 1)[1]
+        suffix = r.kind
         if suffix == "band-fit":
             continue
-        if pid.startswith("eu-2400"):
+        if pid.startswith("en300328-2400-2483.5"):
             assert "EN 300 328" in r.citation and "V2.2.2" in r.citation
         elif suffix == "fhss":
             assert "EN 300 220-2" in r.citation

@@ -25,12 +25,12 @@ def make_system(**kw) -> System:
 
 # One compliant set per profile: (system overrides, first centre, spacing, count).
 COMPLIANT = {
-    "us-915": (dict(bandwidth_hz=150 * KHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 902.5 * MHZ, 200 * KHZ, 50),
-    "ca-915": (dict(bandwidth_hz=150 * KHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 902.5 * MHZ, 200 * KHZ, 50),
-    "us-2400": (dict(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 2402 * MHZ, 1 * MHZ, 75),
-    "ca-2400": (dict(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 2402 * MHZ, 1 * MHZ, 75),
-    "us-5800": (dict(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 5726 * MHZ, 1.5 * MHZ, 75),
-    "ca-5800": (dict(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 5726 * MHZ, 1.5 * MHZ, 75),
+    "fcc15.247-902-928": (dict(bandwidth_hz=150 * KHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 902.5 * MHZ, 200 * KHZ, 50),
+    "rss247-902-928": (dict(bandwidth_hz=150 * KHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 902.5 * MHZ, 200 * KHZ, 50),
+    "fcc15.247-2400-2483.5": (dict(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 2402 * MHZ, 1 * MHZ, 75),
+    "rss247-2400-2483.5": (dict(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 2402 * MHZ, 1 * MHZ, 75),
+    "fcc15.247-5725-5850": (dict(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 5726 * MHZ, 1.5 * MHZ, 75),
+    "rss247-5725-5850": (dict(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0, antenna_gain_dbi=6.0), 5726 * MHZ, 1.5 * MHZ, 75),
 }
 
 
@@ -53,7 +53,7 @@ def test_sequence_rule_is_a_not_checked_warning(pid):
 
 # 47 CFR 15.247(a)(1)(i) [published]: below 250 kHz 20 dB BW, at least 50 channels.
 # Canada: RSS-247, as the US (from memory).
-@pytest.mark.parametrize("pid", ["us-915", "ca-915"])
+@pytest.mark.parametrize("pid", ["fcc15.247-902-928", "rss247-902-928"])
 @pytest.mark.parametrize("n, expected", [(50, "pass"), (49, "fail")])
 def test_915_150khz_needs_50_channels(pid, n, expected):
     f = run(pid, make_system(bandwidth_hz=150 * KHZ), centres(902.5 * MHZ, 200 * KHZ, n))
@@ -62,7 +62,7 @@ def test_915_150khz_needs_50_channels(pid, n, expected):
 
 
 # 47 CFR 15.247(a)(1)(i) [published]: 250-500 kHz 20 dB BW, at least 25 channels.
-@pytest.mark.parametrize("pid", ["us-915", "ca-915"])
+@pytest.mark.parametrize("pid", ["fcc15.247-902-928", "rss247-902-928"])
 @pytest.mark.parametrize("n, expected", [(25, "pass"), (24, "fail")])
 def test_915_300khz_needs_25_channels(pid, n, expected):
     f = run(pid, make_system(bandwidth_hz=300 * KHZ), centres(902.5 * MHZ, 300 * KHZ, n))
@@ -72,10 +72,10 @@ def test_915_300khz_needs_25_channels(pid, n, expected):
 
 # 47 CFR 15.247(a)(1)(i) [published]: "below 250 kHz" -> 50 channels and 20 s; 250 kHz itself -> 25 and 10 s.
 def test_915_250khz_boundary_switches_count_and_window():
-    at = run("us-915", make_system(bandwidth_hz=250 * KHZ), centres(902.5 * MHZ, 250 * KHZ, 25))
+    at = run("fcc15.247-902-928", make_system(bandwidth_hz=250 * KHZ), centres(902.5 * MHZ, 250 * KHZ, 25))
     assert (at["channels"].status, at["channels"].limit) == ("pass", 25)
     assert at["occupancy"].status == "pass"  # period 25 x 0.4 s = 10 s window: 0.4 s
-    below = run("us-915", make_system(bandwidth_hz=249.999 * KHZ), centres(902.5 * MHZ, 250 * KHZ, 25))
+    below = run("fcc15.247-902-928", make_system(bandwidth_hz=249.999 * KHZ), centres(902.5 * MHZ, 250 * KHZ, 25))
     assert (below["channels"].status, below["channels"].limit) == ("fail", 50)
     assert below["occupancy"].status == "fail"  # 20 s window over a 10 s period: 0.8 s
     assert below["occupancy"].measured == pytest.approx(0.8)
@@ -83,15 +83,15 @@ def test_915_250khz_boundary_switches_count_and_window():
 
 # 47 CFR 15.247(a)(1)(i) [published]: 20 dB BW at most 500 kHz; no channel count allows more.
 def test_915_600khz_fails_bandwidth_and_channel_count():
-    f = run("us-915", make_system(bandwidth_hz=600 * KHZ), centres(902.5 * MHZ, 600 * KHZ, 40))
+    f = run("fcc15.247-902-928", make_system(bandwidth_hz=600 * KHZ), centres(902.5 * MHZ, 600 * KHZ, 40))
     assert f["bandwidth"].status == "fail"
     assert f["channels"].status == "fail"
-    ok = run("us-915", make_system(bandwidth_hz=500 * KHZ), centres(902.5 * MHZ, 500 * KHZ, 25))
+    ok = run("fcc15.247-902-928", make_system(bandwidth_hz=500 * KHZ), centres(902.5 * MHZ, 500 * KHZ, 25))
     assert ok["bandwidth"].status == "pass" and ok["channels"].status == "pass"
 
 
 # 47 CFR 15.247(a)(1) [published]: separation >= max(25 kHz, 20 dB bandwidth).
-@pytest.mark.parametrize("pid", ["us-915", "us-5800", "ca-915"])
+@pytest.mark.parametrize("pid", ["fcc15.247-902-928", "fcc15.247-5725-5850", "rss247-902-928"])
 def test_separation_equal_to_bandwidth_passes_one_hz_less_fails(pid):
     bw = 150 * KHZ if "915" in pid else 1 * MHZ
     first = PROFILES[pid].band.low_hz + bw
@@ -102,13 +102,13 @@ def test_separation_equal_to_bandwidth_passes_one_hz_less_fails(pid):
 # 47 CFR 15.247(a)(1) [published]: the 25 kHz floor applies to narrow channels.
 def test_separation_25khz_floor():
     s = make_system(bandwidth_hz=20 * KHZ)
-    assert run("us-915", s, centres(903 * MHZ, 25 * KHZ, 60))["separation"].status == "pass"
-    f = run("us-915", s, centres(903 * MHZ, 24.999 * KHZ, 60))["separation"]
+    assert run("fcc15.247-902-928", s, centres(903 * MHZ, 25 * KHZ, 60))["separation"].status == "pass"
+    f = run("fcc15.247-902-928", s, centres(903 * MHZ, 24.999 * KHZ, 60))["separation"]
     assert f.status == "fail" and f.limit == pytest.approx(25 * KHZ)
 
 
 # 47 CFR 15.247(a)(1) [published]: in 2400-2483.5 MHz at <= 125 mW, >= max(25 kHz, 2/3 of the 20 dB BW).
-@pytest.mark.parametrize("pid", ["us-2400", "ca-2400"])
+@pytest.mark.parametrize("pid", ["fcc15.247-2400-2483.5", "rss247-2400-2483.5"])
 def test_two_thirds_rule_at_2400_depends_on_power(pid):
     bw = 1 * MHZ
     two_thirds = bw * 2 / 3
@@ -125,11 +125,11 @@ def test_two_thirds_rule_at_2400_depends_on_power(pid):
 # 47 CFR 15.247(a)(1) [published]: the 2/3 relaxation is for 2400-2483.5 MHz only.
 def test_two_thirds_rule_not_applied_at_915():
     s = make_system(bandwidth_hz=150 * KHZ, tx_power_dbm=10.0)
-    assert run("us-915", s, centres(903 * MHZ, 100 * KHZ, 50))["separation"].status == "fail"
+    assert run("fcc15.247-902-928", s, centres(903 * MHZ, 100 * KHZ, 50))["separation"].status == "fail"
 
 
 # 47 CFR 15.247(b)(2) [seen quoted]: 1 W with >= 50 channels, 0.25 W (23.979 dBm, not 24) with 25-49.
-@pytest.mark.parametrize("pid", ["us-915", "ca-915"])
+@pytest.mark.parametrize("pid", ["fcc15.247-902-928", "rss247-902-928"])
 def test_915_power_depends_on_channel_count(pid):
     quarter_watt_dbm = 10 * math.log10(250)
     s30 = make_system(bandwidth_hz=300 * KHZ, tx_power_dbm=30.0)
@@ -153,7 +153,7 @@ def test_antenna_gain_above_6dbi_reduces_power_limit(pid):
 
 
 # 47 CFR 15.247(b)(1) [from memory]: 1 W needs >= 75 non-overlapping channels, else 0.125 W (20.969 dBm).
-@pytest.mark.parametrize("pid", ["us-2400", "ca-2400"])
+@pytest.mark.parametrize("pid", ["fcc15.247-2400-2483.5", "rss247-2400-2483.5"])
 def test_2400_one_watt_needs_75_channels(pid):
     s30 = make_system(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0)
     assert run(pid, s30, centres(2402 * MHZ, 1 * MHZ, 75))["power"].status == "pass"
@@ -166,12 +166,12 @@ def test_2400_one_watt_needs_75_channels(pid):
 # 47 CFR 15.247(b)(1) [from memory]: overlapping channels (2/3 spacing) do not count toward the 75.
 def test_2400_overlapping_channels_do_not_earn_one_watt():
     s = make_system(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0)
-    f = run("us-2400", s, centres(2402 * MHZ, 0.7 * MHZ, 100))["power"]
+    f = run("fcc15.247-2400-2483.5", s, centres(2402 * MHZ, 0.7 * MHZ, 100))["power"]
     assert f.status == "fail" and f.limit == pytest.approx(10 * math.log10(125), abs=1e-12)
 
 
 # 47 CFR 15.247(a)(1)(iii) [published]: at least 15 channels in 2400-2483.5 MHz.
-@pytest.mark.parametrize("pid", ["us-2400", "ca-2400"])
+@pytest.mark.parametrize("pid", ["fcc15.247-2400-2483.5", "rss247-2400-2483.5"])
 @pytest.mark.parametrize("n, expected", [(15, "pass"), (14, "fail")])
 def test_2400_needs_15_channels(pid, n, expected):
     f = run(pid, make_system(bandwidth_hz=1 * MHZ), centres(2402 * MHZ, 1 * MHZ, n))
@@ -188,7 +188,7 @@ def test_2400_needs_15_channels(pid, n, expected):
 ])
 def test_915_occupancy(n, dwell, airtime, expected):
     s = make_system(bandwidth_hz=150 * KHZ, dwell_s=dwell, packet_airtime_s=airtime)
-    f = run("us-915", s, centres(902.5 * MHZ, 200 * KHZ, n))["occupancy"]
+    f = run("fcc15.247-902-928", s, centres(902.5 * MHZ, 200 * KHZ, n))["occupancy"]
     assert f.status == expected, f.message
     assert f.measured == pytest.approx(airtime * 20.0 / (n * dwell))
 
@@ -196,8 +196,8 @@ def test_915_occupancy(n, dwell, airtime, expected):
 # 47 CFR 15.247(a)(1)(i) [published]: 250-500 kHz -> 0.4 s in any 10 s.
 def test_915_wide_occupancy_window_is_10s():
     s = make_system(bandwidth_hz=300 * KHZ, dwell_s=0.4, packet_airtime_s=0.4)
-    assert run("us-915", s, centres(902.5 * MHZ, 300 * KHZ, 25))["occupancy"].status == "pass"
-    assert run("us-915", s, centres(902.5 * MHZ, 300 * KHZ, 20))["occupancy"].status == "fail"
+    assert run("fcc15.247-902-928", s, centres(902.5 * MHZ, 300 * KHZ, 25))["occupancy"].status == "pass"
+    assert run("fcc15.247-902-928", s, centres(902.5 * MHZ, 300 * KHZ, 20))["occupancy"].status == "fail"
 
 
 # 47 CFR 15.247(a)(1)(iii) [published]: <= 0.4 s within 0.4 s x channels used. A single 0.5 s visit
@@ -207,12 +207,12 @@ def test_915_wide_occupancy_window_is_10s():
                                                       (0.5, 0.5, "fail")])
 def test_2400_occupancy(dwell, airtime, expected):
     s = make_system(bandwidth_hz=1 * MHZ, dwell_s=dwell, packet_airtime_s=airtime)
-    f = run("us-2400", s, centres(2402 * MHZ, 1 * MHZ, 15))["occupancy"]
+    f = run("fcc15.247-2400-2483.5", s, centres(2402 * MHZ, 1 * MHZ, 15))["occupancy"]
     assert f.status == expected, f.message
 
 
 # US 5725-5850 MHz [from memory, seen quoted]: >= 75 channels, BW <= 1 MHz, <= 0.4 s in 30 s, 1 W.
-@pytest.mark.parametrize("pid", ["us-5800", "ca-5800"])
+@pytest.mark.parametrize("pid", ["fcc15.247-5725-5850", "rss247-5725-5850"])
 def test_5800_rules(pid):
     s = make_system(bandwidth_hz=1 * MHZ, tx_power_dbm=30.0)
     f = run(pid, s, centres(5726 * MHZ, 1.5 * MHZ, 75))
@@ -228,7 +228,7 @@ def test_5800_rules(pid):
     assert run(pid, over, centres(5726 * MHZ, 1.5 * MHZ, 60))["occupancy"].status == "fail"
 
 
-# RSS-247 (from memory): ca-915 e.i.r.p. 4 W (36.021 dBm) with >= 50 channels, 1 W (30 dBm) with 25-49.
+# RSS-247 (from memory): rss247-902-928 e.i.r.p. 4 W (36.021 dBm) with >= 50 channels, 1 W (30 dBm) with 25-49.
 FOUR_W_DBM = 10 * math.log10(4000)
 
 
@@ -238,29 +238,29 @@ FOUR_W_DBM = 10 * math.log10(4000)
     (49, 24.0, 6.0, "pass", 30.0), (49, 24.0, 7.0, "fail", 30.0), (25, 24.0, 6.0, "pass", 30.0),
     (24, 20.0, 0.0, "fail", None),
 ])
-def test_ca915_eirp_caps(n, tx, gain, expected, limit):
+def test_rss247_902_928_eirp_caps(n, tx, gain, expected, limit):
     s = make_system(bandwidth_hz=300 * KHZ, tx_power_dbm=tx, antenna_gain_dbi=gain)
-    f = run("ca-915", s, centres(902.5 * MHZ, 300 * KHZ, n))["eirp"]
+    f = run("rss247-902-928", s, centres(902.5 * MHZ, 300 * KHZ, n))["eirp"]
     assert f.status == expected
     assert f.limit == (None if limit is None else pytest.approx(limit, abs=1e-12))
 
 
 # The US profile has no separate e.i.r.p. rule (15.247(b)(4) is folded into the power rule).
-def test_us915_has_no_eirp_rule():
-    assert "eirp" not in run("us-915", make_system(), centres(902.5 * MHZ, 200 * KHZ, 50))
+def test_fcc_902_928_has_no_eirp_rule():
+    assert "eirp" not in run("fcc15.247-902-928", make_system(), centres(902.5 * MHZ, 200 * KHZ, 50))
 
 
 # Band fit (common practice): centre +/- half the 20 dB bandwidth inside 902-928 MHz.
 def test_915_band_fit_edges():
     s = make_system(bandwidth_hz=200 * KHZ)
-    assert run("us-915", s, centres(902.1 * MHZ, 200 * KHZ, 130))["band-fit"].status == "pass"  # 902.0-928.0
-    assert run("us-915", s, centres(902.1 * MHZ, 200 * KHZ, 131))["band-fit"].status == "fail"
-    assert run("us-915", s, centres(902.099 * MHZ, 200 * KHZ, 50))["band-fit"].status == "fail"
+    assert run("fcc15.247-902-928", s, centres(902.1 * MHZ, 200 * KHZ, 130))["band-fit"].status == "pass"  # 902.0-928.0
+    assert run("fcc15.247-902-928", s, centres(902.1 * MHZ, 200 * KHZ, 131))["band-fit"].status == "fail"
+    assert run("fcc15.247-902-928", s, centres(902.099 * MHZ, 200 * KHZ, 50))["band-fit"].status == "fail"
 
 
 # check_compliance sorts the hop set: order of the input does not change any finding.
 def test_input_order_does_not_matter():
-    kw, first, spacing, n = COMPLIANT["ca-915"]
+    kw, first, spacing, n = COMPLIANT["rss247-902-928"]
     c = centres(first, spacing, n)
-    fwd, rev = run("ca-915", make_system(**kw), c), run("ca-915", make_system(**kw), c[::-1])
+    fwd, rev = run("rss247-902-928", make_system(**kw), c), run("rss247-902-928", make_system(**kw), c[::-1])
     assert {k: (f.status, f.measured) for k, f in fwd.items()} == {k: (f.status, f.measured) for k, f in rev.items()}

@@ -21,7 +21,7 @@ from .conftest import FAST, by_id, check_replan, replan_request
 ROOT = Path(__file__).resolve().parents[2]
 SAMPLES = ROOT / "sample_requests"
 SURVEY_CSV = SAMPLES / "filter_gallery_survey.csv"
-SITE_JSON = SAMPLES / "water_works_us915.json"
+SITE_JSON = SAMPLES / "water_works.json"
 PNG = b"\x89PNG\r\n\x1a\n"
 
 
@@ -89,7 +89,7 @@ def test_client_invalid_current_plan_raises(api):
 def files(tmp_path_factory):
     """A fresh plan of the unchanged site saved by `cohop plan --save`, and the changed site."""
     d = tmp_path_factory.mktemp("replan_cli")
-    site = dict(samples.load("water_works_us915"), search=dict(FAST))
+    site = dict(samples.load("water_works"), search=dict(FAST))
     (d / "site.json").write_text(json.dumps(site), encoding="utf-8")
     changed = samples.load("water_works_replan")
     for key in ("current", "mode"):

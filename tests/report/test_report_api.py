@@ -16,7 +16,7 @@ def client():
 
 
 def test_an_assessment_as_html(client):
-    body = samples.load("container_terminal_eu2400")
+    body = samples.load("container_terminal")
     as_json = client.post("/v1/assessments", json=body).json
     response = client.post("/v1/assessments?format=html", json=body)
     assert response.status_code == 200 and response.mimetype == "text/html"
@@ -41,9 +41,9 @@ def test_errors_stay_problem_details(client):
 
 def test_without_a_renderer_the_answer_is_406_before_any_work():
     plain = create_app({"TESTING": True}).test_client()
-    response = plain.post("/v1/assessments?format=html", json=samples.load("water_works_us915"))
+    response = plain.post("/v1/assessments?format=html", json=samples.load("water_works"))
     assert response.status_code == 406 and response.mimetype == "application/problem+json"
-    assert plain.post("/v1/assessments", json=samples.load("water_works_us915")).status_code == 200
+    assert plain.post("/v1/assessments", json=samples.load("water_works")).status_code == 200
 
 
 def test_the_format_is_documented(client):
@@ -62,7 +62,7 @@ def test_the_real_server_renders_reports():
     from tests.production.procs import Server
 
     with Server() as server:
-        response = requests.post(server.url + "/v1/assessments?format=html", json=samples.load("water_works_us915"),
+        response = requests.post(server.url + "/v1/assessments?format=html", json=samples.load("water_works"),
                                  timeout=120)
     assert response.status_code == 200 and response.headers["content-type"].startswith("text/html")
     assert "Assessment report" in response.text

@@ -7,7 +7,7 @@ from tests.cli_helpers import run_cli
 
 def test_assess_writes_a_report_with_per_channel_shading(capsys, tmp_path):
     path = tmp_path / "r.html"
-    code, out, err = run_cli(capsys, "assess", "--sample", "container_terminal_eu2400", "--json", "--report",
+    code, out, err = run_cli(capsys, "assess", "--sample", "container_terminal", "--json", "--report",
                              str(path))
     assert code == 0 and f"report written to {path}" in err
     answer = json.loads(out)
@@ -32,7 +32,7 @@ def test_an_unwritable_report_path_is_a_message_not_a_traceback(capsys, tmp_path
 
 def test_chart_dominant_draws_the_source_strip(capsys, tmp_path):
     path = tmp_path / "map.svg"
-    code, _, err = run_cli(capsys, "assess", "--sample", "container_terminal_eu2400", "--chart", str(path),
+    code, _, err = run_cli(capsys, "assess", "--sample", "container_terminal", "--chart", str(path),
                            "--dominant")
     assert code == 0, err
     svg = path.read_text(encoding="utf-8")
@@ -41,7 +41,7 @@ def test_chart_dominant_draws_the_source_strip(capsys, tmp_path):
 
 def test_site_map_option_writes_the_map(capsys, tmp_path):
     path = tmp_path / "site.svg"
-    code, _, err = run_cli(capsys, "assess", "--sample", "open_pit_mine_ca915", "--site-map", str(path))
+    code, _, err = run_cli(capsys, "assess", "--sample", "open_pit_mine", "--site-map", str(path))
     assert code == 0 and f"site map written to {path}" in err
     svg = path.read_text(encoding="utf-8")
     assert 'id="system:haul-fleet"' in svg and 'id="pair:' in svg

@@ -86,7 +86,7 @@ def test_replan_report_lists_the_changes():
 
 
 def test_assessment_without_positions_or_channel_detail_has_one_chart():
-    body, answer = assessed("water_works_us915", "system")
+    body, answer = assessed("water_works", "system")
     body = copy.deepcopy(body)
     for item in body["site"]["systems"] + body["site"]["interferers"]:
         item.pop("position", None)

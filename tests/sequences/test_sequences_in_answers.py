@@ -26,10 +26,10 @@ def _us915_system(**kw) -> System:
 
 
 def _check(sequence, system=None):
-    p = PROFILES["us-915"]
+    p = PROFILES["fcc15.247-902-928"]
     chans = np.unique(sequence)
     centres = 902.1e6 + 200e3 * chans
-    return {f.rule.id.split(".")[1]: f for f in check_compliance(p, system or _us915_system(), chans, centres, p.band,
+    return {f.rule.kind: f for f in check_compliance(p, system or _us915_system(), chans, centres, p.band,
                                                                   np.asarray(sequence))}
 
 
@@ -53,7 +53,7 @@ def test_a_deliberately_bad_sequence_fails_the_windows_and_the_order():
 
 
 def test_plan_returns_a_loadable_sequence_per_system(client):
-    body = copy.deepcopy(samples.load("water_works_us915"))
+    body = copy.deepcopy(samples.load("water_works"))
     body["search"] = {"time_limit_s": 1, "sequence_packets": 2000}
     answer = client.post("/v1/plans", json=body).json
     seqs = answer["sequences"]
@@ -82,7 +82,7 @@ def test_plan_returns_a_loadable_sequence_per_system(client):
 
 
 def test_assessment_accepts_given_sequences(client):
-    body = copy.deepcopy(samples.load("container_terminal_eu2400"))
+    body = copy.deepcopy(samples.load("container_terminal"))
     cranes = body["site"]["systems"][:2]
     hop = list(range(0, 79, 4))[:15]
     for i, s in enumerate(cranes):
@@ -101,7 +101,7 @@ def test_assessment_accepts_given_sequences(client):
 
 
 def test_sequence_must_match_the_hop_set(client):
-    body = copy.deepcopy(samples.load("water_works_us915"))
+    body = copy.deepcopy(samples.load("water_works"))
     body["site"]["systems"][0]["sequence"] = [0, 1, 2]
     resp = client.post("/v1/assessments", json=body)
     assert resp.status_code == 422

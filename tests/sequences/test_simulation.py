@@ -36,7 +36,7 @@ def test_simulated_fading_has_the_jakes_envelope_correlation():
         assert fades.shape == chans.shape
 
 
-@pytest.mark.parametrize("name", ["water_works_us915", "open_pit_mine_ca915"])
+@pytest.mark.parametrize("name", ["water_works", "open_pit_mine"])
 def test_sequence_driven_attempt_loss_agrees_with_the_analytic_model(name):
     # Real sequences with random offsets give the uniform model's per-attempt loss in expectation.
     prep = prepare_site(sites.load(samples.load(name)["site"]))

@@ -16,7 +16,7 @@ CRANE = "sludge-crane"
 def answer():
     from cohop.api.app import create_app
 
-    body = load_sample("water_works_us915.json")
+    body = load_sample("water_works.json")
     r = create_app({"TESTING": True}).test_client().post(ASSESSMENTS, json={"site": body["site"]})
     assert r.status_code == 200, r.get_json()
     return r.get_json()
@@ -65,7 +65,7 @@ def test_text_table_shows_the_figures(answer):
 def test_bad_traffic_is_refused_with_its_pointer(traffic, pointer_field):
     from cohop.api.app import create_app
 
-    body = load_sample("water_works_us915.json")
+    body = load_sample("water_works.json")
     body["site"]["systems"][0]["traffic"] = traffic
     r = create_app({"TESTING": True}).test_client().post(ASSESSMENTS, json={"site": body["site"]})
     assert r.status_code == 422

@@ -10,7 +10,7 @@ from cohop import samples
 from cohop.api import create_app
 from cohop.site_rules import load_site
 
-SITE = samples.load("water_works_us915")["site"]
+SITE = samples.load("water_works")["site"]
 
 
 @pytest.fixture(scope="module")

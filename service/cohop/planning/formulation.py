@@ -59,6 +59,14 @@ class Formulation(Protocol):
     def solve(self, limits: SolveLimits) -> Outcome: ...
 
 
+def _scaled_floor(bound: float, constant: float, scale, objective, inst: PlanningInstance) -> float:
+    """A proven bound of the real objective as a bound of the scaled model objective: every scaled cost term
+    may be rounded down by up to half a unit (`model.Scale` rounds to nearest), so subtract half a unit per
+    term (and per victim's constant for the worst-system objective)."""
+    terms = len(objective.costs.node) + len(objective.costs.pair) + inst.n_systems
+    return (bound - constant) * scale.factor - 0.5 * terms
+
+
 class PairBooleanCpSat:
     """The full pair-boolean model solved by CP-SAT (`cohop.cpsat` configures every call)."""
 
@@ -78,13 +86,13 @@ class PairBooleanCpSat:
         model.minimise(m, mv, inst, objective, scale)
         constant = 0.0 if worst else mv.constant
         allowance = model.rounding_allowance(objective, mv, inst, scale)
-        stop_at = None
+        floor = None
         if limits.known_bound is not None and limits.known_bound > 0:
-            stop_at = math.floor((limits.known_bound / (1 - limits.gap) - constant) * scale.factor)
+            floor = _scaled_floor(limits.known_bound, constant, scale, objective, inst)
         tell_solution = limits.on_solution or (lambda v: None)
         tell_bound = limits.on_bound or (lambda b: None)
         out = cpsat.run(m, limits.budget, "CP-SAT", limits.work_s, self.threads, self.seed, self.deterministic,
-                        gap_limit=limits.gap, stop_at=stop_at,
+                        gap_limit=limits.gap, floor=floor,
                         on_solution=lambda v: tell_solution(v / scale.factor + constant),
                         on_bound=lambda b: tell_bound(max(0.0, b / scale.factor + constant - allowance)))
         if not out.found:

@@ -40,7 +40,7 @@ FIXED_RULES = {"bandwidth"}
 
 
 def _kind(finding) -> str:
-    return finding.rule.id.split(".", 1)[1]
+    return finding.rule.kind
 
 
 @dataclass
@@ -218,7 +218,7 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
             ex = np.array(r.excluded_channels, dtype=int)
             allowed[v, ex] = False
             reasons.append(("explicit exclusion", runs(ex)))
-        if prep.profile.id == "eu-868":
+        if prep.profile.id == "erc7003-863-870":
             mask, band = _eu868_allowed(prep, v, allowed[v])
             if band is None:
                 conflicts.append(Conflict("profile sub-band", (system.id,), "no sub-band of the profile admits this "

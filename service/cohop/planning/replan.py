@@ -203,13 +203,14 @@ def _spend(inst, x, old, existing, budget: int | None, target: float | None, sto
 
 def _cp_sat_minimum(inst, start, old, existing, target, settings: SolveSettings, budget: Budget, lower: int):
     """Minimise changes subject to the objective target on the full model; (x, proven) or (None, False).
-    It stops as soon as a plan with `lower` changes (the arithmetic lower bound) is found."""
+    `lower` (the arithmetic lower bound on changes) is the objective's floor: a plan with that many changes is
+    proven optimal at once."""
     m, mv, objective, scale = model.full_model(inst, start)
     m.add(model.weighted_sum(mv, objective, scale) <= int(math.floor((target - mv.constant) * scale.factor)))
     # changes = channels newly set on existing systems
     m.minimize(sum(mv.x[v, c] for (v, c) in mv.x if existing[v] and not old[v, c]))
     out = cpsat.run(m, budget, "CP-SAT minimum change", budget.seconds, settings.solver_threads, inst.req.seed,
-                    settings.deterministic, stop_at=lower)
+                    settings.deterministic, floor=lower)
     if not out.found:
         return None, False
     x = model.solution(out.solver, mv, inst.allowed.shape)
@@ -258,7 +259,8 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
     fresh_budget, moves_budget, cp_budget = budget.split([RE_SHARES["fresh"], RE_SHARES["moves"], RE_SHARES["cp_sat"]])
     fresh_req = PlanRequirements(**{**req.__dict__, "baselines": ()})
     fresh = plan_site(prep, fresh_req, settings, detail="system", with_sequences=False, budget=fresh_budget)
-    base = without_inter_system_terms(full) if req.coordination == "independent" else full  # the objective the fresh plan used
+    # the objective the fresh plan used
+    base = without_inter_system_terms(full) if req.coordination == "independent" else full
     old = _old_masks(base, cur)
     existing = np.array([sid in cur for sid in ids])
     inst = base.with_sizes(_sizes(base, old, cur))

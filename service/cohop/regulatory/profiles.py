@@ -1,8 +1,13 @@
 """Regulatory profiles: band edges and the rules a hop set is checked against.
 
 Each rule carries its citation and how sure we are of it (the rule's
-own text where it was seen: 47 CFR 15.247, RSS-247, ETSI EN 300 328, CEPT ERC Rec 70-03). These are planning aids: the operator is responsible for
-compliance, and local rules and the regulator's current text prevail.
+own text where it was seen: 47 CFR 15.247, RSS-247, ETSI EN 300 328,
+CEPT ERC Rec 70-03). These are planning aids: the operator is responsible
+for compliance, and local rules and the regulator's current text prevail.
+
+Profile ids name the rule family and the band edges in MHz
+(`fcc15.247-902-928`); `FORMER_IDS` maps the ids of earlier releases to
+them, so that a request with a former id is refused with the new one.
 """
 
 from __future__ import annotations
@@ -102,13 +107,13 @@ PTP_SUMMARY = ("systems used exclusively for fixed point-to-point operation: 240
                "no relaxation in 902-928 MHz (seen quoted; check the regulator's current text)")
 #: Why a declared fixed point-to-point system gets no relaxation, per profile family.
 PTP_NO_EFFECT = {
-    "us-915": "47 CFR 15.247(c)(1) relaxes the antenna-gain rule only in 2400-2483.5 and 5725-5850 MHz, so "
+    "US-902": "47 CFR 15.247(c)(1) relaxes the antenna-gain rule only in 2400-2483.5 and 5725-5850 MHz, so "
               "above 6 dBi the conducted limit still falls dB for dB (15.247(b)(4))",
     "CA": "RSS-247's point-to-point provisions were not checked and are not encoded, so the US relaxation of "
           "47 CFR 15.247(c)(1) is not assumed: the limits apply as to any system",
-    "eu-2400": "the e.i.r.p. limit of EN 300 328 includes the antenna gain and no point-to-point relaxation is "
+    "EN300328": "the e.i.r.p. limit of EN 300 328 includes the antenna gain and no point-to-point relaxation is "
                "encoded: it applies as to any system",
-    "eu-868": "the e.r.p. limits of ERC Rec 70-03 include the antenna gain and no point-to-point relaxation is "
+    "ERC7003": "the e.r.p. limits of ERC Rec 70-03 include the antenna gain and no point-to-point relaxation is "
               "encoded: they apply as to any system",
 }
 PTP_OPERATOR = ("exclusive fixed point-to-point use (no point-to-multipoint, omnidirectional or co-located "
@@ -161,7 +166,7 @@ def _us_ptp(pid: str, region: str, relaxed: Callable[[float], GainReduction] | N
                          PTP_NO_EFFECT["CA"])
     paragraph = {power.point_to_point_2400: "(c)(1)(i), (iii)", power.point_to_point_5800: "(c)(1)(ii), (iii)",
                  None: "(c)(1)"}[relaxed]
-    return _ptp_rule(pid, f"47 CFR 15.247{paragraph}", SEEN_QUOTED, relaxed, PTP_NO_EFFECT["us-915"], PTP_SUMMARY)
+    return _ptp_rule(pid, f"47 CFR 15.247{paragraph}", SEEN_QUOTED, relaxed, PTP_NO_EFFECT["US-902"], PTP_SUMMARY)
 
 
 def _us_gain(region: str, relaxed: Callable[[float], GainReduction] | None):
@@ -298,7 +303,7 @@ def _en300328(pid: str, adaptive: bool) -> list[RuleCheck]:
         dwell_rule,
         checks.eirp(Rule(f"{pid}.eirp", "Maximum e.i.r.p.", cite, PARTLY_SEEN, "at most 20 dBm (100 mW) e.i.r.p."),
                     lambda ctx: power.EU_2400_EIRP),
-        _ptp_rule(pid, cite, PARTLY_SEEN, None, PTP_NO_EFFECT["eu-2400"]),
+        _ptp_rule(pid, cite, PARTLY_SEEN, None, PTP_NO_EFFECT["EN300328"]),
     ]
     if not adaptive:
         out.append(checks.medium_utilisation(Rule(
@@ -403,7 +408,7 @@ def _eu868(pid: str) -> list[RuleCheck]:
         checks.not_encoded(Rule(f"{pid}.fhss", "FHSS limits of EN 300 220-2", "ETSI EN 300 220-2 4.3.10",
                                 FROM_MEMORY, "the FHSS limits of EN 300 220-2 (4.3.10) were not checked against "
                                 "the standard and are deliberately not encoded; check them yourself")),
-        _ptp_rule(pid, cite, PARTLY_SEEN, None, PTP_NO_EFFECT["eu-868"]),
+        _ptp_rule(pid, cite, PARTLY_SEEN, None, PTP_NO_EFFECT["ERC7003"]),
     ]
 
 
@@ -411,27 +416,28 @@ def _build() -> dict[str, Profile]:
     us = "47 CFR 15.247"
     ca_note = " (as in the US; from memory, check RSS-247)"
     profiles = [
-        Profile("us-915", f"US 902-928 MHz FHSS ({us})", "US", Band(902 * MHZ, 928 * MHZ),
-                tuple(_us_915("us-915", "US")), coordination_caution=True),
-        Profile("us-2400", f"US 2400-2483.5 MHz FHSS ({us})", "US", Band(2400 * MHZ, 2483.5 * MHZ),
-                tuple(_us_2400("us-2400", "US")), coordination_caution=True),
-        Profile("us-5800", f"US 5725-5850 MHz FHSS ({us})", "US", Band(5725 * MHZ, 5850 * MHZ),
-                tuple(_us_5800("us-5800", "US")), coordination_caution=True),
-        Profile("ca-915", "Canada 902-928 MHz FHSS (RSS-247)", "CA", Band(902 * MHZ, 928 * MHZ),
-                tuple(_us_915("ca-915", "CA", ca_note) + [checks.eirp(Rule(
-                    "ca-915.eirp", "Maximum e.i.r.p.", "RSS-247", FROM_MEMORY,
+        Profile("fcc15.247-902-928", f"US 902-928 MHz FHSS ({us})", "US", Band(902 * MHZ, 928 * MHZ),
+                tuple(_us_915("fcc15.247-902-928", "US")), coordination_caution=True),
+        Profile("fcc15.247-2400-2483.5", f"US 2400-2483.5 MHz FHSS ({us})", "US",
+                Band(2400 * MHZ, 2483.5 * MHZ), tuple(_us_2400("fcc15.247-2400-2483.5", "US")),
+                coordination_caution=True),
+        Profile("fcc15.247-5725-5850", f"US 5725-5850 MHz FHSS ({us})", "US", Band(5725 * MHZ, 5850 * MHZ),
+                tuple(_us_5800("fcc15.247-5725-5850", "US")), coordination_caution=True),
+        Profile("rss247-902-928", "Canada 902-928 MHz FHSS (RSS-247)", "CA", Band(902 * MHZ, 928 * MHZ),
+                tuple(_us_915("rss247-902-928", "CA", ca_note) + [checks.eirp(Rule(
+                    "rss247-902-928.eirp", "Maximum e.i.r.p.", "RSS-247", FROM_MEMORY,
                     "4 W e.i.r.p. with at least 50 channels, 1 W with 25-49"), _ca915_eirp)]),
                 coordination_caution=True),
-        Profile("ca-2400", "Canada 2400-2483.5 MHz FHSS (RSS-247)", "CA", Band(2400 * MHZ, 2483.5 * MHZ),
-                tuple(_us_2400("ca-2400", "CA")), coordination_caution=True),
-        Profile("ca-5800", "Canada 5725-5850 MHz FHSS (RSS-247)", "CA", Band(5725 * MHZ, 5850 * MHZ),
-                tuple(_us_5800("ca-5800", "CA")), coordination_caution=True),
-        Profile("eu-2400-adaptive", "EU 2400-2483.5 MHz adaptive FHSS (EN 300 328)", "EU",
-                Band(2400 * MHZ, 2483.5 * MHZ), tuple(_en300328("eu-2400-adaptive", adaptive=True))),
-        Profile("eu-2400-nonadaptive", "EU 2400-2483.5 MHz non-adaptive FHSS (EN 300 328)", "EU",
-                Band(2400 * MHZ, 2483.5 * MHZ), tuple(_en300328("eu-2400-nonadaptive", adaptive=False))),
-        Profile("eu-868", "EU 863-870 MHz short-range devices (ERC Rec 70-03)", "EU",
-                Band(863 * MHZ, 870 * MHZ), tuple(_eu868("eu-868"))),
+        Profile("rss247-2400-2483.5", "Canada 2400-2483.5 MHz FHSS (RSS-247)", "CA", Band(2400 * MHZ, 2483.5 * MHZ),
+                tuple(_us_2400("rss247-2400-2483.5", "CA")), coordination_caution=True),
+        Profile("rss247-5725-5850", "Canada 5725-5850 MHz FHSS (RSS-247)", "CA", Band(5725 * MHZ, 5850 * MHZ),
+                tuple(_us_5800("rss247-5725-5850", "CA")), coordination_caution=True),
+        Profile("en300328-2400-2483.5-adaptive", "EU 2400-2483.5 MHz adaptive FHSS (EN 300 328)", "EU",
+                Band(2400 * MHZ, 2483.5 * MHZ), tuple(_en300328("en300328-2400-2483.5-adaptive", adaptive=True))),
+        Profile("en300328-2400-2483.5-nonadaptive", "EU 2400-2483.5 MHz non-adaptive FHSS (EN 300 328)", "EU",
+                Band(2400 * MHZ, 2483.5 * MHZ), tuple(_en300328("en300328-2400-2483.5-nonadaptive", adaptive=False))),
+        Profile("erc7003-863-870", "EU 863-870 MHz short-range devices (ERC Rec 70-03)", "EU",
+                Band(863 * MHZ, 870 * MHZ), tuple(_eu868("erc7003-863-870"))),
         Profile("custom", "Custom band, no regulatory limits", "custom", None, (_band_fit("custom"),)),
     ]
     return {p.id: p for p in profiles}
@@ -442,3 +448,26 @@ PROFILES: dict[str, Profile] = _build()
 
 def get_profile(profile_id: str) -> Profile:
     return PROFILES[profile_id]
+
+
+#: Former profile ids (region plus MHz) and the ids that replaced them (rule family plus band
+#: edges). Only used to say what an old id became: requests must use the new ids.
+FORMER_IDS: dict[str, str] = {
+    "us-915": "fcc15.247-902-928",
+    "us-2400": "fcc15.247-2400-2483.5",
+    "us-5800": "fcc15.247-5725-5850",
+    "ca-915": "rss247-902-928",
+    "ca-2400": "rss247-2400-2483.5",
+    "ca-5800": "rss247-5725-5850",
+    "eu-2400-adaptive": "en300328-2400-2483.5-adaptive",
+    "eu-2400-nonadaptive": "en300328-2400-2483.5-nonadaptive",
+    "eu-868": "erc7003-863-870",
+}
+
+
+def unknown_profile_message(profile_id: str) -> str:
+    """Why `profile_id` is refused: the new id when it is a former one, else the known ids."""
+    if profile_id in FORMER_IDS:
+        return (f"Profile ids were renamed: {profile_id!r} is now {FORMER_IDS[profile_id]!r} "
+                "(`cohop profiles` lists them).")
+    return f"Unknown profile {profile_id!r}; one of: {', '.join(sorted(PROFILES))}."

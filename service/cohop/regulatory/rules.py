@@ -21,11 +21,18 @@ PASS, FAIL, WARNING = "pass", "fail", "warning"
 
 @dataclass(frozen=True)
 class Rule:
+    """`id` is the profile id, a dot and the rule's kind (`fcc15.247-902-928.channels`); profile ids may hold
+    dots (band edges such as 2483.5), kinds never do."""
+
     id: str
     title: str
     citation: str
     certainty: str
     summary: str
+
+    @property
+    def kind(self) -> str:
+        return self.id.rsplit(".", 1)[1]
 
 
 @dataclass(frozen=True)

@@ -15,6 +15,7 @@ from marshmallow import fields, post_load, pre_load, validate, validates_schema
 from cohop import limits, site_rules
 from cohop.api.schemas.fields import IDENTIFIER, Count, Flag, List, Number, Text, default
 from cohop.regulatory import PROFILES
+from cohop.regulatory.profiles import unknown_profile_message
 from cohop.site import MOBILITY_POLICIES, Area, Grid, Interferer, Position, Propagation, Site, Survey, System
 from cohop.site_form import site_from
 
@@ -324,9 +325,15 @@ class SurveySchema(StrictSchema):
         raise_problems(site_rules.survey_problems(data))
 
 
+def _known_profile(value: str) -> None:
+    if value not in PROFILES:
+        raise ma.ValidationError(unknown_profile_message(value))
+
+
 class SiteSchema(StrictSchema):
     name = Text(load_default=default(Site, "name"), validate=validate.Length(max=limits.MAX_TEXT_CHARS))
-    profile = Text(required=True, validate=validate.OneOf(sorted(PROFILES)))
+    profile = Text(required=True, validate=[validate.Length(max=limits.MAX_TEXT_CHARS), _known_profile],
+                   metadata={"enum": sorted(PROFILES)})
     band = fields.Nested(BandSchema, load_default=None,
                          metadata={"description": "Band edges; required for the custom profile, else an optional "
                                                   "narrowing of the profile's band."})
