@@ -32,6 +32,20 @@ def standalone(p: float, overlap: dict | None) -> float:
     return 1.0 - sum(prob * (1.0 - p) ** k for k, prob in overlap_distribution(overlap).items())
 
 
+def distinct_standalone(alpha: float, harmful: int, size: int, overlap: dict) -> float:
+    """Collision probability of a hopping source whose K overlapped dwells lie on K distinct channels of its
+    `size` (a window longer than the set visits every channel K // size times, then a random subset):
+    1 - E_K[(1 - alpha)^(h q) sum_j C(h, j) C(N - h, m - j) / C(N, m) (1 - alpha)^j], q, m = divmod(K, N)
+    (hypergeometric; the domain reference, "several dwells in one packet")."""
+    survive = 0.0
+    for k, prob in overlap_distribution(overlap).items():
+        q, m = divmod(k, size)
+        inner = sum(math.comb(harmful, j) * math.comb(size - harmful, m - j) * (1.0 - alpha) ** j
+                    for j in range(0, min(harmful, m) + 1)) / math.comb(size, m)
+        survive += prob * (1.0 - alpha) ** (harmful * q) * inner
+    return 1.0 - survive
+
+
 def channel_figures(victim: dict, systems_by_id: dict[str, dict]) -> list[dict[str, float]]:
     """Per channel of the victim's hop set: {source id: standalone probability}."""
     out = []
@@ -42,7 +56,8 @@ def channel_figures(victim: dict, systems_by_id: dict[str, dict]) -> list[dict[s
                 other = systems_by_id[src["id"]]["hop_set"]
                 w = src["window_channels"]
                 h = sum(1 for c2 in other if abs(c - c2) <= w) if w >= 0 else 0
-                p = src["activity_fraction"] * h / len(other)
+                row[src["id"]] = distinct_standalone(src["activity_fraction"], h, len(other), src["overlap"])
+                continue
             else:
                 lo, hi = src["channel_range"]
                 p = src["activity_fraction"] if lo <= c < hi else 0.0

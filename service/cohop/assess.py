@@ -4,8 +4,11 @@ For victim v on channel c of its hop set A_v (random-phase overlap [derived], un
 
 1. Source system a hurts the hop when one of its overlapped bursts lands on a
    channel c' of A_a with |c - c'| <= window[v, a] (`cohop.prepare`). With h
-   such channels, each overlapped burst hits with p = alpha_a h / |A_a|, and
-   survival against a is E[(1 - p)^K] (`cohop.stats.overlap`).
+   such channels, the K overlapped bursts lie on K distinct channels of A_a
+   (a hop order visits distinct channels in consecutive dwells), each active
+   with alpha_a: survival against a is E over K of (1 - alpha_a)^(h q)
+   E[(1 - alpha_a)^J], J hypergeometric (`cohop.stats.overlap`); for K = 1
+   it is 1 - alpha_a h / |A_a|.
 2. A fixed interferer k hurts channels in its harmful range: continuous ones
    with probability alpha_k, bursty ones through the same overlap count.
 3. The hop's collision probability is 1 - prod over sources of survival; the
@@ -30,7 +33,7 @@ from cohop.prepare import PreparedSite, SourceLink
 from cohop.regulatory import check_compliance
 from cohop.regulatory.rules import Finding
 from cohop.stats import retries
-from cohop.stats.overlap import survival, survival_from
+from cohop.stats.overlap import survival, survival_distinct
 
 DETAIL_LEVELS = ("system", "channel", "source")
 
@@ -132,8 +135,8 @@ def system_collisions(prep: PreparedSite, v: int, channels: np.ndarray, prefix: 
                       sizes: np.ndarray) -> np.ndarray:
     """Standalone per-hop collision probability of each source system, (S, N_v)."""
     h = system_hits(prep, v, channels, prefix)
-    p = prep.activity[:, None] * h / np.maximum(sizes, 1)[:, None]
-    x = 1.0 - survival_from(prep.overlap_k0[v][:, None], prep.overlap_r[v][:, None], p)
+    x = 1.0 - survival_distinct(prep.overlap_k0[v][:, None], prep.overlap_r[v][:, None], h, sizes[:, None],
+                                prep.activity[:, None])
     x[prep.window[v] < 0] = 0.0
     x[v] = 0.0
     return x

@@ -4,11 +4,17 @@ The simulation draws the physical process rather than the analytic
 distributions: for each trial, the victim's packet occupies [0, T_v) on a
 channel of its hop set; each unsynchronised source has a random phase phi in
 [0, D) and bursts [phi + m D, phi + m D + T) for integer m, and the bursts
-that intersect the packet are counted from that geometry. Every overlapped
-burst is independently active (share alpha) and, if active, on a uniformly
-drawn channel of the source's hop set; it hits when that channel lies in the
-victim's harmful window (same window as the analytic model: the MC checks the
-statistics, not the physics). Slot-aligned sources overlap exactly one burst.
+that intersect the packet are counted from that geometry. A source system's
+K overlapped dwells are consecutive dwells of a hop order, so they lie on K
+distinct channels of its hop set (a window longer than the set visits each
+channel floor(K / N) times and a random subset of the rest): the number J of
+them inside the victim's harmful window is drawn as
+floor(K / N) h + Hypergeometric(h, N - h, K mod N), and each is independently
+active (share alpha): the hop is hit when Binomial(J, alpha) > 0. A fixed
+interferer's overlapped bursts are each independently active and, when
+active, on its own span. Harmful windows are the analytic model's (the MC
+checks the statistics, not the physics). Slot-aligned sources overlap
+exactly one burst.
 
 Victim channels are stratified: every channel of the hop set gets the same
 number of trials, which estimates the uniform-hopping mean with less variance
@@ -22,12 +28,13 @@ floor(u / alpha * N) is a uniform channel index, so "active and in the
 window [lo, hi) of sorted hop-set indices" is alpha lo / N <= u < alpha hi / N.
 
 Long packets against short dwells overlap many bursts (up to
-`cohop.limits.MAX_OVERLAPS`). Up to `_DRAWN_OVERLAPS` bursts are drawn one
-by one; beyond that the k0 bursts that overlap whatever the phase are drawn
-together as the number of them that hit, Binomial(k0, p) with p the burst's
-hit probability on the victim's channel (the same independent bursts,
-counted at once), and only the phase-dependent extra bursts one by one, so
-the work does not grow with k0. The phase indicator is kept apart from k0
+`cohop.limits.MAX_OVERLAPS`). A fixed interferer's bursts are drawn one by
+one up to `_DRAWN_OVERLAPS`; beyond that the k0 bursts that overlap whatever
+the phase are drawn together as the number of them that hit, Binomial(k0, p)
+with p the burst's hit probability on the victim's channel (the same
+independent bursts, counted at once), and only the phase-dependent extra
+bursts one by one, so the work does not grow with k0. A source system's
+draws do not depend on K at all. The phase indicator is kept apart from k0
 (0, 1 or 2 extra bursts), so no count can overflow its integer type.
 """
 
@@ -104,13 +111,16 @@ class _Source:
     phase_lo: int | None  # threshold for [x < frac(a)]; None: no phase (K = base_overlaps)
     phase_hi: int | None  # threshold for [x > 1 - frac(b)]
     max_overlaps: int  # largest possible K: ceil(a + b), or base_overlaps without a phase
+    harmful: np.ndarray | None = None  # source systems: (N_v, 1) int, channels of a in v's window; else None
+    size: int = 0  # source systems: N_a
+    activity: float = 1.0  # source systems: alpha_a
 
 
-def _phase_source(sid, thr_lo, thr_hi, victim_t: float, burst_s: float, period_s: float) -> _Source:
+def _phase_source(sid, thr_lo, thr_hi, victim_t: float, burst_s: float, period_s: float, **hopping) -> _Source:
     a, b = victim_t / period_s, burst_s / period_s
     base = math.floor(a) + math.floor(b)
     return _Source(sid, thr_lo, thr_hi, base, int(_u32(a - math.floor(a))), int(_u32(1.0 - (b - math.floor(b)))),
-                   max(base, math.ceil(a + b)))
+                   max(base, math.ceil(a + b)), **hopping)
 
 
 def _system_source(prep: PreparedSite, v: int, a: int, channels: np.ndarray, hop_sets) -> _Source | None:
@@ -122,14 +132,13 @@ def _system_source(prep: PreparedSite, v: int, a: int, channels: np.ndarray, hop
     hi = np.searchsorted(other, channels + w, side="right")
     if not np.any(hi > lo):
         return None
-    scale = link.activity_fraction / other.size
-    thr_lo = _u32(lo * scale)[:, None] if np.any(lo > 0) else None
-    thr_hi = _u32(hi * scale)[:, None]
+    hopping = {"harmful": (hi - lo).astype(np.int64)[:, None], "size": int(other.size),
+               "activity": float(link.activity_fraction)}
     src = prep.site.systems[a]
     if link.aligned:
-        return _Source(src.id, thr_lo, thr_hi, 1, None, None, 1)
-    return _phase_source(src.id, thr_lo, thr_hi, prep.site.systems[v].packet_airtime_s,
-                         src.packet_airtime_s, src.dwell_s)
+        return _Source(src.id, None, None, 1, None, None, 1, **hopping)
+    return _phase_source(src.id, None, None, prep.site.systems[v].packet_airtime_s,
+                         src.packet_airtime_s, src.dwell_s, **hopping)
 
 
 def _interferer_source(prep: PreparedSite, v: int, k: int, channels: np.ndarray) -> _Source | None:
@@ -158,6 +167,20 @@ def _certain_hits(bitgen, shape, src: _Source) -> np.ndarray:
     return np.random.Generator(bitgen).binomial(src.base_overlaps, np.broadcast_to(p, shape)) > 0
 
 
+def _distinct_hits(bitgen, shape, src: _Source, extra: np.ndarray | None) -> np.ndarray:
+    """Boolean (channels, block): a source system's K overlapped dwells on distinct channels (module docstring)."""
+    gen = np.random.Generator(bitgen)
+    k = np.full(shape, src.base_overlaps, dtype=np.int64)
+    if extra is not None:
+        k += extra
+    full, rest = np.divmod(k, src.size)
+    good = np.broadcast_to(src.harmful, shape)
+    inside = gen.hypergeometric(good, src.size - good, rest) + full * good
+    if src.activity >= 1.0:
+        return inside > 0
+    return gen.binomial(inside, src.activity) > 0
+
+
 def _source_hits(bitgen, shape, src: _Source, buf: dict) -> np.ndarray:
     """Boolean (channels, block): does any overlapped burst of `src` hit?"""
     extra = None  # bursts overlapped beyond base_overlaps: 0, 1 or 2 (by the phase)
@@ -165,6 +188,8 @@ def _source_hits(bitgen, shape, src: _Source, buf: dict) -> np.ndarray:
         x = _bits(bitgen, shape)
         extra = np.less(x, src.phase_lo, out=buf["m1"]).view(np.int8)
         extra += np.greater(x, src.phase_hi, out=buf["m2"]).view(np.int8)
+    if src.harmful is not None:
+        return _distinct_hits(bitgen, shape, src, extra)
     hit, first = None, 0
     if src.base_overlaps > _DRAWN_OVERLAPS:
         hit, first = _certain_hits(bitgen, shape, src), src.base_overlaps

@@ -15,7 +15,7 @@ import numpy as np
 
 from cohop.errors import SiteError
 from cohop.physics import fading, geometry, propagation
-from cohop.physics.rejection import OFFSET_TOLERANCE, harmful_bound_hz, window_channels
+from cohop.physics.rejection import OFFSET_TOLERANCE, bandwidth_share_db, harmful_bound_hz, window_channels
 from cohop.regulatory import get_profile
 from cohop.regulatory.profiles import Profile
 from cohop.site import Band, Interferer, Position, Propagation, Site, System
@@ -182,6 +182,17 @@ def _link(victim: System, wanted_dbm: float, level_dbm: float, overlap, activity
                       overlap=overlap, activity_fraction=activity, aligned=aligned)
 
 
+def _system_link(site: Site, victim: System, source: System, wanted_dbm: float, loss_db: float,
+                 overlap: OverlapCount) -> tuple[SourceLink, int]:
+    """Source system `source` at victim `victim` through coupling loss `loss_db`: the link and its harmful
+    window in grid channels. I = P_a - C_av plus the bandwidth share of a source wider than the victim
+    (`cohop.physics.rejection.bandwidth_share_db`, as for fixed interferers)."""
+    level = source.tx_power_dbm - loss_db + bandwidth_share_db(victim.bandwidth_hz, source.bandwidth_hz)
+    aligned = victim.time_base_group is not None and victim.time_base_group == source.time_base_group
+    link = _link(victim, wanted_dbm, level, overlap, source.activity_fraction, aligned)
+    return link, window_channels(link.bound_hz, site.grid.spacing_hz, site.grid.count)
+
+
 def _system_links(site: Site, wanted: np.ndarray, loss: np.ndarray):
     systems = site.systems
     links, window = [], np.full((len(systems), len(systems)), -1, dtype=int)
@@ -191,12 +202,10 @@ def _system_links(site: Site, wanted: np.ndarray, loss: np.ndarray):
             if a == v:
                 row.append(None)
                 continue
-            level = source.tx_power_dbm - loss[a, v]  # I = P_a - C_av
             aligned = victim.time_base_group is not None and victim.time_base_group == source.time_base_group
             overlap = ALIGNED if aligned else random_phase_overlap(
                 victim.packet_airtime_s, source.packet_airtime_s, source.dwell_s)
-            link = _link(victim, wanted[v], level, overlap, source.activity_fraction, aligned)
-            window[v, a] = window_channels(link.bound_hz, site.grid.spacing_hz, site.grid.count)
+            link, window[v, a] = _system_link(site, victim, source, wanted[v], loss[a, v], overlap)
             row.append(link)
         links.append(tuple(row))
     return tuple(links), window
@@ -228,9 +237,8 @@ def _interferer_links(site: Site, wanted: np.ndarray, centres: np.ndarray, f_hz:
 
 def _interferer_link(victim: System, wanted_dbm: float, itf: Interferer, total_dbm: float,
                      centres: np.ndarray) -> tuple[SourceLink, tuple[int, int]]:
-    # share of a wideband emitter's power inside the victim's channel (flat spectrum)
-    width = itf.width_hz
-    share_db = 10 * math.log10(min(1.0, victim.bandwidth_hz / width)) if width > 0 else 0.0
+    # share of a wideband emitter's power inside the victim's channel (flat spectrum), as for a system
+    share_db = bandwidth_share_db(victim.bandwidth_hz, itf.width_hz)
     overlap = None
     if itf.burst_s is not None:
         overlap = random_phase_overlap(victim.packet_airtime_s, itf.burst_s, itf.period_s)
@@ -340,10 +348,8 @@ def victim_at(prep: PreparedSite, v: int, loss_db: np.ndarray, interferer_dbm: n
     for a, source in enumerate(site.systems):
         if a == v:
             continue
-        old = links[a]
-        links[a] = _link(victim, prep.wanted_dbm[v], source.tx_power_dbm - loss[a, v], old.overlap,
-                         old.activity_fraction, old.aligned)
-        window[v, a] = window_channels(links[a].bound_hz, site.grid.spacing_hz, site.grid.count)
+        links[a], window[v, a] = _system_link(site, victim, source, prep.wanted_dbm[v], loss[a, v],
+                                              links[a].overlap)
     ilinks, iranges = list(prep.interferer_links[v]), prep.interferer_range.copy()
     for k, itf in enumerate(site.interferers):
         ilinks[k], iranges[v, k] = _interferer_link(victim, prep.wanted_dbm[v], itf, float(interferer_dbm[k]),

@@ -5,6 +5,12 @@ A hop of victim v is lost to an interfering signal at frequency offset df when
 with S_v the wanted level, I the interfering level and SIR_v the co-channel
 capture ratio [1]. We call E the *excess* [dB].
 
+A source wider than the victim's receiver puts only part of its power inside
+it: for flat spectra the share is B_v / B_a (`bandwidth_share_db`, [2]); the
+same share applies to hopping systems and fixed interferers. Offsets stay
+as the reference states them: centre to centre between hopping systems,
+from the nearest edge of a fixed interferer's span.
+
 R_v is given as a table of (offset, rejection). We step it conservatively:
 between tabulated offsets the rejection of the lower offset applies, and
 below the first offset it is 0 dB (co-channel). Tables must be non-decreasing
@@ -16,6 +22,8 @@ References
     standards, e.g. the Bluetooth Core Specification's basic-rate receiver
     (co-channel 11 dB, first adjacent 0 dB, second -30 dB, third and beyond
     -40 dB at 1 MHz channels; from memory).
+[2] Bandwidth share of a flat-spectrum source: common practice (the
+    reference's "bandwidth share" [trade]).
 """
 
 from __future__ import annotations
@@ -61,3 +69,12 @@ def window_channels(bound_hz: float, spacing_hz: float, channel_count: int) -> i
         return channel_count
     w = math.ceil(bound_hz / spacing_hz * (1 - OFFSET_TOLERANCE)) - 1
     return min(w, channel_count)
+
+
+def bandwidth_share_db(victim_bandwidth_hz: float, source_bandwidth_hz: float) -> float:
+    """10 log10(min(1, B_v / B_a)): the part of a flat-spectrum source's power inside the victim's receiver
+    [2]; 0 dB for a source no wider than the victim (or of unknown width, 0)."""
+    if not source_bandwidth_hz > 0:
+        return 0.0
+    return 10.0 * math.log10(min(1.0, victim_bandwidth_hz / source_bandwidth_hz))
+

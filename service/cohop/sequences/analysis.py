@@ -38,7 +38,7 @@ import numpy as np
 from cohop.prepare import PreparedSite
 from cohop.sequences.construct import Sequence
 from cohop.stats import hopping
-from cohop.stats.overlap import survival_from
+from cohop.stats.overlap import survival_distinct
 
 #: Time offsets of the other sequence tried when looking for the longest run.
 RUN_PHASES = 128
@@ -402,8 +402,8 @@ class _Channels:
 
 def _victim_rows(prep: PreparedSite, table: _Channels, v: int, sources: np.ndarray):
     """For every source a of `sources`: channels shared with v, whether some channel of a lies in v's window
-    of some channel of v, and v's per-hop hit rate with a random phase between them (each of a's hops
-    equally likely: exact in expectation over the phase)."""
+    of some channel of v, and v's per-hop hit rate with a random phase between them (the overlapped dwells
+    are consecutive, so distinct, positions of a's period; which positions is averaged as a random subset)."""
     c = np.flatnonzero(table.counts[v])
     visits = table.counts[v, c].astype(float)
     width = prep.window[v, sources][:, None]
@@ -419,8 +419,9 @@ def _victim_rows(prep: PreparedSite, table: _Channels, v: int, sources: np.ndarr
     dwell = np.array([systems[a].dwell_s for a in sources])
     ratio = (systems[v].packet_airtime_s + airtime) / dwell  # random-phase overlap count (cohop.stats.overlap)
     k0 = np.floor(ratio)
-    p = prep.activity[sources][:, None] * inside / table.lengths[sources][:, None]
-    hit = 1.0 - survival_from(k0[:, None], (ratio - k0)[:, None], p)
+    # the K overlapped dwells are K consecutive positions of a's period: distinct positions (cohop.stats.overlap)
+    hit = 1.0 - survival_distinct(k0[:, None], (ratio - k0)[:, None], inside, table.lengths[sources][:, None],
+                                  prep.activity[sources][:, None])
     unaligned = hit @ visits / visits.sum()
     return shared, near, unaligned
 

@@ -11,12 +11,30 @@ which gives the reference's P0 = 1 - W/D, P1 = W/D for W <= D and
 P1 = 2 - W/D, P2 = W/D - 1 for D < W <= 2D. Systems slot-aligned in one
 time-base group (equal dwells, packets at the start of a dwell) overlap
 exactly one of each other's dwells: K = 1.
+
+Which channels the K overlapped dwells use [derived, checked by simulation;
+the reference's "several dwells in one packet"]: a hop order visits distinct
+channels in consecutive dwells (any permutation order: planned,
+one-coincidence, most radios), so the K channels are a random K-subset of
+the source's N channels, not K independent draws. With h of them harmful
+and each dwell active with probability alpha,
+    P(no hit | K) = (1 - alpha)^(h q) E[(1 - alpha)^J],  J ~ Hypergeometric(N, h, m),
+    q = floor(K / N), m = K - q N
+(a window longer than the order's period visits every channel q times);
+with full activity and K <= N this is C(N - h, K) / C(N, K). Example: a 20 ms
+packet against 5 ms dwells over 20 channels, one harmful: 5/20 = 0.25 exactly,
+against 1 - (19/20)^5 = 0.226 for independent draws. `survival_distinct`
+computes it; `survival_from` keeps the independent-draw form for sources
+that do not hop (a fixed interferer's bursts all land on its own span).
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+
+import numpy as np
+from scipy.special import gammaln
 
 
 @dataclass(frozen=True)
@@ -66,3 +84,45 @@ def survival_from(k0, r, hit_probability):
 def survival(overlap: OverlapCount, hit_probability):
     """E[(1 - p)^K]: chance that none of the overlapped bursts hits [der]."""
     return survival_from(overlap.k0, overlap.r, hit_probability)
+
+
+def _log_choose(a, b):
+    """ln C(a, b) for 0 <= b <= a, -inf elsewhere; broadcasts (scipy.special.gammaln)."""
+    a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
+    ok = (b >= 0) & (b <= a)
+    with np.errstate(invalid="ignore"):
+        out = gammaln(a + 1) - gammaln(b + 1) - gammaln(a - b + 1)
+    return np.where(ok, out, -np.inf)
+
+
+def distinct_survival_at(overlaps, harmful, size, activity):
+    """P(no hit) for exactly K = `overlaps` dwells on distinct channels of the source's `size` channels, of which
+    `harmful` hurt, each dwell active with probability `activity` (module docstring); broadcasts."""
+    k = np.asarray(overlaps, dtype=np.int64)
+    h = np.asarray(harmful, dtype=np.int64)
+    n = np.maximum(np.asarray(size, dtype=np.int64), 1)
+    keep = 1.0 - np.asarray(activity, dtype=float)
+    q, m = np.divmod(k, n)
+    h, n, m, q, keep = np.broadcast_arrays(h, n, m, q, keep)
+    # m <= 1 (one overlapped dwell, or a whole number of periods) in closed form: 1 - alpha h / N
+    total = np.where(m == 0, 1.0, 1.0 - (1.0 - keep) * h / n)
+    several = m >= 2
+    if several.any():
+        hs, ns, ms, ks = h[several], n[several], m[several], keep[several]
+        top = int(np.minimum(hs, ms).max(initial=0))
+        ln_all = _log_choose(ns, ms)
+        acc = np.zeros(hs.shape)
+        for j in range(top + 1):
+            acc += np.exp(_log_choose(hs, j) + _log_choose(ns - hs, ms - j) - ln_all) * ks**j
+        total[several] = acc
+    return keep ** (h * q) * total
+
+
+def survival_distinct(k0, r, harmful, size, activity):
+    """E over K in {k0, k0 + 1} (P(K = k0 + 1) = r) of P(no hit | K) with the K dwells on distinct channels
+    (module docstring); broadcasts over arrays."""
+    k0 = np.asarray(k0, dtype=np.int64)
+    r = np.asarray(r, dtype=float)
+    low = distinct_survival_at(k0, harmful, size, activity)
+    high = distinct_survival_at(k0 + 1, harmful, size, activity)
+    return (1.0 - r) * low + r * high
