@@ -38,3 +38,17 @@ def test_every_placed_item_is_marked_and_labelled_inside_the_plot_without_overla
         assert frame.x0 <= box.x0 and box.x1 <= frame.x1 and frame.y0 <= box.y0 and box.y1 <= frame.y1
     # the gateway given only by levels has no position: said under the map, not drawn
     assert "no position given: farm-gateway" in fig.axes[0].get_title(loc="left")
+
+
+def test_charts_leave_no_figure_open(tmp_path):
+    """A server draws charts for every report: no figure may stay in pyplot's registry after it (matplotlib's
+    documentation, "Embed in a web application server": use Figure, not pyplot)."""
+    import matplotlib.pyplot as plt
+
+    body, answer = assessed()
+    before = len(plt.get_fignums())
+    for _ in range(3):
+        charts.site_map(body["site"], answer, tmp_path / "map.png")
+        charts.channel_map(body["site"], answer, tmp_path / "channels.svg")
+    assert len(plt.get_fignums()) == before
+    assert (tmp_path / "map.png").stat().st_size > 0 and (tmp_path / "channels.svg").stat().st_size > 0

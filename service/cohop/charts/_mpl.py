@@ -2,20 +2,30 @@
 
 from __future__ import annotations
 
+from types import SimpleNamespace
+
 
 class PlotUnavailable(RuntimeError):
     pass
 
 
-def pyplot():
+def toolkit():
+    """What the charts draw with: `figure(**kw)` makes a Figure on an Agg canvas of its own, outside pyplot's
+    registry of open figures, so a long-running server keeps no figure after its answer (matplotlib's
+    documentation, "Embed in a web application server"); `Rectangle` is the patch."""
     try:
-        import matplotlib
-
-        matplotlib.use("Agg")
-        import matplotlib.pyplot as plt
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+        from matplotlib.figure import Figure
+        from matplotlib.patches import Rectangle
     except ImportError as err:
         raise PlotUnavailable("charts need matplotlib: pip install 'cohop[plot]'") from err
-    return plt
+
+    def figure(**kw):
+        fig = Figure(**kw)
+        FigureCanvasAgg(fig)
+        return fig
+
+    return SimpleNamespace(figure=figure, Rectangle=Rectangle)
 
 
 #: Our own palette: shading bins from pale sand to deep aubergine (one per data.HIT_BINS bin).

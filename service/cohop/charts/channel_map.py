@@ -18,7 +18,7 @@ from pathlib import Path
 
 from cohop.charts import data
 from cohop.charts._mpl import (ADDED, CAUTION, DROPPED, HIT_COLOURS, INTERFERER, NEUTRAL, NEW_INTERFERER,
-                               SOURCE_COLOURS, USED_NOW, pyplot, save)
+                               SOURCE_COLOURS, USED_NOW, toolkit, save)
 
 LABEL_PT = 7.0
 
@@ -51,10 +51,10 @@ def _column_head(kind: str) -> str:
             "replan": "hit per hop, lost after retries (before / after)"}[kind]
 
 
-def _cells(plt, row: data.Row, y: float, width: float, top: float, height: float, colour_of, gid: str):
+def _cells(kit, row: data.Row, y: float, width: float, top: float, height: float, colour_of, gid: str):
     from matplotlib.collections import PatchCollection
 
-    patches = [plt.Rectangle((c - width / 2, y + top), width, height) for c in row]
+    patches = [kit.Rectangle((c - width / 2, y + top), width, height) for c in row]
     return PatchCollection(patches, facecolors=[colour_of(c) for c in row], edgecolors="none", gid=gid)
 
 
@@ -68,7 +68,7 @@ def _dominant_colours(rows: list[data.Row]) -> dict[str, str]:
             for i, s in enumerate(ranked)}
 
 
-def _draw_rows(plt, ax, site, rows, kind, dominant):
+def _draw_rows(kit, ax, site, rows, kind, dominant):
     grid = site["grid"]
     width = {s["id"]: min(0.92, s["bandwidth_hz"] / grid["spacing_hz"]) for s in site["systems"]}
     source_colour = _dominant_colours(rows) if dominant else {}
@@ -78,23 +78,23 @@ def _draw_rows(plt, ax, site, rows, kind, dominant):
         w = width.get(row.system, 0.9)
         if kind == "replan" and row.label.endswith(" now"):
             kept = [c for c in row.channels if c not in set(row.dropped)]
-            ax.add_collection(_cells(plt, kept, y, w, cell_top, cell_h, lambda c: USED_NOW, f"now:{row.label}"))
-            gone = _cells(plt, row.dropped, y, w, cell_top, cell_h, lambda c: DROPPED, f"dropped:{row.label}")
+            ax.add_collection(_cells(kit, kept, y, w, cell_top, cell_h, lambda c: USED_NOW, f"now:{row.label}"))
+            gone = _cells(kit, row.dropped, y, w, cell_top, cell_h, lambda c: DROPPED, f"dropped:{row.label}")
             gone.set_hatch("xxx")
             gone.set_edgecolor("white")
             ax.add_collection(gone)
         else:
             colour = (lambda c: HIT_COLOURS[data.hit_bin(row.hit[c])] if c in row.hit else NEUTRAL)
-            ax.add_collection(_cells(plt, row.channels, y, w, cell_top, cell_h, colour, f"row:{row.label}"))
+            ax.add_collection(_cells(kit, row.channels, y, w, cell_top, cell_h, colour, f"row:{row.label}"))
         if row.added:
-            added = _cells(plt, row.added, y, w + 0.06, cell_top - 0.05, cell_h + 0.1, lambda c: "none",
+            added = _cells(kit, row.added, y, w + 0.06, cell_top - 0.05, cell_h + 0.1, lambda c: "none",
                            f"added:{row.label}")
             added.set_edgecolor(ADDED)
             added.set_linewidth(1.4)
             ax.add_collection(added)
         if dominant and row.dominant:
             chans = sorted(row.dominant)
-            ax.add_collection(_cells(plt, chans, y, w, 0.14, 0.26, lambda c: source_colour[row.dominant[c]],
+            ax.add_collection(_cells(kit, chans, y, w, 0.14, 0.26, lambda c: source_colour[row.dominant[c]],
                                      f"dominant:{row.label}"))
     return source_colour
 
@@ -103,7 +103,7 @@ def _to_index(grid: dict, f_hz: float) -> float:
     return (f_hz - grid["first_centre_hz"]) / grid["spacing_hz"]
 
 
-def _draw_interferers(plt, fig, lane_ax, row_ax, site, spans):
+def _draw_interferers(kit, fig, lane_ax, row_ax, site, spans):
     """Bars and labels in lanes: each item spans its bar and its label as the renderer measures it.
 
     Call once the figure's layout is settled (widths do not depend on the lanes). A label that would run
@@ -140,7 +140,7 @@ def _draw_interferers(plt, fig, lane_ax, row_ax, site, spans):
     for (s, x0, x1, label, _, _), lane in zip(items, lanes):
         y = n_lanes - 1 - lane
         colour = NEW_INTERFERER if s.new else INTERFERER
-        lane_ax.add_patch(plt.Rectangle((x0, y + 0.08), x1 - x0, 0.34, facecolor=colour,
+        lane_ax.add_patch(kit.Rectangle((x0, y + 0.08), x1 - x0, 0.34, facecolor=colour,
                                         alpha=0.35 if s.derived else 0.8, hatch="////" if s.derived else None,
                                         edgecolor=colour if s.new else "none", linewidth=1.5,
                                         gid=f"interferer:{s.id}"))
@@ -152,7 +152,7 @@ def _draw_interferers(plt, fig, lane_ax, row_ax, site, spans):
     return n_lanes
 
 
-def _legend_handles(plt, rows, kind, spans, source_colour):
+def _legend_handles(kit, rows, kind, spans, source_colour):
     from matplotlib.patches import Patch
 
     used = sorted({data.hit_bin(p) for r in rows for p in r.hit.values()})
@@ -184,12 +184,12 @@ def channel_map(site: dict, answer: dict, path: str | Path | None = None, width_
     `height_in` None sizes the figure to its rows. `new_interferers` (ids) names the interferers a re-plan
     marks as new; without it, those overlapping a dropped channel are.
     """
-    plt = pyplot()
+    kit = toolkit()
     grid = site["grid"]
     kind = data.kind_of(answer)
     rows = data.rows(answer)
     spans = data.spans(site, answer, new_interferers)
-    fig = plt.figure(figsize=(width_in, height_in or _auto_height(len(rows))), dpi=dpi, layout="constrained")
+    fig = kit.figure(figsize=(width_in, height_in or _auto_height(len(rows))), dpi=dpi, layout="constrained")
     outer = fig.add_gridspec(2, 2, width_ratios=[4.2, 1.6], height_ratios=[2, max(3, len(rows))],
                              wspace=0.01, hspace=0.02)
     lane_ax = fig.add_subplot(outer[0, 0])
@@ -200,7 +200,7 @@ def channel_map(site: dict, answer: dict, path: str | Path | None = None, width_
     corner.text(0.0, 1.0, textwrap.fill(CAUTION, 44), fontsize=5.5, va="top", ha="left", color="#555555",
                 transform=corner.transAxes, gid="caution")
     x_lo, x_hi = -1.0, grid["count"]
-    source_colour = _draw_rows(plt, ax, site, rows, kind, dominant)
+    source_colour = _draw_rows(kit, ax, site, rows, kind, dominant)
     ax.set_xlim(x_lo, x_hi)
     ax.set_ylim(len(rows) - 0.5, -0.5)
     ax.set_yticks(range(len(rows)))
@@ -223,7 +223,7 @@ def channel_map(site: dict, answer: dict, path: str | Path | None = None, width_
     for y, row in enumerate(rows):
         col.text(0.0, y, _row_text(kind, row), fontsize=size, va="center", ha="left",
                  transform=col.get_yaxis_transform(), gid=f"figures:{row.label}")
-    handles = _legend_handles(plt, rows, kind, spans, source_colour)
+    handles = _legend_handles(kit, rows, kind, spans, source_colour)
     fig.legend(handles=handles, loc="outside lower center", ncol=min(5, len(handles)), fontsize=LABEL_PT,
                frameon=False)
     fig.suptitle(_title(site, answer), fontsize=LABEL_PT + 3, x=0.01, ha="left")
@@ -232,7 +232,7 @@ def channel_map(site: dict, answer: dict, path: str | Path | None = None, width_
     for side in ("left", "right", "bottom"):
         lane_ax.spines[side].set_visible(False)
     fig.canvas.draw()  # settles the layout, so that labels can be measured
-    n_lanes = _draw_interferers(plt, fig, lane_ax, ax, site, spans)
+    n_lanes = _draw_interferers(kit, fig, lane_ax, ax, site, spans)
     outer.set_height_ratios([0.6 * max(n_lanes, 1) + 0.8, max(3, len(rows))])
     save(fig, path, dpi)
     return fig

@@ -14,7 +14,7 @@ import textwrap
 from pathlib import Path
 
 from cohop.charts import data
-from cohop.charts._mpl import CAUTION, INTERFERER, NEW_INTERFERER, SOURCE_COLOURS, pyplot, save
+from cohop.charts._mpl import CAUTION, INTERFERER, NEW_INTERFERER, SOURCE_COLOURS, toolkit, save
 
 LABEL_PT = 7.0
 PAIR_STYLE = (("#e9c46a", 0.8), ("#f4a261", 1.6), ("#d62828", 2.8))  # colour, width per data.PAIR_CLASSES
@@ -53,13 +53,13 @@ def _place_labels(fig, ax, points: list[tuple[str, float, float]]) -> None:
 def site_map(site: dict, answer: dict, path: str | Path | None = None, width_in: float = 7.0,
              height_in: float = 6.0, dpi: int = 100, new_interferers=None):
     """Draw the site map; write it to `path` (.png or .svg) if given; return the matplotlib figure."""
-    plt = pyplot()
+    kit = toolkit()
     from matplotlib.lines import Line2D
     from matplotlib.patches import FancyArrowPatch
 
     systems, interferers = data.positions(site)
     new = {s.id for s in data.spans(site, answer, new_interferers) if s.new}
-    fig = plt.figure(figsize=(width_in, height_in), dpi=dpi, layout="constrained")
+    fig = kit.figure(figsize=(width_in, height_in), dpi=dpi, layout="constrained")
     ax = fig.add_subplot()
     where = systems | interferers
     for pair in data.harmful_pairs(site, answer):

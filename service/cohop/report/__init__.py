@@ -25,11 +25,8 @@ CHART_DPI = 110
 
 
 def _png_uri(fig) -> str:
-    import matplotlib.pyplot as plt
-
     buffer = io.BytesIO()
     fig.savefig(buffer, format="png", dpi=CHART_DPI)
-    plt.close(fig)
     return "data:image/png;base64," + base64.b64encode(buffer.getvalue()).decode("ascii")
 
 
