@@ -41,7 +41,7 @@ draws do not depend on K at all. The phase indicator is kept apart from k0
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -114,6 +114,7 @@ class _Source:
     harmful: np.ndarray | None = None  # source systems: (N_v, 1) int, channels of a in v's window; else None
     size: int = 0  # source systems: N_a
     activity: float = 1.0  # source systems: alpha_a
+    tables: list | None = None  # source systems: `_distinct_tables`, built once per victim
 
 
 def _phase_source(sid, thr_lo, thr_hi, victim_t: float, burst_s: float, period_s: float, **hopping) -> _Source:
@@ -136,9 +137,13 @@ def _system_source(prep: PreparedSite, v: int, a: int, channels: np.ndarray, hop
                "activity": float(link.activity_fraction)}
     src = prep.site.systems[a]
     if link.aligned:
-        return _Source(src.id, None, None, 1, None, None, 1, **hopping)
-    return _phase_source(src.id, None, None, prep.site.systems[v].packet_airtime_s,
-                         src.packet_airtime_s, src.dwell_s, **hopping)
+        out = _Source(src.id, None, None, 1, None, None, 1, **hopping)
+    else:
+        out = _phase_source(src.id, None, None, prep.site.systems[v].packet_airtime_s,
+                            src.packet_airtime_s, src.dwell_s, **hopping)
+    if out.max_overlaps <= min(_DRAWN_OVERLAPS, out.size):
+        out = replace(out, tables=_distinct_tables(out))
+    return out
 
 
 def _interferer_source(prep: PreparedSite, v: int, k: int, channels: np.ndarray) -> _Source | None:
@@ -167,8 +172,45 @@ def _certain_hits(bitgen, shape, src: _Source) -> np.ndarray:
     return np.random.Generator(bitgen).binomial(src.base_overlaps, np.broadcast_to(p, shape)) > 0
 
 
+def _distinct_tables(src: _Source) -> list[tuple[np.ndarray, np.ndarray]]:
+    """For the j-th overlapped dwell, per victim channel and per number s of harmful channels already visited
+    (all quiet): uint32 thresholds of 'harmful' ((h - s) / (N - j)) and of 'harmful and active' (times
+    alpha), shape (N_v, j + 1)."""
+    h = src.harmful.astype(float)  # (N_v, 1)
+    out = []
+    for j in range(src.max_overlaps):
+        left = np.maximum(h - np.arange(j + 1)[None, :], 0.0) / (src.size - j)
+        out.append((_u32(left), _u32(src.activity * left)))
+    return out
+
+
 def _distinct_hits(bitgen, shape, src: _Source, extra: np.ndarray | None) -> np.ndarray:
-    """Boolean (channels, block): a source system's K overlapped dwells on distinct channels (module docstring)."""
+    """Boolean (channels, block): a source system's K overlapped dwells on distinct channels (module docstring).
+    Short windows draw each dwell's channel in turn from those not yet visited: one uniform u per dwell is
+    'harmful' below (h - s) / (N - j) and 'harmful and active' below alpha times that, s counting the
+    harmful channels visited so far. Long windows draw the count at once (`_distinct_counted`)."""
+    if src.max_overlaps > _DRAWN_OVERLAPS or src.max_overlaps > src.size:
+        return _distinct_counted(bitgen, shape, src, extra)
+    tables = src.tables if src.tables is not None else _distinct_tables(src)
+    hit, seen = None, None
+    for j, (harm_thr, hit_thr) in enumerate(tables):
+        u = _bits(bitgen, shape)
+        if seen is None:
+            now, harmful = u < hit_thr, (u < harm_thr if len(tables) > 1 else None)
+        else:
+            now = u < np.take_along_axis(hit_thr, seen, axis=1)
+            harmful = u < np.take_along_axis(harm_thr, seen, axis=1) if j + 1 < len(tables) else None
+        if extra is not None and j >= src.base_overlaps:
+            now &= extra > (j - src.base_overlaps)
+        hit = now if hit is None else (hit | now)
+        if harmful is not None:
+            seen = harmful.astype(np.intp) if seen is None else seen + harmful
+    return hit
+
+
+def _distinct_counted(bitgen, shape, src: _Source, extra: np.ndarray | None) -> np.ndarray:
+    """As `_distinct_hits`, for windows of many dwells: J = floor(K / N) h + Hypergeometric(h, N - h, K mod N)
+    harmful visits, hit when Binomial(J, alpha) > 0."""
     gen = np.random.Generator(bitgen)
     k = np.full(shape, src.base_overlaps, dtype=np.int64)
     if extra is not None:

@@ -79,3 +79,22 @@ def test_full_activity_within_one_period_is_a_ratio_of_binomials():
     for n, h, k in [(20, 1, 5), (79, 3, 7), (50, 10, 49)]:
         assert distinct_survival_at(k, h, n, 1.0) == pytest.approx(math.comb(n - h, k) / math.comb(n, k),
                                                                   rel=1e-10)
+
+
+@pytest.mark.parametrize("victim_packet_s, overlaps", [(0.010, 3), (0.0125, 3.5)])
+def test_the_monte_carlo_draws_distinct_channels_dwell_by_dwell(victim_packet_s, overlaps):
+    """Windows of up to four dwells are drawn dwell by dwell without replacement; here K = 3, or 3 and 4 with
+    equal odds, against h = 3 harmful channels of 20 (window 1), 60 % activity: the Monte Carlo's interval
+    holds the hypergeometric figure, and the independent-draw figure lies outside it."""
+    victim = sites.system("v", [5], dwell_s=0.02, packet_airtime_s=victim_packet_s, retry_limit=0, fading=NONE)
+    source = sites.system("a", range(20), dwell_s=0.005, packet_airtime_s=0.005, activity_fraction=0.6,
+                          fading=NONE)
+    prep = prepare_site(sites.load(sites.site([victim, source], coupling_loss_db=50.0, n_channels=20)))
+    assert prep.window[0, 1] == 1
+    k0 = int(overlaps)
+    r = overlaps - k0
+    want = 1 - ((1 - r) * distinct_survival_at(k0, 3, 20, 0.6) + r * distinct_survival_at(k0 + 1, 3, 20, 0.6))
+    independent = 1 - ((1 - r) * (1 - 0.6 * 3 / 20) ** k0 + r * (1 - 0.6 * 3 / 20) ** (k0 + 1))
+    assert assess_site(prep).systems[0].collision_probability == pytest.approx(want, rel=1e-12)
+    lo, hi = simulate_site(prep, 400_000, seed=3).systems[0].collision.interval()
+    assert lo <= want <= hi and not lo <= independent <= hi, (lo, hi, want, independent)
