@@ -23,8 +23,10 @@ MODEL_ASSUMPTIONS = (
     "Systems are unsynchronised (random phase) unless they share a time_base_group, which means slot-aligned "
     "dwells.",
     "Adjacent-channel rejection is stepped: between tabulated offsets the lower offset's value applies.",
-    "A wideband interferer's level is its total power; the victim receives the share of its bandwidth "
-    "(flat spectrum).",
+    "A packet that spans several of a neighbour's dwells meets distinct channels of its hop set (a hop order "
+    "visits distinct channels in consecutive dwells), averaged over which ones.",
+    "A wideband interferer's level, and a system's wider than the victim, is its total power; the victim "
+    "receives the share of its bandwidth (flat spectrum).",
     "Losses on different hops and attempts are independent; propagation is evaluated at the grid's mid "
     "frequency.",
 )

@@ -22,6 +22,11 @@ diagnosis and the slot-aligned sequence construction all solve through
   failed: solution->size() == postsolve_mapping.size()"), from inside the
   solution callback always, from another thread in about one call in
   three on a loaded machine (measured; tests/planning/test_cpsat_stop.py).
+- a hint the model's own constraints reject is dropped (`hint_satisfies`):
+  it gives the search nothing, and with a floor under interleaved search it
+  aborts OR-Tools 9.15 ("Check failed: heuristics.fixed_search != nullptr",
+  the open-pit sample, whose loss ceilings the linearised model cannot
+  meet).
 """
 
 from __future__ import annotations
@@ -83,6 +88,45 @@ def set_floor(m: cp_model.CpModel, floor: float) -> None:
     objective.domain.extend([int(inner), DOMAIN_TOP])
 
 
+def _literal(values: dict, lit: int) -> bool:
+    return values[lit] == 1 if lit >= 0 else values[-lit - 1] == 0
+
+
+def _within(value: int, domain) -> bool:
+    bounds = list(domain)
+    return any(bounds[i] <= value <= bounds[i + 1] for i in range(0, len(bounds), 2))
+
+
+def _holds(c, values: dict) -> bool | None:
+    """Whether constraint `c` holds for `values`; None for a kind this check does not read."""
+    if c.has_linear():
+        return _within(sum(k * values[v] for v, k in zip(c.linear.vars, c.linear.coeffs)), c.linear.domain)
+    if c.has_bool_or():
+        return any(_literal(values, lit) for lit in c.bool_or.literals)
+    if c.has_bool_and():
+        return all(_literal(values, lit) for lit in c.bool_and.literals)
+    if c.has_at_most_one():
+        return sum(_literal(values, lit) for lit in c.at_most_one.literals) <= 1
+    if c.has_exactly_one():
+        return sum(_literal(values, lit) for lit in c.exactly_one.literals) == 1
+    return None
+
+
+def hint_satisfies(m: cp_model.CpModel) -> bool:
+    """Whether the model's hint gives every variable a value in its domain that meets every constraint (a
+    constraint of a kind not read here counts as not met)."""
+    p = m.proto
+    values = dict(zip(p.solution_hint.vars, p.solution_hint.values))
+    if len(values) < len(p.variables):
+        return False
+    if not all(_within(values[i], var.domain) for i, var in enumerate(p.variables)):
+        return False
+    for c in p.constraints:
+        if all(_literal(values, lit) for lit in c.enforcement_literal) and not _holds(c, values):
+            return False
+    return True
+
+
 def configure(solver: cp_model.CpSolver, budget: Budget, work_s: float, workers: int, seed: int,
               deterministic: bool, gap_limit: float | None = None) -> None:
     p = solver.parameters
@@ -115,6 +159,8 @@ def run(m: cp_model.CpModel, budget: Budget, phase: str, work_s: float, workers:
     configure(solver, budget, work_s, workers, seed, deterministic, gap_limit)
     if on_bound is not None:
         solver.best_bound_callback = on_bound
+    if len(m.proto.solution_hint.vars) and not hint_satisfies(m):
+        m.clear_hints()
     if floor is not None:
         set_floor(m, floor)
     watcher = _Watcher(on_solution) if on_solution is not None else None

@@ -19,7 +19,7 @@ from cohop.physics.rejection import OFFSET_TOLERANCE, bandwidth_share_db, harmfu
 from cohop.regulatory import get_profile
 from cohop.regulatory.profiles import Profile
 from cohop.site import Band, Interferer, Position, Propagation, Site, System
-from cohop.site_rules import effective_band
+from cohop.site_rules import NOT_RECEIVED_DBM, effective_band, level_computable
 from cohop.stats.overlap import ALIGNED, OverlapCount, random_phase_overlap
 
 #: Float noise allowance when fitting channels into band edges [Hz].
@@ -216,7 +216,9 @@ def _interferer_level(site: Site, itf: Interferer, v: int, f_hz: float) -> float
     victim = site.systems[v]
     if victim.id in given:
         return given[victim.id]
-    prop = site.coupling.propagation  # given levels or eirp, positions and propagation: site_rules
+    if not level_computable(site, itf, victim):
+        return NOT_RECEIVED_DBM  # listed elsewhere, not here: not received there (site_rules.not_received)
+    prop = site.coupling.propagation
     # a moving victim hears the interferer at its nearest (least-loss) position (victim_losses: at each)
     path = worst_path_loss_db(prop, f_hz, (itf.position,), victim.sampled_positions())
     # the planning margin lowers the computed loss, as for coupling between systems
@@ -332,6 +334,8 @@ def victim_losses(prep: PreparedSite, v: int, places: tuple[Position, ...],
         given = [lv.level_dbm for lv in itf.levels if lv.system == victim.id]
         if given:
             levels[k] = given[0]
+        elif not level_computable(site, itf, victim):
+            levels[k] = NOT_RECEIVED_DBM
         else:  # as _interferer_level: the planning margin lowers the computed loss
             path = position_losses_db(prop, f_mid, (itf.position,), places)[0]
             levels[k] = itf.eirp_dbm - (path - prop.margin_db) + victim.antenna_gain_dbi

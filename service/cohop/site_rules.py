@@ -459,17 +459,44 @@ def _missing_coupling(site: Site) -> list[Problem]:
                             "(position, positions or area) for both systems and a propagation model")]
 
 
-def _missing_levels(site: Site) -> list[Problem]:
+#: The level an interferer has at a receiver it is taken not to reach: `levels[]` does not list the system and
+#: the level cannot be computed (README, "Site"). The schema's lowest received level, far below any noise floor.
+NOT_RECEIVED_DBM = limits.SIGNAL_DBM.minimum
+
+
+def level_computable(site: Site, itf, system) -> bool:
+    """Whether an interferer's level at `system` can be computed: eirp_dbm, its position, the system's
+    position(s) and a propagation model."""
+    return (itf.eirp_dbm is not None and itf.position is not None and site.coupling.propagation is not None
+            and bool(system.sampled_positions()))
+
+
+def not_received(site: Site) -> list[tuple[str, list[str]]]:
+    """(interferer id, system ids) for each interferer that lists levels but not these systems, whose level
+    cannot be computed either: the interferer is taken as not received there (NOT_RECEIVED_DBM)."""
     out = []
-    prop = site.coupling.propagation
-    for k, itf in enumerate(site.interferers):
+    for itf in site.interferers:
         given = {lv.system for lv in itf.levels}
-        computable = itf.eirp_dbm is not None and itf.position is not None and prop is not None
-        missing = [s.id for s in site.systems if s.id not in given and not (computable and s.sampled_positions())]
+        if not given:
+            continue
+        unheard = [s.id for s in site.systems if s.id not in given and not level_computable(site, itf, s)]
+        if unheard:
+            out.append((itf.id, unheard))
+    return out
+
+
+def _missing_levels(site: Site) -> list[Problem]:
+    """An interferer with no level anywhere: neither levels[] nor what computes one, for some system."""
+    out = []
+    for k, itf in enumerate(site.interferers):
+        if itf.levels:
+            continue  # systems it does not list are not received there (not_received)
+        missing = [s.id for s in site.systems if not level_computable(site, itf, s)]
         if missing:
             names = ", ".join(repr(m) for m in missing[:10]) + (f" and {len(missing) - 10} more"
                                                                 if len(missing) > 10 else "")
-            out.append((("interferers", k), f"no level for system {names}: give levels, or eirp_dbm and "
+            out.append((("interferers", k), f"no level for system {names}: give levels (a system they do not "
+                                            "list does not receive the interferer), or eirp_dbm and "
                                             "positions with a propagation model"))
     return out
 

@@ -9,6 +9,9 @@ CP-SAT's own gap test ends the search."""
 
 from __future__ import annotations
 
+import subprocess
+import sys
+
 import pytest
 from ortools.sat.python import cp_model
 
@@ -62,3 +65,55 @@ def test_a_floor_is_a_bound_it_never_cuts_the_optimum(no_stop_search):
         out = cpsat.run(m, roomy(1.0), "CP-SAT", 1.0, workers=1, seed=1, deterministic=True, floor=floor)
         assert out.name == "OPTIMAL" and out.solver.objective_value == 8
     assert not no_stop_search
+
+
+OPEN_PIT_CHILD = """
+from cohop import cpsat, samples
+from cohop.jobs.requests import load_plan_request
+from cohop.planning import model, search
+from cohop.planning.instance import build_instance
+from cohop.prepare import prepare_site
+from tests.planning.helpers import roomy
+
+req = load_plan_request({"site": samples.load("open_pit_mine")["site"], "search": {"seed": 1}})
+inst = build_instance(prepare_site(req.site), req.requirements)
+m, mv, objective, scale = model.full_model(inst, search.greedy(inst))
+model.minimise(m, mv, inst, objective, scale)
+out = cpsat.run(m, roomy(3.0), "CP-SAT", 0.7, workers=2, seed=1, deterministic=True, gap_limit=0.01, floor=1.0)
+print(out.name)
+"""
+
+
+def test_a_floor_on_a_model_its_hint_violates_does_not_abort():
+    """The open-pit sample's loss ceilings are more than its linearised full model can meet, so the greedy hint
+    violates it; with a floor and interleaved workers OR-Tools 9.15 aborted ("heuristics.fixed_search !=
+    nullptr", reproduced). The hint is dropped and the model is found infeasible."""
+    child = subprocess.run([sys.executable, "-c", OPEN_PIT_CHILD], capture_output=True, text=True, timeout=240)
+    assert child.returncode == 0, child.stderr[-2000:]
+    assert child.stdout.split() == ["INFEASIBLE"]
+
+
+def _fixed_to_hint_is_feasible(m) -> bool:
+    """Reference: CP-SAT itself, with every variable fixed to its hint value."""
+    fixed = cp_model.CpModel()
+    fixed.proto.copy_from(m.proto)
+    hint = fixed.proto.solution_hint
+    for v, value in zip(list(hint.vars), list(hint.values)):
+        var = fixed.proto.variables[v]
+        var.domain.clear()
+        var.domain.extend([value, value])
+    fixed.clear_hints()
+    solver = cp_model.CpSolver()
+    solver.parameters.num_workers = 1
+    solver.parameters.max_time_in_seconds = 30
+    return solver.solve(fixed) in (cp_model.OPTIMAL, cp_model.FEASIBLE)
+
+
+@pytest.mark.parametrize("name", ["water_works", "open_pit_mine", "container_terminal"])
+def test_the_hint_check_agrees_with_cp_sat_on_the_fixed_hint(name):
+    from cohop.jobs.requests import load_plan_request
+
+    req = load_plan_request({"site": samples.load(name)["site"], "search": {"seed": 1}})
+    inst = build_instance(prepare_site(req.site), req.requirements)
+    m = _model(inst)
+    assert cpsat.hint_satisfies(m) == _fixed_to_hint_is_feasible(m)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import copy
+import math
 
 import pytest
 
@@ -60,3 +61,43 @@ def test_channel_numbering_fields_are_accepted_and_bounded(client):
     assert _assess(client, site).status_code == 200
     site["grid"]["channel_number_step"] = 0
     assert "/site/grid/channel_number_step" in _errors(_assess(client, site))
+
+
+def _measured_at_one_system(site: dict, interferer: str, system: str, level_dbm: float) -> dict:
+    """The interferer measured at one receiver only: levels[] names one system, no eirp_dbm or position."""
+    site = copy.deepcopy(site)
+    itf = next(i for i in site["interferers"] if i["id"] == interferer)
+    itf.pop("eirp_dbm", None)
+    itf.pop("position", None)
+    itf["levels"] = [{"system": system, "level_dbm": level_dbm}]
+    return site
+
+
+def test_levels_may_leave_systems_out_which_then_do_not_receive_the_interferer(client):
+    """README, "Site": a system that levels[] does not list, and for which no level can be computed, does not
+    receive the interferer; the answer says so in its assumptions."""
+    site = _measured_at_one_system(samples.load("container_terminal")["site"], "canteen-oven", "sts-1", -40.0)
+    resp = client.post("/v1/assessments", json={"site": site, "detail": "source"})
+    assert resp.status_code == 200, resp.get_json()
+    body = resp.get_json()
+    others = [s["id"] for s in site["systems"] if s["id"] != "sts-1"]
+    line = next(a for a in body["assumptions"] if a.startswith("Interferer 'canteen-oven'"))
+    assert all(repr(o) in line for o in others) and "'sts-1'" not in line
+    for system in body["systems"]:
+        oven = next(src for src in system["sources"] if src["id"] == "canteen-oven")
+        if system["id"] == "sts-1":  # the measured -40 dBm less the bandwidth share (flat spectrum)
+            victim = next(s for s in site["systems"] if s["id"] == "sts-1")
+            oven_site = next(i for i in site["interferers"] if i["id"] == "canteen-oven")
+            width = oven_site["high_hz"] - oven_site["low_hz"]
+            share = 10 * math.log10(min(1.0, victim["bandwidth_hz"] / width))
+            assert oven["level_dbm"] == pytest.approx(-40.0 + share, abs=1e-9)
+        else:
+            assert oven["level_dbm"] <= -200.0 and oven["collision_probability"] == 0.0
+
+
+def test_an_interferer_with_no_level_anywhere_is_still_refused(client):
+    site = _measured_at_one_system(samples.load("container_terminal")["site"], "canteen-oven", "sts-1", -40.0)
+    next(i for i in site["interferers"] if i["id"] == "canteen-oven")["levels"] = []
+    resp = _assess(client, site)
+    assert resp.status_code == 422
+    assert "no level for system" in _errors(resp)["/site/interferers/3"]

@@ -22,6 +22,7 @@ from cohop.montecarlo import SimulatedRate, SiteSimulation
 from cohop.prepare import PreparedSite, prepare_site
 from cohop.regulatory.profiles import Profile
 from cohop.regulatory.rules import FAIL, PASS, WARNING, Finding
+from cohop.site_rules import not_received
 from cohop.sequences.report import SequenceOutcome
 from cohop.site import Site, System
 from cohop.traffic.figures import TrafficFigures
@@ -124,6 +125,12 @@ def simulation_check(sim: SiteSimulation, assessment: Assessment) -> SimulationC
     return SimulationCheck(sim.seed, sim.trials_per_system, SIMULATION_CONFIDENCE, tuple(systems))
 
 
+def not_received_assumptions(site) -> tuple[str, ...]:
+    """One line per interferer whose levels[] leaves systems out that no level can be computed for."""
+    return tuple(f"Interferer {iid!r} is taken as not received by {', '.join(repr(s) for s in ids)}: its "
+                 "levels[] does not list them and no level can be computed there." for iid, ids in not_received(site))
+
+
 def assessment_answer(assessment: Assessment, caution: bool, simulation: SiteSimulation | None = None,
                       sequences=None, hop_orders=None, traffic: tuple[TrafficFigures, ...] = ()) -> AssessmentAnswer:
     """`hop_orders`: the sequences the assessment used (one per system, or None), for the figures of moving
@@ -133,7 +140,8 @@ def assessment_answer(assessment: Assessment, caution: bool, simulation: SiteSim
     systems = tuple(SystemResult(f, prep.site.systems[f.index],
                                  Compliance(prep.profile.id, compliance_status(f.compliance), f.compliance), m)
                     for f, m in zip(assessment.systems, mobility))
-    assumptions = MODEL_ASSUMPTIONS + ((MOBILITY_ASSUMPTION,) if prep.site.has_moving_systems else ())
+    assumptions = (MODEL_ASSUMPTIONS + ((MOBILITY_ASSUMPTION,) if prep.site.has_moving_systems else ())
+                   + not_received_assumptions(prep.site))
     return AssessmentAnswer(assessment=assessment, cautions=tuple(cautions_for(caution)), systems=systems,
                             simulation=None if simulation is None else simulation_check(simulation, assessment),
                             sequences=sequences, assumptions=assumptions, traffic=traffic)
