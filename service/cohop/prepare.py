@@ -159,15 +159,13 @@ def _coupling(site: Site, f_hz: float) -> tuple[np.ndarray, np.ndarray]:
         a, v = idx[e.to_system], idx[e.from_system]
         if not explicit[a, v] and np.isnan(loss[a, v]):
             loss[a, v] = e.loss_db
-    prop = site.coupling.propagation
-    places = [s.sampled_positions() for s in site.systems]  # several for a system that moves
-    for a in range(n):
-        for v in range(n):
-            if a == v or not np.isnan(loss[a, v]):
-                continue  # the rest come from positions (every pair has one or the other: site_rules)
-            path = worst_path_loss_db(prop, f_hz, places[a], places[v])
-            loss[a, v] = (path - site.systems[a].antenna_gain_dbi - site.systems[v].antenna_gain_dbi
-                          - prop.margin_db)
+    missing = np.isnan(loss)
+    np.fill_diagonal(missing, False)
+    if missing.any():  # the rest come from positions (every pair has one or the other: site_rules)
+        prop = site.coupling.propagation
+        gains = np.array([s.antenna_gain_dbi for s in site.systems])
+        computed = least_path_losses_db(site, f_hz) - gains[:, None] - gains[None, :] - prop.margin_db
+        loss[missing] = computed[missing]
     explicit_any = explicit | explicit.T
     np.fill_diagonal(explicit_any, False)
     return loss, explicit_any
@@ -305,6 +303,23 @@ def position_losses_db(prop: Propagation, f_hz: float, sources: tuple[Position, 
             out[here] = path_loss_db(prop, f_hz, distance[here], int(n))
         except ValueError as exc:
             raise SiteError([("/coupling/propagation", str(exc))]) from None
+    return out
+
+
+def least_path_losses_db(site: Site, f_hz: float) -> np.ndarray:
+    """(S, S) [a, v]: the least path loss between any sampled position of system a and any of system v (a
+    moving system coupled where it couples most, as `worst_path_loss_db` per pair), from one matrix over every
+    sampled position, reduced per system; nan for a system without positions."""
+    places = [s.sampled_positions() for s in site.systems]  # several for a system that moves
+    owners = [v for v, here in enumerate(places) if here]
+    out = np.full((len(places), len(places)), np.nan)
+    if not owners:
+        return out
+    flat = tuple(p for v in owners for p in places[v])
+    starts = np.cumsum([0] + [len(places[v]) for v in owners[:-1]])
+    every = position_losses_db(site.coupling.propagation, f_hz, flat, flat)
+    least = np.minimum.reduceat(np.minimum.reduceat(every, starts, axis=0), starts, axis=1)
+    out[np.ix_(owners, owners)] = least
     return out
 
 

@@ -131,3 +131,32 @@ def test_fixed_sites_unchanged():
     body["coupling"] = {"propagation": {"model": "free_space"}}
     prep = prepare_site(load_site(body))
     assert prep.coupling_loss_db[0, 1] == pytest.approx(p525_loss_db(mid_frequency_hz(20), 25.0), abs=P525_TOL_DB)
+
+
+def test_the_all_pairs_coupling_equals_the_least_loss_of_each_pair():
+    """prepare computes every pair's least path loss from one matrix over all sampled positions; each entry is
+    the minimum over that pair's own positions (checked pair by pair with `worst_path_loss_db`), and a given
+    entry still overrides it."""
+    from cohop import samples
+    from cohop.prepare import worst_path_loss_db
+
+    body = samples.load("container_terminal")["site"]
+    body["systems"][1]["area"] = {"x_min_m": 0.0, "x_max_m": 60.0, "y_min_m": 10.0, "y_max_m": 30.0,
+                                  "step_m": 20.0}
+    body["systems"][1].pop("position", None)
+    body["systems"][1].pop("positions", None)
+    site = load_site(body)
+    prep = prepare_site(site)
+    prop, f_mid = site.coupling.propagation, float((prep.centres_hz[0] + prep.centres_hz[-1]) / 2)
+    places = [s.sampled_positions() for s in site.systems]
+    assert len(places[1]) > 1 and any(len(p) > 1 for i, p in enumerate(places) if i != 1)
+    for a, source in enumerate(site.systems):
+        for v, victim in enumerate(site.systems):
+            if a == v or prep.coupling_explicit[a, v] or not places[a] or not places[v]:
+                continue
+            want = (worst_path_loss_db(prop, f_mid, places[a], places[v]) - source.antenna_gain_dbi
+                    - victim.antenna_gain_dbi - prop.margin_db)
+            assert prep.coupling_loss_db[a, v] == pytest.approx(want, abs=1e-9), (source.id, victim.id)
+    for e in site.coupling.entries:
+        idx = site.system_index()
+        assert prep.coupling_loss_db[idx[e.from_system], idx[e.to_system]] == e.loss_db

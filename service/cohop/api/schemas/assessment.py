@@ -5,7 +5,7 @@ from __future__ import annotations
 from marshmallow import fields, post_load, validate
 
 from cohop import limits
-from cohop.api.schemas.dump import DictOrAbsent, FiniteOrNull, Length, Part
+from cohop.api.schemas.dump import Bulk, DictOrAbsent, FiniteOrNull, Length, Part
 from cohop.api.schemas.fields import Count, Text, default
 from cohop.api.schemas.mobility import MobilitySchema
 from cohop.api.schemas.sequences import SequencesSchema
@@ -60,14 +60,14 @@ class ComplianceSchema(StrictSchema):  # cohop.jobs.answers.Compliance
     findings = fields.List(fields.Nested(FindingSchema))
 
 
-class OverlapSchema(StrictSchema):  # cohop.prepare.SourceLink
+class OverlapSchema(Bulk, StrictSchema):  # cohop.prepare.SourceLink
     aligned = fields.Boolean()
     base_count = fields.Integer(attribute="overlap.k0", metadata={"description": "k0: bursts overlapped at least"})
     extra_probability = _p("r: probability of one burst more", attribute="overlap.r")
     mean_count = _p(attribute="overlap.mean")
 
 
-class SourceSchema(StrictSchema):  # cohop.assess.SourceFigures
+class SourceSchema(Bulk, StrictSchema):  # cohop.assess.SourceFigures
     id = fields.String(attribute="source_id")
     kind = fields.String(metadata={"description": "system or interferer"})
     level_dbm = _p("Interfering level at the victim's receiver input, in its channel", attribute="link.level_dbm")
@@ -84,7 +84,7 @@ class SourceSchema(StrictSchema):  # cohop.assess.SourceFigures
     collision_probability = _p("Standalone per-hop probability, mean over the hop set")
 
 
-class ChannelSchema(StrictSchema):  # cohop.assess.ChannelFigures
+class ChannelSchema(Bulk, StrictSchema):  # cohop.assess.ChannelFigures
     channel = fields.Integer()
     centre_hz = _p()
     collision_probability = _p()
