@@ -90,6 +90,7 @@ def assessment_table(result: Assessment, detail: str | None = None) -> str:
         out += [f"  {sid}: {f.status} {f.rule}: {f.message} [{f.citation}; {f.certainty}]" for sid, f in flagged]
     if result.simulation:
         out += ["", _simulation_lines(result)]
+    out += mobility_lines(result.raw.get("systems"))
     out += traffic_lines(result.raw.get("traffic"))
     return "\n".join(out + _cautions(result.cautions))
 
@@ -104,6 +105,34 @@ def _verdict(flag: bool | None) -> str:
 
 def _clear(ratio: float | None) -> str:
     return "" if ratio is None else f"; clearance {ratio:.3g}"
+
+
+def _place(p: dict) -> str:
+    return f"x {p['x_m']:g} m, y {p['y_m']:g} m, floor {p['floor']}"
+
+
+def mobility_lines(systems: list | None) -> list[str]:
+    """Systems that move (more than one sampled position): the site's policy, where each is worst off, and
+    under the mean policy the mean over its positions (answer field `systems[].mobility`)."""
+    moving = [(s["id"], s["mobility"]) for s in systems or () if (s.get("mobility") or {}).get("positions_sampled",
+                                                                                              0) > 1]
+    if not moving:
+        return []
+    policy = moving[0][1]["policy"]
+    headline = ("each pair coupled at its worst positions" if policy == "worst"
+                else "the mean over each moving system's positions")
+    out = ["", f"moving systems (policy {policy}: the table shows {headline}):"]
+    for sid, m in moving:
+        w = m.get("worst_position")
+        line = f"  {sid}: {m['positions_sampled']} positions"
+        if w:
+            line += (f"; worst at {_place(w['position'])} (position {w['index']}): hit/hop "
+                     f"{_pct(w['collision_probability'])}, after retries {_pct(w['residual_loss_probability'])}")
+        if m.get("mean"):
+            line += (f"; mean over positions: hit/hop {_pct(m['mean']['collision_probability'])}, after retries "
+                     f"{_pct(m['mean']['residual_loss_probability'])}")
+        out.append(textwrap.fill(line, 100, subsequent_indent="      "))
+    return out
 
 
 def traffic_lines(traffic: list | None) -> list[str]:
@@ -147,6 +176,7 @@ def plan_table(result: Plan, detail: str | None = None) -> str:
     out += [textwrap.fill(f"{p.id}: {_ranges(p.hop_set)}", 100, initial_indent="  ", subsequent_indent="      ")
             for p in result.systems]
     out += _sequence_lines(result.raw.get("sequences"))
+    out += mobility_lines((result.raw.get("assessment") or {}).get("systems"))
     out += traffic_lines((result.raw.get("assessment") or {}).get("traffic"))
     if result.baselines:
         out += ["", "against what a practitioner might do (evaluated objective; lower is better):"]
@@ -284,6 +314,7 @@ def replan_table(result: Replan, detail: str | None = None) -> str:
             out.append(f"  {d['id']}: {_pct(d['before']['collision_probability'])} -> "
                        f"{_pct(d['after']['collision_probability'])}")
     out += [f"  note: {n}" for n in result.raw.get("notes", [])]
+    out += mobility_lines((result.raw.get("assessment") or {}).get("systems"))
     out += traffic_lines((result.raw.get("assessment") or {}).get("traffic"))
     return "\n".join(out + _cautions(result.cautions))
 

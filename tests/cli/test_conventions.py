@@ -191,3 +191,23 @@ def test_a_reader_that_stops_early_ends_the_command_quietly():
     _, err = proc.communicate(timeout=60)
     assert first.startswith(b"fcc15.247-902-928")
     assert proc.returncode == 0 and b"Traceback" not in err and b"BrokenPipe" not in err
+
+
+@pytest.mark.parametrize("policy", ["worst", "mean"])
+def test_the_table_names_where_a_moving_system_is_worst_off(capsys, tmp_path, policy):
+    """The container terminal's quay crane moves over five positions: the text table says the policy, where the
+    crane is worst off and its figures there (and the mean under the mean policy), as the JSON answer does."""
+    body = samples.load("container_terminal")
+    body["site"]["mobility_policy"] = policy
+    path = tmp_path / "site.json"
+    path.write_text(json.dumps(body), encoding="utf-8")
+    code, text, _ = run_cli(capsys, "assess", str(path))
+    _, raw, _ = run_cli(capsys, "assess", str(path), "--json")
+    assert code == 0
+    crane = next(s for s in json.loads(raw)["systems"] if s["id"] == "sts-1")["mobility"]
+    block = text[text.index("moving systems (policy " + policy):]
+    line = " ".join(block.split("\n\n")[0].split())
+    w = crane["worst_position"]
+    assert f"sts-1: {crane['positions_sampled']} positions; worst at x {w['position']['x_m']:g} m" in line
+    assert f"hit/hop {cli_text._pct(w['collision_probability'])}" in line
+    assert ("mean over positions" in line) == (policy == "mean")

@@ -173,16 +173,56 @@ class Pair:
     hit: float  # the source's standalone per-hop hit probability at the victim
 
 
-def positions(site: dict) -> tuple[dict[str, tuple[float, float]], dict[str, tuple[float, float]]]:
-    """(systems, interferers) that have a position: id -> (x_m, y_m)."""
+def _worst_places(answer: dict | None) -> dict[str, tuple[float, float]]:
+    """Where each moving system is worst off, from the answer's `mobility` (when it has one)."""
+    out = {}
+    for s in (assessment_of(answer)["systems"] if answer else []):
+        worst = (s.get("mobility") or {}).get("worst_position")
+        if worst:
+            out[s["id"]] = (worst["position"]["x_m"], worst["position"]["y_m"])
+    return out
+
+
+def positions(site: dict, answer: dict | None = None) -> tuple[dict[str, tuple[float, float]],
+                                                              dict[str, tuple[float, float]]]:
+    """(systems, interferers) that have a place: id -> (x_m, y_m). A system that moves (`positions` or
+    `area`) is placed where the answer says it is worst off, else at its first position or the area's
+    centre."""
+    worst = _worst_places(answer)
+
+    def place(item):
+        if item.get("position"):
+            return item["position"]["x_m"], item["position"]["y_m"]
+        if item["id"] in worst:
+            return worst[item["id"]]
+        if item.get("positions"):
+            return item["positions"][0]["x_m"], item["positions"][0]["y_m"]
+        if item.get("area"):
+            a = item["area"]
+            return (a["x_min_m"] + a["x_max_m"]) / 2, (a["y_min_m"] + a["y_max_m"]) / 2
+        return None
+
     def placed(items):
-        return {i["id"]: (i["position"]["x_m"], i["position"]["y_m"]) for i in items if i.get("position")}
+        return {i["id"]: p for i in items if (p := place(i)) is not None}
     return placed(site.get("systems", [])), placed(site.get("interferers", []))
+
+
+def tracks(site: dict) -> dict[str, list[tuple[float, float]]]:
+    """The ground a moving system covers: its positions in order, or its area's corners (closed)."""
+    out = {}
+    for s in site.get("systems", []):
+        if s.get("positions") and len(s["positions"]) > 1:
+            out[s["id"]] = [(p["x_m"], p["y_m"]) for p in s["positions"]]
+        elif s.get("area"):
+            a = s["area"]
+            out[s["id"]] = [(a["x_min_m"], a["y_min_m"]), (a["x_max_m"], a["y_min_m"]), (a["x_max_m"], a["y_max_m"]),
+                            (a["x_min_m"], a["y_max_m"]), (a["x_min_m"], a["y_min_m"])]
+    return out
 
 
 def harmful_pairs(site: dict, answer: dict) -> list[Pair]:
     """Source -> victim pairs whose standalone hit is at least HARMFUL_PAIR_MIN, between placed ends."""
-    systems, interferers = positions(site)
+    systems, interferers = positions(site, answer)
     placed = systems | interferers
     out = []
     for s in assessment_of(answer)["systems"]:

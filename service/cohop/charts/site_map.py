@@ -57,7 +57,8 @@ def site_map(site: dict, answer: dict, path: str | Path | None = None, width_in:
     from matplotlib.lines import Line2D
     from matplotlib.patches import FancyArrowPatch
 
-    systems, interferers = data.positions(site)
+    systems, interferers = data.positions(site, answer)
+    moving = data.tracks(site)
     new = {s.id for s in data.spans(site, answer, new_interferers) if s.new}
     fig = kit.figure(figsize=(width_in, height_in), dpi=dpi, layout="constrained")
     ax = fig.add_subplot()
@@ -69,12 +70,17 @@ def site_map(site: dict, answer: dict, path: str | Path | None = None, width_in:
                                      linewidth=lw, shrinkA=6, shrinkB=6, alpha=0.9,
                                      gid=f"pair:{pair.source}->{pair.victim}"))
     for i, (sid, (x, y)) in enumerate(systems.items()):
-        ax.plot([x], [y], "o", color=SOURCE_COLOURS[i % len(SOURCE_COLOURS)], markersize=8, gid=f"system:{sid}")
+        colour = SOURCE_COLOURS[i % len(SOURCE_COLOURS)]
+        if sid in moving:  # the ground it covers, dotted; the marker where it is worst off
+            xs_t, ys_t = zip(*moving[sid])
+            ax.plot(xs_t, ys_t, ":", color=colour, linewidth=1.2, gid=f"track:{sid}")
+        ax.plot([x], [y], "o", color=colour, markersize=8, gid=f"system:{sid}")
     for iid, (x, y) in interferers.items():
         ax.plot([x], [y], "^", color=NEW_INTERFERER if iid in new else INTERFERER, markersize=9,
                 markeredgecolor="black" if iid in new else "none", gid=f"interferer:{iid}")
-    xs = [p[0] for p in where.values()] or [0.0]
-    ys = [p[1] for p in where.values()] or [0.0]
+    ground = list(where.values()) + [p for t in moving.values() for p in t]
+    xs = [p[0] for p in ground] or [0.0]
+    ys = [p[1] for p in ground] or [0.0]
     pad = 0.12 * max(max(xs) - min(xs), max(ys) - min(ys), 10.0)
     ax.set_xlim(min(xs) - pad, max(xs) + pad)
     ax.set_ylim(min(ys) - pad, max(ys) + pad)
@@ -88,6 +94,9 @@ def site_map(site: dict, answer: dict, path: str | Path | None = None, width_in:
     _place_labels(fig, ax, [(("NEW " if k in new else "") + k, *v) for k, v in where.items()])
     handles = [Line2D([], [], marker="o", linestyle="", color=SOURCE_COLOURS[0], label="hopping system"),
                Line2D([], [], marker="^", linestyle="", color=INTERFERER, label="fixed interferer")]
+    if moving:
+        handles.append(Line2D([], [], marker="o", linestyle=":", color=SOURCE_COLOURS[0],
+                              label="moving system: its ground, marked where it is worst off"))
     if new:
         handles.append(Line2D([], [], marker="^", linestyle="", color=NEW_INTERFERER, markeredgecolor="black",
                               label="new interferer"))
