@@ -156,6 +156,21 @@ def _site_map(args, body: dict, raw: dict) -> None:
     print(f"site map written to {args.site_map}", file=sys.stderr)
 
 
+def _traffic_chart(args, body: dict, raw: dict) -> None:
+    """--traffic-chart FILE: deadline misses and watchdog stops against each system's limits."""
+    if not getattr(args, "traffic_chart", None):
+        return
+    from cohop.charts import PlotUnavailable, traffic_chart
+
+    try:
+        traffic_chart(body["site"], raw, args.traffic_chart)
+    except PlotUnavailable as err:
+        raise fail(EXIT_EXTRA, f"cohop: {err}", "missing-extra")
+    except ValueError as err:
+        raise fail(EXIT_USAGE, f"cohop: no traffic chart: {err}")
+    print(f"traffic chart written to {args.traffic_chart}", file=sys.stderr)
+
+
 def _write_report(args, body: dict, raw: dict) -> None:
     """--report FILE.html: the self-contained HTML report of this answer."""
     if not getattr(args, "report", None):
@@ -273,6 +288,7 @@ def _cmd_assess(args) -> int:
     _chart(args, body, result.raw)
     _write_report(args, body, result.raw)
     _site_map(args, body, result.raw)
+    _traffic_chart(args, body, result.raw)
     return _emit(args, result.raw, assessment_table(result, detail=args.detail))
 
 
@@ -310,6 +326,7 @@ def _cmd_plan(args) -> int:
     _chart(args, body, result.raw)
     _write_report(args, body, result.raw)
     _site_map(args, body, result.raw)
+    _traffic_chart(args, body, result.raw)
     _export(args, body, result.raw)
     return _emit(args, result.raw, plan_table(result, detail=args.detail))
 
@@ -373,6 +390,7 @@ def _cmd_replan(args) -> int:
     _chart(args, body, result.raw)
     _write_report(args, body, result.raw)
     _site_map(args, body, result.raw)
+    _traffic_chart(args, body, result.raw)
     _export(args, body, result.raw)
     return _emit(args, result.raw, replan_table(result, detail=args.detail))
 
@@ -514,8 +532,10 @@ def _outputs(p: argparse.ArgumentParser) -> None:
                    "that hits each channel most")
     p.add_argument("--site-map", metavar="FILE", help="also draw the site map (systems and interferers by "
                    "position, harmful source -> victim pairs) to FILE (.png or .svg)")
+    p.add_argument("--traffic-chart", metavar="FILE", help="also draw, for the systems with traffic requirements, "
+                   "deadline misses and watchdog stops against their limits to FILE (.png or .svg)")
     p.add_argument("--report", metavar="FILE.html", help="also write a self-contained HTML report (inputs, plan, "
-                   "figures, compliance, baselines, charts, cautions) to FILE.html")
+                   "figures, traffic, compliance, baselines, charts, cautions) to FILE.html")
 
 
 def _common(p: argparse.ArgumentParser) -> None:

@@ -71,7 +71,7 @@ def test_it_renders_and_every_image_loads(chromium, page, tmp_path):
     parser = _Probe()
     parser.feed(browser.dump_dom(chromium, probed))
     result = json.loads(parser.text)
-    assert [i["id"] for i in result["images"]] == ["chart-channels", "chart-dominant", "chart-site"]
+    assert [i["id"] for i in result["images"]] == ["chart-channels", "chart-dominant", "chart-site", "chart-traffic"]
     for image in result["images"]:
         assert image["complete"] and image["width"] > 0 and image["height"] > 0, image
     assert {"charts", "plan", "figures", "compliance", "baselines", "inputs", "assumptions"} <= set(result["sections"])

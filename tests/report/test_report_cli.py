@@ -14,7 +14,7 @@ def test_assess_writes_a_report_with_per_channel_shading(capsys, tmp_path):
     assert answer["systems"][0]["channels"]  # a report asks for per-channel figures when no --detail is given
     document = path.read_text(encoding="utf-8")
     assert document.startswith("<!DOCTYPE html>") and "Assessment report" in document
-    assert document.count("data:image/png;base64,") == 3
+    assert document.count("data:image/png;base64,") == 4  # channels, dominant sources, site map, traffic
 
 
 def test_replan_writes_a_report(capsys, tmp_path):

@@ -70,7 +70,8 @@ def test_a_plan_report_holds_every_part():
 def test_self_contained_no_script_nothing_fetched():
     page, _ = _parse(replan_report())
     assert page.scripts == 0
-    assert len(page.sources) == 3 and all(s.startswith("data:image/png;base64,") for s in page.sources)
+    # channel map, site map, traffic (the water works states traffic requirements)
+    assert len(page.sources) == 3 + 1 and all(s.startswith("data:image/png;base64,") for s in page.sources)
     assert all(link.startswith("#") for link in page.links)
 
 
@@ -85,13 +86,13 @@ def test_replan_report_lists_the_changes():
     assert f"channel changes {answer['changes']['count']}" in text
 
 
-def test_assessment_without_positions_or_channel_detail_has_one_chart():
+def test_assessment_without_positions_or_channel_detail_has_the_channel_and_traffic_charts():
     body, answer = assessed("water_works", "system")
     body = copy.deepcopy(body)
     for item in body["site"]["systems"] + body["site"]["interferers"]:
         item.pop("position", None)
     page, text = _parse(render_report(body, answer))
-    assert len(page.sources) == 1  # the channel map; no dominant sources, no site map
+    assert len(page.sources) == 2  # the channel map and the traffic chart; no dominant sources, no site map
     assert "No baselines were evaluated" in text
 
 
@@ -123,3 +124,14 @@ def test_without_matplotlib_the_report_says_how_to_get_charts(monkeypatch):
 @pytest.mark.parametrize("channels, runs", [([], "none"), ([3], "3"), ([5, 0, 1, 2, 7, 8], "0-2, 5, 7-8")])
 def test_channel_runs(channels, runs):
     assert ranges(channels) == runs
+
+
+def test_the_traffic_section_and_chart_carry_each_system_with_requirements():
+    body, answer = assessed()
+    doc = render_report(body, answer)
+    assert 'id="chart-traffic"' in doc or "chart-traffic" in doc
+    section = doc[doc.index("Traffic: deadlines and watchdog stops"):]
+    for t in answer["traffic"]:
+        assert f"<td>{t['id']}</td>" in section
+        if t.get("deadline_missed"):
+            assert pct(t["deadline_missed"]["value"]) in section

@@ -31,7 +31,8 @@ def _png_uri(fig) -> str:
 
 
 def _charts(body: dict, answer: dict) -> str:
-    from cohop.charts import PlotUnavailable, channel_map, site_map
+    from cohop.charts import PlotUnavailable, channel_map, site_map, traffic_chart
+    from cohop.charts.traffic_panels import rows as traffic_rows
     from cohop.charts.data import assessment_of, kind_of
 
     site = body["site"]
@@ -51,6 +52,11 @@ def _charts(body: dict, answer: dict) -> str:
         out += figure(_png_uri(site_map(site, answer)), "site map",
                       f"Systems and interferers by position; arrows run from a source to the victim it hits "
                       f"(each source alone, with {what}).", "chart-site")
+    if traffic_rows(answer):
+        out += figure(_png_uri(traffic_chart(site, answer)), "traffic",
+                      "For the systems with traffic requirements: how likely a message misses its deadline and how "
+                      "often the watchdog stops the machine (dot: predicted; bar: 95 % interval; tick: the "
+                      "system's limit).", "chart-traffic")
     return section("charts", "Charts", out)
 
 
@@ -59,6 +65,7 @@ def render_report(body: dict, answer: dict, charts: bool = True) -> str:
     body = body if "site" in body else {"site": body}
     parts = [sections.header(body, answer), sections.summary(answer),
              _charts(body, answer) if charts else "", sections.plan(body, answer), sections.figures(answer),
+             sections.traffic(answer),
              sections.compliance(answer), sections.baselines(answer), sections.inputs(body),
              sections.assumptions(answer)]
     title = sections.KIND_TITLE[kind_of(answer)]

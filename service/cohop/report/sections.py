@@ -129,6 +129,44 @@ def figures(answer: dict) -> str:
     return section("figures", "Figures", out)
 
 
+def _with_interval(figure: dict | None, fmt) -> str:
+    if figure is None:
+        return ""
+    lo, hi = figure["interval"]
+    return f"{fmt(figure['value'])} ({fmt(lo)} to {fmt(hi)})"
+
+
+def _rate(x: float) -> str:
+    return f"{x:.3g}"
+
+
+def traffic(answer: dict) -> str:
+    """The traffic figures of the systems that state requirements (`traffic[]`), with their intervals, model
+    and caution; empty when none does."""
+    items = assessment_of(answer).get("traffic") or []
+    if not items:
+        return ""
+    rows = []
+    for t in items:
+        req = t.get("requirement") or {}
+        quantiles = "/".join("never" if q["latency_s"] is None else f"{1000 * q['latency_s']:.1f}"
+                             for q in t.get("latency_quantiles") or [])
+        deadline = "" if req.get("deadline_s") is None else (
+            f"{req['deadline_s']:g} s, may miss {pct(1 - req['deadline_probability'])}: "
+            + ("met" if t.get("meets_deadline") else "NOT met"))
+        watchdog = "" if req.get("watchdog_s") is None else (
+            f"{req['watchdog_s']:g} s, at most {req['max_stops_per_hour']:g}/h: "
+            + ("met" if t.get("meets_stops") else "NOT met"))
+        rows.append([t["id"], f"{t['message_interval_s']:g}", quantiles, _with_interval(t.get("deadline_missed"), pct),
+                     deadline, _with_interval(t.get("stops_per_hour"), _rate), watchdog,
+                     (t.get("deadline_missed") or t.get("stops_per_hour") or {}).get("dominant_source", "")])
+    out = para(esc(items[0]["caution"].capitalize() + "."))
+    out += para(esc("Model: " + items[0]["model"] + "."))
+    out += table(["system", "message every [s]", "latency 50/90/99/99.9 % [ms]", "misses its deadline (95 %)",
+                  "deadline", "watchdog stops per hour (95 %)", "watchdog", "main source"], rows)
+    return section("traffic", "Traffic: deadlines and watchdog stops", out)
+
+
 def compliance(answer: dict) -> str:
     out = ""
     for s in assessment_of(answer)["systems"]:
