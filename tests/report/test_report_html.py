@@ -135,3 +135,13 @@ def test_the_traffic_section_and_chart_carry_each_system_with_requirements():
         assert f"<td>{t['id']}</td>" in section
         if t.get("deadline_missed"):
             assert pct(t["deadline_missed"]["value"]) in section
+
+
+def test_the_summary_gives_the_weighted_sum_as_a_number_not_a_percentage():
+    """The priority-weighted sum over systems can exceed 1 (the container terminal's is about 0.7 to 3): it is
+    not a probability and is not written as one."""
+    body, answer = assessed()
+    _, text = _parse(render_report(body, answer))
+    total = answer["summary"]["weighted_collision_probability"]
+    assert f"priority-weighted sum of per-hop hit probabilities {total:.4f}" in " ".join(text.split())
+    assert pct(total) not in text.split("priority-weighted sum")[1][:60]

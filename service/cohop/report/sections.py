@@ -55,7 +55,9 @@ def header(body: dict, answer: dict) -> str:
 def summary(answer: dict) -> str:
     kind = kind_of(answer)
     s = assessment_of(answer)["summary"]
-    rows = [["weighted per-hop hit probability", pct(s["weighted_collision_probability"])],
+    # a sum over the systems (priority-weighted), not a probability: written as a number, not a percentage
+    rows = [["priority-weighted sum of per-hop hit probabilities", _num(s["weighted_collision_probability"],
+                                                                         "{:.4f}")],
             ["worst per-hop hit probability", f"{pct(s['worst_collision_probability'])} ({s['worst_system']})"]]
     if kind == "plan":
         solver = answer["solver"]
