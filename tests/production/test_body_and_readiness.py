@@ -88,7 +88,7 @@ def test_readiness_answers_503_problem_while_draining(client):
     lifecycle.mark_draining()
     try:
         body = problem_body(client.get("/v1/ready"), 503, "/v1/ready", "urn:cohop:problem:draining")
-        assert body["state"] == "draining" and body["solve_slots"] == 1
+        assert body["state"] == "draining" and body["max_concurrent_solves"] == 1
         assert client.get("/v1/health").status_code == 200  # liveness is unaffected
     finally:
         lifecycle.clear_draining()

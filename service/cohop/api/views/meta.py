@@ -25,7 +25,7 @@ class HealthSchema(StrictSchema):
 class ReadySchema(StrictSchema):
     status = fields.String(metadata={"description": "ready"})
     solves_running = fields.Integer()
-    solve_slots = fields.Integer()
+    max_concurrent_solves = fields.Integer(metadata={"description": "COHOP_MAX_CONCURRENT_SOLVES"})
 
 
 class DrainingProblemSchema(ProblemSchema):
@@ -33,14 +33,14 @@ class DrainingProblemSchema(ProblemSchema):
         "description": "draining: the server received SIGTERM; it still answers requests for COHOP_DRAIN_S "
                        "seconds, then lets in-flight ones finish and exits"})
     solves_running = fields.Integer()
-    solve_slots = fields.Integer()
+    max_concurrent_solves = fields.Integer(metadata={"description": "COHOP_MAX_CONCURRENT_SOLVES"})
 
 
 def _slots() -> dict:
     from cohop.api.solver_runner import slots
 
     return {"solves_running": slots(current_app).active,
-            "solve_slots": current_app.config["COHOP_MAX_CONCURRENT_SOLVES"]}
+            "max_concurrent_solves": current_app.config["COHOP_MAX_CONCURRENT_SOLVES"]}
 
 
 @blp.route("/health")
