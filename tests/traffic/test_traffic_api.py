@@ -96,3 +96,22 @@ def test_a_plan_rechecks_its_traffic_along_its_own_sequences():
     # the traffic figures read the same per-hop collision as the plan's assessment
     assert t["collision_probability"] == pytest.approx(
         answer["assessment"]["systems"][0]["per_hop"]["collision_probability"], rel=1e-9)
+
+
+def test_a_ceiling_the_plan_cannot_meet_is_reported_as_not_met_not_as_binding():
+    """The open-pit sample's shovel remote asks for 99.9 % within 0.2 s, which its slope-radar neighbour does
+    not allow: the plan's binding list says NOT met with the estimate and the ceiling (it said only "loss
+    ceiling"), and the re-checked traffic figure agrees that the deadline is missed."""
+    from cohop.api.app import create_app
+
+    body = load_sample("open_pit_mine.json")
+    r = create_app({"TESTING": True}).test_client().post(
+        "/v1/plans", json={"site": body["site"], "search": {"time_limit_s": 1.0, "seed": 1}})
+    assert r.status_code == 200, r.get_json()
+    answer = r.get_json()
+    shovel = next(b for b in answer["solver"]["binding"] if b.startswith("shovel-remote: loss ceiling"))
+    t = _one(answer["assessment"], "shovel-remote")
+    system = next(s for s in answer["assessment"]["systems"] if s["id"] == "shovel-remote")
+    ceiling, estimate = t["collision_ceiling"], system["per_hop"]["collision_probability"]
+    assert "NOT met" in shovel and f"{ceiling:.3g}" in shovel
+    assert t["meets_deadline"] is False and estimate > ceiling

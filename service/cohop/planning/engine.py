@@ -166,7 +166,13 @@ def _binding(inst: PlanningInstance, x: np.ndarray, estimates: np.ndarray) -> li
                 out.append(f"{inst.ids[v]}: {why} (channels {chan_runs[0][0]}-{chan_runs[-1][1]})")
     for v in range(inst.n_systems):
         sid = inst.ids[v]
-        if math.isfinite(inst.ceilings[v]) and estimates[v] >= 0.99 * inst.ceilings[v]:
+        ceiling = inst.ceilings[v]
+        if math.isfinite(ceiling) and ceiling < 0:
+            out.append(f"{sid}: loss ceiling NOT met (fading alone exceeds it)")
+        elif math.isfinite(ceiling) and estimates[v] > ceiling * (1 + 1e-9):
+            out.append(f"{sid}: loss ceiling NOT met (per-hop collision estimate {estimates[v]:.3g} above the "
+                       f"{ceiling:.3g} it allows)")
+        elif math.isfinite(ceiling) and estimates[v] >= 0.99 * ceiling:
             out.append(f"{sid}: loss ceiling")
         pins = np.flatnonzero(inst.pinned[v])
         free = np.flatnonzero(inst.allowed[v] & ~x[v])

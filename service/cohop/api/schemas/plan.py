@@ -146,7 +146,8 @@ class SolverReportSchema(StrictSchema):  # cohop.planning.engine.SolverReport
                        "plans), cp_sat_deterministic_time, pricing_operations (column generation), dp_operations "
                        "(Lagrangian bound: DP states and transition pairs), objective_rounds (rounds of the linear "
                        "planner: residual_loss, worst_margin)"})
-    binding = fields.List(fields.String(), metadata={"description": "Requirements the plan presses against"})
+    binding = fields.List(fields.String(), metadata={"description": "Requirements the plan presses against; a loss "
+                                                     "ceiling it does not meet says NOT met"})
     notes = fields.List(fields.String())
 
 
