@@ -238,7 +238,7 @@ def _interferer_links(site: Site, wanted: np.ndarray, centres: np.ndarray, f_hz:
 def _interferer_link(victim: System, wanted_dbm: float, itf: Interferer, total_dbm: float,
                      centres: np.ndarray) -> tuple[SourceLink, tuple[int, int]]:
     # share of a wideband emitter's power inside the victim's channel (flat spectrum), as for a system
-    share_db = bandwidth_share_db(victim.bandwidth_hz, itf.width_hz)
+    share_db = bandwidth_share_db(victim.bandwidth_hz, itf.width_hz) if total_dbm > NOT_RECEIVED_DBM else 0.0
     overlap = None
     if itf.burst_s is not None:
         overlap = random_phase_overlap(victim.packet_airtime_s, itf.burst_s, itf.period_s)
