@@ -104,18 +104,51 @@ def distinct_survival_at(overlaps, harmful, size, activity):
     keep = 1.0 - np.asarray(activity, dtype=float)
     q, m = np.divmod(k, n)
     h, n, m, q, keep = np.broadcast_arrays(h, n, m, q, keep)
-    # m <= 1 (one overlapped dwell, or a whole number of periods) in closed form: 1 - alpha h / N
+    # m <= 1 (one overlapped dwell, or a whole number of periods) or no harmful channel, in closed form:
+    # 1 - alpha h / N
     total = np.where(m == 0, 1.0, 1.0 - (1.0 - keep) * h / n)
-    several = m >= 2
+    several = (m >= 2) & (h > 0)
     if several.any():
         hs, ns, ms, ks = h[several], n[several], m[several], keep[several]
-        top = int(np.minimum(hs, ms).max(initial=0))
+        total[several] = _hypergeometric_mean_power(hs, ns, ms, ks)
+    return keep ** (h * q) * total
+
+
+#: Up to this many draws, the hypergeometric probabilities come from products and a recursion (exact to
+#: rounding, no underflow: P(J = 0) >= N^-m > 1e-300 for N <= 10^4); beyond, from log-gamma.
+_PRODUCT_DRAWS = 64
+
+
+def _product_of_draws(pmf, h, n, m):
+    """P(J = 0) = prod_{i < m} (n - h - i) / (n - i), element-wise."""
+    for i in range(int(m.max())):
+        pmf = np.where(i < m, pmf * (n - h - i) / (n - i), pmf)
+    return pmf
+
+
+def _hypergeometric_mean_power(h, n, m, keep):
+    """E[keep^J], J ~ Hypergeometric(population n, h marked, m drawn), element-wise over 1-d arrays."""
+    out = np.empty(h.shape)
+    fast = (m <= _PRODUCT_DRAWS) & (n - h >= m)  # P(J = 0) > 0 and its product is short
+    if fast.any():
+        hf, nf, mf, kf = h[fast], n[fast], m[fast], keep[fast]
+        with np.errstate(divide="ignore", invalid="ignore"):  # the discarded branch of np.where may divide by 0
+            pmf = _product_of_draws(np.ones(hf.shape), hf, nf, mf)
+        acc = pmf.copy()
+        for j in range(int(np.minimum(hf, mf).max())):  # P(J = j + 1) from P(J = j)
+            ratio = (hf - j) * (mf - j) / ((j + 1.0) * (nf - hf - mf + j + 1.0))
+            pmf = np.where(j < np.minimum(hf, mf), pmf * ratio, 0.0)
+            acc += pmf * kf ** (j + 1)
+        out[fast] = acc
+    slow = ~fast
+    if slow.any():
+        hs, ns, ms, ks = h[slow], n[slow], m[slow], keep[slow]
         ln_all = _log_choose(ns, ms)
         acc = np.zeros(hs.shape)
-        for j in range(top + 1):
+        for j in range(int(np.minimum(hs, ms).max(initial=0)) + 1):
             acc += np.exp(_log_choose(hs, j) + _log_choose(ns - hs, ms - j) - ln_all) * ks**j
-        total[several] = acc
-    return keep ** (h * q) * total
+        out[slow] = acc
+    return out
 
 
 def survival_distinct(k0, r, harmful, size, activity):
