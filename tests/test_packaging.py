@@ -19,10 +19,12 @@ def test_every_package_is_listed_in_pyproject():
 
 
 def test_the_image_lock_pins_every_runtime_dependency():
-    """deploy/requirements.lock installs the image's packages with --no-deps for the wheel: every requirement of
-    cohop[service,plot], and theirs, must be pinned there (the server draws the report's charts)."""
+    """deploy/requirements.lock installs the image's packages, then the wheel with --no-deps: every requirement
+    of cohop[service,plot] must be pinned there, and so must theirs. A package's own requirements are walked
+    where the installed version is the pinned one (another version may need other packages: then only its name
+    is checked)."""
     import re
-    from importlib.metadata import PackageNotFoundError, requires
+    from importlib.metadata import PackageNotFoundError, requires, version
     from pathlib import Path
 
     from packaging.requirements import Requirement
@@ -31,10 +33,12 @@ def test_the_image_lock_pins_every_runtime_dependency():
         return re.sub(r"[-_.]+", "-", name).lower()
 
     lock = Path(__file__).resolve().parents[1] / "deploy" / "requirements.lock"
-    pinned = {norm(line.split("==")[0]) for line in lock.read_text().splitlines() if "==" in line}
+    pins = dict(line.strip().split("==") for line in lock.read_text().splitlines() if "==" in line)
+    pinned = {norm(name): v for name, v in pins.items()}
     wanted = [Requirement(r) for r in requires("cohop") or []]
     todo = [norm(r.name) for r in wanted if r.marker and any(
         r.marker.evaluate({"extra": extra}) for extra in ("service", "plot"))]
+    assert {"numba", "matplotlib", "ortools"} <= set(todo)
     seen, missing = set(), []
     while todo:
         name = todo.pop()
@@ -43,10 +47,12 @@ def test_the_image_lock_pins_every_runtime_dependency():
         seen.add(name)
         if name not in pinned:
             missing.append(name)
+            continue
         try:
-            deps = requires(name) or []
+            if version(name) != pinned[name]:
+                continue
+            deps = [Requirement(d) for d in requires(name) or []]
         except PackageNotFoundError:
             continue
-        todo += [norm(Requirement(d).name) for d in deps
-                 if Requirement(d).marker is None or Requirement(d).marker.evaluate({"extra": ""})]
+        todo += [norm(d.name) for d in deps if d.marker is None or d.marker.evaluate({"extra": ""})]
     assert not missing, missing
