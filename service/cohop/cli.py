@@ -143,32 +143,35 @@ def _chart(args, body: dict, raw: dict) -> None:
     print(f"chart written to {args.chart}", file=sys.stderr)
 
 
-def _site_map(args, body: dict, raw: dict) -> None:
-    """--site-map FILE: systems and interferers by position, harmful pairs drawn."""
-    if not getattr(args, "site_map", None):
+def _picture(path: str | None, what: str, draw) -> None:
+    """Draw one picture to `path` (when the option was given) with `draw(path)`; a missing matplotlib is
+    EXIT_EXTRA, a picture the answer has nothing for (ValueError) a usage error."""
+    if not path:
         return
-    from cohop.charts import PlotUnavailable, site_map
+    from cohop.charts import PlotUnavailable
 
     try:
-        site_map(body["site"], raw, args.site_map)
+        draw(path)
     except PlotUnavailable as err:
         raise fail(EXIT_EXTRA, f"cohop: {err}", "missing-extra")
-    print(f"site map written to {args.site_map}", file=sys.stderr)
+    except ValueError as err:
+        raise fail(EXIT_USAGE, f"cohop: no {what}: {err}")
+    print(f"{what} written to {path}", file=sys.stderr)
+
+
+def _site_map(args, body: dict, raw: dict) -> None:
+    """--site-map FILE: systems and interferers by position, harmful pairs drawn."""
+    from cohop import charts
+
+    _picture(getattr(args, "site_map", None), "site map", lambda path: charts.site_map(body["site"], raw, path))
 
 
 def _traffic_chart(args, body: dict, raw: dict) -> None:
     """--traffic-chart FILE: deadline misses and watchdog stops against each system's limits."""
-    if not getattr(args, "traffic_chart", None):
-        return
-    from cohop.charts import PlotUnavailable, traffic_chart
+    from cohop import charts
 
-    try:
-        traffic_chart(body["site"], raw, args.traffic_chart)
-    except PlotUnavailable as err:
-        raise fail(EXIT_EXTRA, f"cohop: {err}", "missing-extra")
-    except ValueError as err:
-        raise fail(EXIT_USAGE, f"cohop: no traffic chart: {err}")
-    print(f"traffic chart written to {args.traffic_chart}", file=sys.stderr)
+    _picture(getattr(args, "traffic_chart", None), "traffic chart",
+             lambda path: charts.traffic_chart(body["site"], raw, path))
 
 
 def _write_report(args, body: dict, raw: dict) -> None:
