@@ -128,19 +128,17 @@ def _add_surveys(args, body: dict) -> None:
 
 
 def _chart(args, body: dict, raw: dict) -> None:
+    """--chart FILE: the channel map, at --chart-size."""
     if not getattr(args, "chart", None):
         return
-    from cohop.charts import PlotUnavailable, channel_map
+    from cohop import charts
 
     try:
         width, height = (float(v) for v in args.chart_size.lower().split("x"))
     except ValueError:
         raise fail(EXIT_USAGE, f"cohop: --chart-size wants WIDTHxHEIGHT in inches, not {args.chart_size!r}")
-    try:
-        channel_map(body["site"], raw, args.chart, width, height, dominant=getattr(args, "dominant", False))
-    except PlotUnavailable as err:
-        raise fail(EXIT_EXTRA, f"cohop: {err}", "missing-extra")
-    print(f"chart written to {args.chart}", file=sys.stderr)
+    _picture(args.chart, "chart", lambda path: charts.channel_map(body["site"], raw, path, width, height,
+                                                                  dominant=getattr(args, "dominant", False)))
 
 
 def _picture(path: str | None, what: str, draw) -> None:

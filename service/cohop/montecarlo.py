@@ -114,7 +114,7 @@ class _Source:
     harmful: np.ndarray | None = None  # source systems: (N_v, 1) int, channels of a in v's window; else None
     size: int = 0  # source systems: N_a
     activity: float = 1.0  # source systems: alpha_a
-    tables: list | None = None  # source systems: `_distinct_tables`, built once per victim
+    tables: list | None = None  # source systems with short windows: `_distinct_tables`; None: counted at once
 
 
 def _phase_source(sid, thr_lo, thr_hi, victim_t: float, burst_s: float, period_s: float, **hopping) -> _Source:
@@ -189,9 +189,9 @@ def _distinct_hits(bitgen, shape, src: _Source, extra: np.ndarray | None) -> np.
     Short windows draw each dwell's channel in turn from those not yet visited: one uniform u per dwell is
     'harmful' below (h - s) / (N - j) and 'harmful and active' below alpha times that, s counting the
     harmful channels visited so far. Long windows draw the count at once (`_distinct_counted`)."""
-    if src.max_overlaps > _DRAWN_OVERLAPS or src.max_overlaps > src.size:
+    if src.tables is None:
         return _distinct_counted(bitgen, shape, src, extra)
-    tables = src.tables if src.tables is not None else _distinct_tables(src)
+    tables = src.tables
     hit, seen = None, None
     for j, (harm_thr, hit_thr) in enumerate(tables):
         u = _bits(bitgen, shape)

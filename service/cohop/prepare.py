@@ -209,18 +209,26 @@ def _system_links(site: Site, wanted: np.ndarray, loss: np.ndarray):
     return tuple(links), window
 
 
-def _interferer_level(site: Site, itf: Interferer, v: int, f_hz: float) -> float:
-    given = {lv.system: lv.level_dbm for lv in itf.levels}
-    victim = site.systems[v]
-    if victim.id in given:
-        return given[victim.id]
+def interferer_levels_dbm(site: Site, itf: Interferer, victim: System, f_hz: float,
+                          places: tuple[Position, ...]):
+    """The interferer's total level at the victim's receiver: the given level, NOT_RECEIVED_DBM when it is
+    listed elsewhere and not computable here (site_rules.not_received), else computed at each of `places`
+    (an array) from eirp_dbm and the propagation model, the planning margin lowering the loss as for
+    coupling between systems."""
+    given = [lv.level_dbm for lv in itf.levels if lv.system == victim.id]
+    if given:
+        return given[0]
     if not level_computable(site, itf, victim):
-        return NOT_RECEIVED_DBM  # listed elsewhere, not here: not received there (site_rules.not_received)
+        return NOT_RECEIVED_DBM
     prop = site.coupling.propagation
-    # a moving victim hears the interferer at its nearest (least-loss) position (victim_losses: at each)
-    path = worst_path_loss_db(prop, f_hz, (itf.position,), victim.sampled_positions())
-    # the planning margin lowers the computed loss, as for coupling between systems
+    path = position_losses_db(prop, f_hz, (itf.position,), places)[0]
     return itf.eirp_dbm - (path - prop.margin_db) + victim.antenna_gain_dbi
+
+
+def _interferer_level(site: Site, itf: Interferer, v: int, f_hz: float) -> float:
+    # a moving victim hears the interferer at its nearest (least-loss) position (victim_losses: at each)
+    victim = site.systems[v]
+    return float(np.max(interferer_levels_dbm(site, itf, victim, f_hz, victim.sampled_positions())))
 
 
 def _interferer_links(site: Site, wanted: np.ndarray, centres: np.ndarray, f_hz: float):
@@ -238,7 +246,7 @@ def _interferer_links(site: Site, wanted: np.ndarray, centres: np.ndarray, f_hz:
 def _interferer_link(victim: System, wanted_dbm: float, itf: Interferer, total_dbm: float,
                      centres: np.ndarray) -> tuple[SourceLink, tuple[int, int]]:
     # share of a wideband emitter's power inside the victim's channel (flat spectrum), as for a system
-    share_db = bandwidth_share_db(victim.bandwidth_hz, itf.width_hz) if total_dbm > NOT_RECEIVED_DBM else 0.0
+    share_db = bandwidth_share_db(victim.bandwidth_hz, itf.width_hz)
     overlap = None
     if itf.burst_s is not None:
         overlap = random_phase_overlap(victim.packet_airtime_s, itf.burst_s, itf.period_s)
@@ -308,7 +316,7 @@ def position_losses_db(prop: Propagation, f_hz: float, sources: tuple[Position, 
 
 def least_path_losses_db(site: Site, f_hz: float) -> np.ndarray:
     """(S, S) [a, v]: the least path loss between any sampled position of system a and any of system v (a
-    moving system coupled where it couples most, as `worst_path_loss_db` per pair), from one matrix over every
+    moving system coupled where it couples most), from one matrix over every
     sampled position, reduced per system; nan for a system without positions."""
     places = [s.sampled_positions() for s in site.systems]  # several for a system that moves
     owners = [v for v, here in enumerate(places) if here]
@@ -321,12 +329,6 @@ def least_path_losses_db(site: Site, f_hz: float) -> np.ndarray:
     least = np.minimum.reduceat(np.minimum.reduceat(every, starts, axis=0), starts, axis=1)
     out[np.ix_(owners, owners)] = least
     return out
-
-
-def worst_path_loss_db(prop: Propagation, f_hz: float, sources: tuple[Position, ...],
-                       victims: tuple[Position, ...]) -> float:
-    """The least path loss over every pair of positions: a moving system coupled where it couples most."""
-    return float(position_losses_db(prop, f_hz, sources, victims).min())
 
 
 def victim_losses(prep: PreparedSite, v: int, places: tuple[Position, ...],
@@ -346,14 +348,7 @@ def victim_losses(prep: PreparedSite, v: int, places: tuple[Position, ...],
             loss[a] = path - source.antenna_gain_dbi - victim.antenna_gain_dbi - prop.margin_db
     levels = np.empty((len(site.interferers), len(places)))
     for k, itf in enumerate(site.interferers):
-        given = [lv.level_dbm for lv in itf.levels if lv.system == victim.id]
-        if given:
-            levels[k] = given[0]
-        elif not level_computable(site, itf, victim):
-            levels[k] = NOT_RECEIVED_DBM
-        else:  # as _interferer_level: the planning margin lowers the computed loss
-            path = position_losses_db(prop, f_mid, (itf.position,), places)[0]
-            levels[k] = itf.eirp_dbm - (path - prop.margin_db) + victim.antenna_gain_dbi
+        levels[k] = interferer_levels_dbm(site, itf, victim, f_mid, places)
     return loss, levels
 
 

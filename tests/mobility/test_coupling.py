@@ -135,10 +135,10 @@ def test_fixed_sites_unchanged():
 
 def test_the_all_pairs_coupling_equals_the_least_loss_of_each_pair():
     """prepare computes every pair's least path loss from one matrix over all sampled positions; each entry is
-    the minimum over that pair's own positions (checked pair by pair with `worst_path_loss_db`), and a given
+    the minimum over that pair's own positions (checked pair by pair: the least loss of `position_losses_db` over that pair's positions), and a given
     entry still overrides it."""
     from cohop import samples
-    from cohop.prepare import worst_path_loss_db
+    from cohop.prepare import position_losses_db
 
     body = samples.load("container_terminal")["site"]
     body["systems"][1]["area"] = {"x_min_m": 0.0, "x_max_m": 60.0, "y_min_m": 10.0, "y_max_m": 30.0,
@@ -154,7 +154,7 @@ def test_the_all_pairs_coupling_equals_the_least_loss_of_each_pair():
         for v, victim in enumerate(site.systems):
             if a == v or prep.coupling_explicit[a, v] or not places[a] or not places[v]:
                 continue
-            want = (worst_path_loss_db(prop, f_mid, places[a], places[v]) - source.antenna_gain_dbi
+            want = (position_losses_db(prop, f_mid, places[a], places[v]).min() - source.antenna_gain_dbi
                     - victim.antenna_gain_dbi - prop.margin_db)
             assert prep.coupling_loss_db[a, v] == pytest.approx(want, abs=1e-9), (source.id, victim.id)
     for e in site.coupling.entries:

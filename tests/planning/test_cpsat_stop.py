@@ -117,3 +117,16 @@ def test_the_hint_check_agrees_with_cp_sat_on_the_fixed_hint(name):
     inst = build_instance(prepare_site(req.site), req.requirements)
     m = _model(inst)
     assert cpsat.hint_satisfies(m) == _fixed_to_hint_is_feasible(m)
+
+
+def test_a_hint_that_leaves_the_worst_system_variable_to_the_solver_is_kept():
+    """The worst-system objective's `worst` has no hint: the constraints that read it are not judged, so a start
+    that meets every other constraint keeps its hint (a check that wanted every variable hinted dropped it)."""
+    from cohop.jobs.requests import load_plan_request
+
+    req = load_plan_request({"site": samples.load("water_works")["site"],
+                             "search": {"seed": 1, "objective": "worst_system"}})
+    inst = build_instance(prepare_site(req.site), req.requirements)
+    m = _model(inst)
+    assert len(m.proto.solution_hint.vars) < len(m.proto.variables)
+    assert cpsat.hint_satisfies(m)

@@ -83,16 +83,20 @@ def test_levels_may_leave_systems_out_which_then_do_not_receive_the_interferer(c
     others = [s["id"] for s in site["systems"] if s["id"] != "sts-1"]
     line = next(a for a in body["assumptions"] if a.startswith("Interferer 'canteen-oven'"))
     assert all(repr(o) in line for o in others) and "'sts-1'" not in line
+    oven_site = next(i for i in site["interferers"] if i["id"] == "canteen-oven")
+
+    def share_of(sid: str) -> float:  # flat spectrum: the victim's share of the oven's width
+        victim = next(s for s in site["systems"] if s["id"] == sid)
+        return 10 * math.log10(min(1.0, victim["bandwidth_hz"] / (oven_site["high_hz"] - oven_site["low_hz"])))
+
     for system in body["systems"]:
         oven = next(src for src in system["sources"] if src["id"] == "canteen-oven")
         if system["id"] == "sts-1":  # the measured -40 dBm less the bandwidth share (flat spectrum)
-            victim = next(s for s in site["systems"] if s["id"] == "sts-1")
-            oven_site = next(i for i in site["interferers"] if i["id"] == "canteen-oven")
-            width = oven_site["high_hz"] - oven_site["low_hz"]
-            share = 10 * math.log10(min(1.0, victim["bandwidth_hz"] / width))
-            assert oven["level_dbm"] == pytest.approx(-40.0 + share, abs=1e-9)
+            assert oven["level_dbm"] == pytest.approx(-40.0 + share_of("sts-1"), abs=1e-9)
         else:
-            assert oven["level_dbm"] == -200.0 and oven["collision_probability"] == 0.0
+            # not received: the lowest level the schema admits, in the victim's channel as any other level
+            assert oven["level_dbm"] == pytest.approx(-200.0 + share_of(system["id"]), abs=1e-9)
+            assert oven["collision_probability"] == 0.0
 
 
 def test_an_interferer_with_no_level_anywhere_is_still_refused(client):
