@@ -27,13 +27,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from cohop import harm
 from cohop.errors import SiteError
 from cohop.physics.noise import noise_floor_dbm
 from cohop.prepare import PreparedSite, SourceLink
 from cohop.regulatory import check_compliance
 from cohop.regulatory.rules import Finding
 from cohop.stats import retries
-from cohop.stats.overlap import survival, survival_distinct
+from cohop.stats.overlap import distinct_survival_weighted, near_symmetric, survival
 
 DETAIL_LEVELS = ("system", "channel", "source")
 
@@ -43,9 +44,13 @@ class SourceFigures:
     source_id: str
     kind: str  # "system" or "interferer"
     link: SourceLink
-    window_channels: int | None  # systems: harmful iff |c - c'| <= window (-1: never)
-    channel_range: tuple[int, int] | None  # interferers: harmful grid channels lo <= c < hi
+    window_channels: int | None  # systems: over the capture threshold on median levels iff |c - c'| <= window
+    channel_range: tuple[int, int] | None  # interferers: grid channels lo <= c < hi with harm
     collision_probability: float  # standalone, per hop, mean over the victim's hop set
+    harm_reach: int | None = None  # systems: largest offset with harm (-1 none; the channel count: every offset)
+    harm_by_offset: tuple[float, ...] | None = None  # systems: rho at channel offset d; the last holds beyond
+    harm_by_distance: tuple[tuple[float, float], ...] | None = None  # interferers: (from Hz off the span, rho)
+    span_hz: tuple[float, float] | None = None  # interferers: [low, high]
 
 
 @dataclass(frozen=True)
@@ -120,39 +125,88 @@ def channel_prefix_counts(prep: PreparedSite, hop_sets: list[np.ndarray]) -> np.
 
 
 def system_hits(prep: PreparedSite, v: int, channels: np.ndarray, prefix: np.ndarray) -> np.ndarray:
-    """h[a, i]: a's channels within the harmful window of v's channel i, (S, N_v)."""
-    c = prep.n_channels
-    w = prep.window[v][:, None]
-    lo = np.clip(channels[None, :] - w, 0, c)
-    hi = np.clip(channels[None, :] + w + 1, 0, c)
-    h = np.take_along_axis(prefix, hi, axis=1) - np.take_along_axis(prefix, lo, axis=1)
-    h[prep.window[v] < 0] = 0
-    h[v] = 0
-    return h
+    """h[a, i]: a's channels with harm (within `harm.reach`) of v's channel i, (S, N_v)."""
+    return _offset_counts(prefix, channels, 0, np.clip(prep.harm.reach[v], -1, prep.n_channels)[:, None])
+
+
+def _offset_counts(prefix: np.ndarray, channels: np.ndarray, lo, hi) -> np.ndarray:
+    """[a, i]: a's channels at an offset in [lo, hi] (either side) of channels[i]; lo, hi broadcast against
+    (S, 1); empty where hi < lo."""
+    c = prefix.shape[1] - 1
+    lo = np.broadcast_to(np.asarray(lo), (prefix.shape[0], 1))
+    hi = np.broadcast_to(np.asarray(hi), (prefix.shape[0], 1))
+    ch = channels[None, :]
+
+    def count(a, b):  # channels in [a, b]
+        a, b = np.clip(a, 0, c), np.clip(b + 1, 0, c)
+        return np.where(b > a, np.take_along_axis(prefix, b, axis=1) - np.take_along_axis(prefix, a, axis=1), 0)
+
+    right = count(ch + lo, ch + hi)
+    left = count(ch - hi, ch - np.maximum(lo, 1))  # offset 0 counted once, on the right
+    return np.where(hi >= lo, right + left, 0)
+
+
+def _segments(steps: np.ndarray) -> list[tuple[int, int, int]]:
+    """(step, first offset, last offset) of each step of a victim's table that the grid's offsets fall in."""
+    change = np.flatnonzero(np.diff(steps)) + 1
+    starts = np.concatenate([[0], change])
+    ends = np.concatenate([change - 1, [steps.size - 1]])
+    return [(int(steps[a]), int(a), int(b)) for a, b in zip(starts, ends)]
 
 
 def system_collisions(prep: PreparedSite, v: int, channels: np.ndarray, prefix: np.ndarray,
                       sizes: np.ndarray) -> np.ndarray:
-    """Standalone per-hop collision probability of each source system, (S, N_v)."""
-    h = system_hits(prep, v, channels, prefix)
-    x = 1.0 - survival_distinct(prep.overlap_k0[v][:, None], prep.overlap_r[v][:, None], h, sizes[:, None],
-                                prep.activity[:, None])
-    x[prep.window[v] < 0] = 0.0
+    """Standalone per-hop collision probability of each source system, (S, N_v).
+
+    The K overlapped dwells of source a lie on K distinct channels of its hop set, a dwell on a channel at
+    offset d being survived with 1 - alpha_a rho_va(d) (`cohop.harm`): E over K-subsets of the product
+    (`stats.overlap.distinct_survival_weighted`). The channels whose harm differs from the constant (tail) one
+    are grouped by step of v's rejection table (one harm per step); the rest share the tail's."""
+    tables = prep.harm
+    levels = tables.system_levels[v]  # (S, L)
+    steps = tables.steps[v]
+    tail = levels[np.arange(prep.n_systems), steps[-1]]
+    alpha = prep.activity
+    near_counts, near_keeps = [], []
+    for t, lo, hi in _segments(steps):
+        varies = levels[:, t] > tail  # this step is 'near' for source a
+        if not varies.any():
+            continue
+        n = _offset_counts(prefix, channels, lo, hi) * varies[:, None]
+        near_counts.append(n)
+        near_keeps.append((1.0 - alpha * levels[:, t])[:, None])
+    near = sum(near_counts) if near_counts else np.zeros((prep.n_systems, channels.size), dtype=int)
+    far = sizes[:, None] - near
+    k0, r = prep.overlap_k0[v][:, None], prep.overlap_r[v][:, None]
+    degree = int(min(np.max(np.minimum(k0 + 1, sizes[:, None] - 1)), near.max(initial=0)))
+    e = near_symmetric(near_counts, near_keeps, max(degree, 0))
+    product = np.ones(near.shape)
+    for n, y in zip(near_counts, near_keeps):
+        product = product * y**n
+    far_keep = (1.0 - alpha * tail)[:, None]
+    survive = (1.0 - r) * distinct_survival_weighted(k0, e, near, product, far, far_keep, sizes[:, None]) \
+        + r * distinct_survival_weighted(k0 + 1, e, near, product, far, far_keep, sizes[:, None])
+    x = 1.0 - survive
+    x[tables.reach[v] < 0] = 0.0
     x[v] = 0.0
     return x
 
 
+def interferer_spans(prep: PreparedSite) -> np.ndarray:
+    """(K, 2) [low, high] Hz of every fixed interferer."""
+    return np.array([[i.low_hz, i.high_hz] for i in prep.site.interferers], dtype=float).reshape(-1, 2)
+
+
 def interferer_collisions(prep: PreparedSite, v: int, channels: np.ndarray) -> np.ndarray:
-    """Standalone per-hop collision probability of each fixed interferer, (K, N_v)."""
-    k_count = len(prep.site.interferers)
-    x = np.zeros((k_count, channels.size))
+    """Standalone per-hop collision probability of each fixed interferer, (K, N_v): a continuous one hits with
+    alpha_k rho_vk(c), a bursty one with 1 - E[(1 - alpha_k rho_vk(c))^K] (its bursts on its own span)."""
+    rho = harm.interferer_harm(prep.harm, prep.site.systems[v], v, interferer_spans(prep), prep.centres_hz, channels)
+    x = np.zeros(rho.shape)
     for k, link in enumerate(prep.interferer_links[v]):
-        lo, hi = prep.interferer_range[v, k]
-        harm = ((channels >= lo) & (channels < hi)).astype(float)
         if link.overlap is None:
-            x[k] = link.activity_fraction * harm
+            x[k] = link.activity_fraction * rho[k]
         else:
-            x[k] = 1.0 - survival(link.overlap, link.activity_fraction * harm)
+            x[k] = 1.0 - survival(link.overlap, link.activity_fraction * rho[k])
     return x
 
 
@@ -173,8 +227,24 @@ def _channel_figures(prep, channels, total, hop_loss, x, source_ids, detail) -> 
     return tuple(out)
 
 
+def _harm_by_offset(prep: PreparedSite, v: int, a: int) -> tuple[float, ...]:
+    """rho of source a at v for channel offsets 0 .. D, the last value holding at every larger offset: up to
+    the first offset from which the harm no longer changes."""
+    steps = prep.harm.steps[v]
+    last_change = np.flatnonzero(np.diff(prep.harm.system_levels[v, a, steps]) != 0)
+    top = int(last_change[-1]) + 1 if last_change.size else 0
+    return tuple(prep.harm.system_levels[v, a, steps[:top + 1]].tolist())
+
+
+def _harm_by_distance(prep: PreparedSite, v: int, k: int) -> tuple[tuple[float, float], ...]:
+    """(distance from the span's nearest edge [Hz] where a step of v's table begins, rho from there on)."""
+    table, _ = harm.rejection_steps(prep.site.systems[v])
+    starts = np.concatenate([[0.0], table])
+    return tuple((float(d), float(r)) for d, r in zip(starts, prep.harm.interferer_levels[v, k, :starts.size]))
+
+
 def _source_figures(prep: PreparedSite, v: int, x_sys: np.ndarray, x_itf: np.ndarray) -> tuple[SourceFigures, ...]:
-    site = prep.site
+    site, tables = prep.site, prep.harm
     sys_mean, itf_mean = x_sys.mean(axis=1), x_itf.mean(axis=1)
     out = []
     for a, link in enumerate(prep.links[v]):
@@ -182,12 +252,15 @@ def _source_figures(prep: PreparedSite, v: int, x_sys: np.ndarray, x_itf: np.nda
             continue
         out.append(SourceFigures(source_id=site.systems[a].id, kind="system", link=link,
                                  window_channels=int(prep.window[v, a]), channel_range=None,
-                                 collision_probability=float(sys_mean[a])))
+                                 collision_probability=float(sys_mean[a]), harm_reach=int(tables.reach[v, a]),
+                                 harm_by_offset=_harm_by_offset(prep, v, a)))
     for k, link in enumerate(prep.interferer_links[v]):
         lo, hi = prep.interferer_range[v, k]
-        out.append(SourceFigures(source_id=site.interferers[k].id, kind="interferer", link=link,
+        itf = site.interferers[k]
+        out.append(SourceFigures(source_id=itf.id, kind="interferer", link=link,
                                  window_channels=None, channel_range=(int(lo), int(hi)),
-                                 collision_probability=float(itf_mean[k])))
+                                 collision_probability=float(itf_mean[k]),
+                                 harm_by_distance=_harm_by_distance(prep, v, k), span_hz=(itf.low_hz, itf.high_hz)))
     return tuple(out)
 
 
@@ -198,7 +271,7 @@ def _aligned_exact(prep: PreparedSite, v: int, channels: np.ndarray, x_sys: np.n
     if sequences is None or sequences[v] is None:
         return
     for a, link in enumerate(prep.links[v]):
-        if link is not None and link.aligned and sequences[a] is not None and prep.window[v, a] >= 0:
+        if link is not None and link.aligned and sequences[a] is not None and prep.harm.reach[v, a] >= 0:
             x_sys[a] = aligned_channel_hits(prep, v, a, np.asarray(sequences[v]), np.asarray(sequences[a]), channels)
 
 

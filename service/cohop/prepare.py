@@ -13,6 +13,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from cohop import harm
 from cohop.errors import SiteError
 from cohop.physics import fading, geometry, propagation
 from cohop.physics.rejection import OFFSET_TOLERANCE, bandwidth_share_db, harmful_bound_hz, window_channels
@@ -51,12 +52,14 @@ class PreparedSite:
     coupling_loss_db: np.ndarray  # (S, S) [tx a, rx v]; nan on the diagonal
     coupling_explicit: np.ndarray  # (S, S) bool: given in the request, not computed
     links: tuple[tuple[SourceLink | None, ...], ...]  # [v][a]; None on the diagonal
-    window: np.ndarray  # (S, S) int [v, a]: harmful iff |c - c'| <= window (-1: never)
+    window: np.ndarray  # (S, S) int [v, a]: over the capture threshold on median levels iff |c - c'| <= window
+    #                    (-1: never): guards and the answer's windows; harm itself is `harm` (soft when faded)
     overlap_k0: np.ndarray  # (S, S) int [v, a]: K = k0 or k0 + 1 overlapped bursts ...
     overlap_r: np.ndarray  # (S, S) float [v, a]: ... with P(K = k0 + 1) = r
     activity: np.ndarray  # (S,) activity_fraction of each system as a source
     interferer_links: tuple[tuple[SourceLink, ...], ...]  # [v][k]
-    interferer_range: np.ndarray  # (S, K, 2) int [v, k]: harmful grid channels lo <= c < hi
+    interferer_range: np.ndarray  # (S, K, 2) int [v, k]: grid channels lo <= c < hi with harm (cohop.harm)
+    harm: harm.HarmTables | None = None  # the interference kernel's tables (cohop.harm): harm per offset
     derived: tuple = ()  # interferers derived from surveys (cohop.surveys.DerivedInterferer), also in site
 
     @property
@@ -254,6 +257,40 @@ def _interferer_link(victim: System, wanted_dbm: float, itf: Interferer, total_d
     return link, _span_range(centres, itf.low_hz, itf.high_hz, link.bound_hz)
 
 
+def _harm_tables(site: Site, centres: np.ndarray, margin: np.ndarray, links, ilinks):
+    """The interference kernel's tables (`cohop.harm`) and each interferer's channels with harm."""
+    systems, c = site.systems, centres.size
+    width = 1 + max(len(s.rejection) for s in systems)
+    offsets = site.grid.spacing_hz * np.arange(c)
+    n, k_count = len(systems), len(site.interferers)
+    sys_levels, itf_levels = np.zeros((n, n, width)), np.zeros((n, k_count, width))
+    steps, reach = np.zeros((n, c), dtype=np.int64), np.full((n, n), -1, dtype=np.int64)
+    ranges = np.zeros((n, k_count, 2), dtype=int)
+    for v, victim in enumerate(systems):
+        steps[v], sys_levels[v], itf_levels[v], reach[v], ranges[v] = _victim_harm(
+            site, victim, v, offsets, centres, margin[v], links[v], ilinks[v], width)
+    return harm.HarmTables(system_levels=sys_levels, interferer_levels=itf_levels, steps=steps, reach=reach), ranges
+
+
+def _victim_harm(site: Site, victim: System, v: int, offsets: np.ndarray, centres: np.ndarray, margin_db: float,
+                 links, ilinks, width: int):
+    """One victim's row of the harm tables: steps, system levels, interferer levels, reach, interferer ranges."""
+    steps = harm.step_of(victim, offsets)
+    excess = np.array([-np.inf if link is None else link.excess_db for link in links])
+    sys_levels = harm.step_harm(victim, margin_db, excess, width)
+    sys_levels[v] = 0.0
+    reach = harm.reach_of(sys_levels, steps)
+    itf_excess = np.array([link.excess_db for link in ilinks])
+    itf_levels = harm.step_harm(victim, margin_db, itf_excess, width) if ilinks else np.zeros((0, width))
+    table, _ = harm.rejection_steps(victim)
+    ranges = np.zeros((len(ilinks), 2), dtype=int)
+    for k, itf in enumerate(site.interferers):
+        last = np.flatnonzero(itf_levels[k] > 0)  # harm falls with the step: the last step with harm
+        bound = 0.0 if last.size == 0 else (math.inf if last[-1] >= table.size else float(table[last[-1]]))
+        ranges[k] = _span_range(centres, itf.low_hz, itf.high_hz, bound)
+    return steps, sys_levels, itf_levels, reach, ranges
+
+
 def _span_range(centres: np.ndarray, low_hz: float, high_hz: float, bound_hz: float) -> tuple[int, int]:
     """Grid channels whose distance to [low, high] is below bound: a contiguous range."""
     if bound_hz <= 0:
@@ -283,13 +320,14 @@ def prepare_site(site: Site) -> PreparedSite:
     links, window = _system_links(site, wanted, loss)
     k0 = np.array([[0 if link is None else link.overlap.k0 for link in row] for row in links], dtype=int)
     r = np.array([[0.0 if link is None else link.overlap.r for link in row] for row in links])
-    ilinks, iranges = _interferer_links(site, wanted, centres, f_mid)
+    ilinks, _ = _interferer_links(site, wanted, centres, f_mid)
+    tables, iranges = _harm_tables(site, centres, margin, links, ilinks)
     return PreparedSite(site=site, profile=profile, band=band, centres_hz=centres,
                         usable=_usable(site, band, centres), wanted_dbm=wanted, fade_margin_db=margin,
                         fade_probability=fade, coupling_loss_db=loss, coupling_explicit=explicit,
                         links=links, window=window, overlap_k0=k0, overlap_r=r,
                         activity=np.array([s.activity_fraction for s in site.systems]),
-                        interferer_links=ilinks, interferer_range=iranges, derived=tuple(derived))
+                        interferer_links=ilinks, interferer_range=iranges, harm=tables, derived=tuple(derived))
 
 
 # --- systems that move ----------------------------------------------------------
@@ -370,5 +408,12 @@ def victim_at(prep: PreparedSite, v: int, loss_db: np.ndarray, interferer_dbm: n
                                                     prep.centres_hz)
     all_links = prep.links[:v] + (tuple(links),) + prep.links[v + 1:]
     all_ilinks = prep.interferer_links[:v] + (tuple(ilinks),) + prep.interferer_links[v + 1:]
+    tables = prep.harm
+    sys_levels, itf_levels, reach = tables.system_levels.copy(), tables.interferer_levels.copy(), tables.reach.copy()
+    offsets = site.grid.spacing_hz * np.arange(prep.n_channels)
+    _, sys_levels[v], itf_levels[v], reach[v], iranges[v] = _victim_harm(
+        site, victim, v, offsets, prep.centres_hz, float(prep.fade_margin_db[v]), links, ilinks,
+        sys_levels.shape[2])
+    tables = replace(tables, system_levels=sys_levels, interferer_levels=itf_levels, reach=reach)
     return replace(prep, coupling_loss_db=loss, links=all_links, window=window, interferer_links=all_ilinks,
-                   interferer_range=iranges)
+                   interferer_range=iranges, harm=tables)

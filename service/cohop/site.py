@@ -49,8 +49,12 @@ class RejectionPoint:
 
 @dataclass(frozen=True)
 class Fading:
+    """How the wanted signal fades (`model`) and how the interference this receiver hears fades
+    (`interference`: "steady", the conservative default, or "rayleigh"; `cohop.physics.capture`)."""
+
     model: str = "rayleigh"  # "rayleigh" | "rician" | "none"
     k_factor_db: float | None = None
+    interference: str = "steady"  # "steady" | "rayleigh"
 
 
 @dataclass(frozen=True)

@@ -24,6 +24,11 @@ def test_samples_recompute(client, name):
     recompute.check_assessment(resp.json)
 
 
+#: Every capture model (cohop.physics.capture): the threshold, Rayleigh with steady or faded interference, Rician.
+FADINGS = ["none", "rayleigh", {"model": "rayleigh", "interference": "rayleigh"},
+           {"model": "rician", "k_factor_db": 6.0, "interference": "rayleigh"}]
+
+
 def _random_site(rng: random.Random) -> dict:
     n = rng.randint(2, 7)
     count = rng.choice([40, 79])
@@ -37,7 +42,7 @@ def _random_site(rng: random.Random) -> dict:
             tx_power_dbm=rng.uniform(-5, 20), wanted_signal_dbm=rng.uniform(-90, -50),
             required_sir_db=rng.uniform(6, 14), hops_per_attempt=rng.choice([1, 2]), retry_limit=rng.randint(0, 5),
             priority_weight=rng.uniform(0.5, 4), fade_margin_db=rng.uniform(5, 30),
-            time_base_group=rng.choice([None, None, f"g{dwell}"])))
+            time_base_group=rng.choice([None, None, f"g{dwell}"]), fading=rng.choice(FADINGS)))
     body = sites.site(systems, coupling_loss_db=None, n_channels=count)
     entries = []
     for a in systems:

@@ -16,6 +16,7 @@ import numpy as np
 from cohop.assess import Assessment, SystemFigures
 from cohop.cautions import MODEL_ASSUMPTIONS, cautions_for
 from cohop.errors import SiteError
+from cohop.harm import capture_assumptions
 from cohop.jobs.sequence_answers import SequencesAnswer
 from cohop.mobility import MOBILITY_ASSUMPTION, SystemMobility, mobility_figures
 from cohop.montecarlo import SimulatedRate, SiteSimulation
@@ -140,7 +141,8 @@ def assessment_answer(assessment: Assessment, caution: bool, simulation: SiteSim
     systems = tuple(SystemResult(f, prep.site.systems[f.index],
                                  Compliance(prep.profile.id, compliance_status(f.compliance), f.compliance), m)
                     for f, m in zip(assessment.systems, mobility))
-    assumptions = (MODEL_ASSUMPTIONS + ((MOBILITY_ASSUMPTION,) if prep.site.has_moving_systems else ())
+    assumptions = (MODEL_ASSUMPTIONS + capture_assumptions(prep.site.systems)
+                   + ((MOBILITY_ASSUMPTION,) if prep.site.has_moving_systems else ())
                    + not_received_assumptions(prep.site))
     return AssessmentAnswer(assessment=assessment, cautions=tuple(cautions_for(caution)), systems=systems,
                             simulation=None if simulation is None else simulation_check(simulation, assessment),

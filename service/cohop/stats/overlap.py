@@ -159,3 +159,49 @@ def survival_distinct(k0, r, harmful, size, activity):
     low = distinct_survival_at(k0, harmful, size, activity)
     high = distinct_survival_at(k0 + 1, harmful, size, activity)
     return (1.0 - r) * low + r * high
+
+
+# --- soft harm: each channel of the source hurts with its own probability ------------------------------------
+
+def near_symmetric(counts, keeps, degree: int):
+    """e_j, j = 0 .. degree, of the multiset holding keeps[t] counts[t] times (the elementary symmetric polynomials
+    [der: prod_t (1 + y_t z)^(n_t) expanded]), over leading axes: counts and keeps are sequences of arrays of one
+    shape; returns (..., degree + 1)."""
+    shape = np.shape(counts[0]) if counts else ()
+    e = np.zeros(shape + (degree + 1,))
+    e[..., 0] = 1.0
+    for n, y in zip(counts, keeps):
+        n = np.asarray(n, dtype=float)
+        y = np.broadcast_to(np.asarray(y, dtype=float), shape)
+        out = e.copy()
+        binom, power = np.ones(shape), np.ones(shape)
+        for i in range(1, degree + 1):  # C(n, i) y^i e_{j - i}
+            binom = binom * np.maximum(n - (i - 1), 0.0) / i
+            power = power * y
+            if not binom.any():
+                break
+            out[..., i:] += (binom * power)[..., None] * e[..., :degree + 1 - i]
+        e = out
+    return e
+
+
+def distinct_survival_weighted(k, near_e, near_count, near_product, far_count, far_keep, size):
+    """P(no hit | K = k) for K dwells on distinct channels of the source's `size` channels, a dwell on channel j
+    being survived with probability y_j = 1 - alpha rho_j: E over uniform K-subsets of prod y
+    = (prod_all y)^q e_m(y) / C(N, m), q, m = divmod(K, N) [der: each m-subset equally likely]. The channels
+    come as `near_count` 'near' ones (their e_j in near_e[..., j], their product near_product) and `far_count`
+    others all with y = far_keep: e_m(y) = sum_j e_j(near) C(far, m - j) far_keep^(m - j). With y in {1 - alpha,
+    1} this is `distinct_survival_at`'s hypergeometric form; broadcasts over leading axes."""
+    k = np.asarray(k, dtype=np.int64)
+    n = np.maximum(np.asarray(size, dtype=np.int64), 1)
+    q, m = np.divmod(k, n)
+    far = np.asarray(far_count, dtype=float)
+    y_far = np.asarray(far_keep, dtype=float)
+    full = near_product * y_far ** far  # prod of y over every channel
+    ln_all = _log_choose(n, m)
+    acc = np.zeros(np.broadcast_shapes(np.shape(m), np.shape(far), near_e.shape[:-1]))
+    for j in range(near_e.shape[-1]):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            w = np.exp(_log_choose(far, m - j) - ln_all) * np.where(m >= j, y_far ** np.maximum(m - j, 0), 0.0)
+        acc += np.where((m >= j) & (j <= near_count), near_e[..., j] * w, 0.0)
+    return full**q * acc

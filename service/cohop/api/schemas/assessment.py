@@ -75,9 +75,20 @@ class SourceSchema(Bulk, StrictSchema):  # cohop.assess.SourceFigures
     harm_bound_hz = FiniteOrNull(allow_none=True, attribute="link.bound_hz", metadata={
         "description": "Offsets below this are harmful; 0: none; null: every offset"})
     window_channels = fields.Integer(allow_none=True, metadata={
-        "description": "Systems: harmful iff |c - c'| <= window (-1: never)"})
+        "description": "Systems: over the capture threshold on median levels iff |c - c'| <= window (-1: never)"})
+    harm_reach_channels = fields.Integer(allow_none=True, attribute="harm_reach", metadata={
+        "description": "Systems: largest channel offset where one transmission can destroy a hop (-1: none; the "
+                       "grid's channel count: every offset)"})
+    harm_by_offset = fields.List(fields.Float(), allow_none=True, metadata={
+        "description": "Systems: probability that one overlapped transmission at channel offset d (the index) "
+                       "destroys a hop; the last value holds at every larger offset. Fading-aware (the answer's "
+                       "assumptions say how); values below 0.001 are 0"})
+    harm_by_distance = fields.List(fields.List(fields.Float()), allow_none=True, metadata={
+        "description": "Interferers: [distance from the span's nearest edge in Hz, probability that it destroys "
+                       "a hop on a channel whose centre lies that far or further]; inside the span the distance is 0"})
+    span_hz = fields.List(fields.Float(), allow_none=True, metadata={"description": "Interferers: [low, high]"})
     channel_range = fields.List(fields.Integer(), allow_none=True, metadata={
-        "description": "Interferers: harmful grid channels lo <= c < hi"})
+        "description": "Interferers: grid channels lo <= c < hi where it has harm"})
     activity_fraction = _p(attribute="link.activity_fraction")
     overlap = Part(OverlapSchema, of="link", null_when="overlap", allow_none=True, metadata={
         "description": "Burst overlap count; null for a continuous interferer"})

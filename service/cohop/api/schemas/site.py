@@ -13,13 +13,14 @@ import marshmallow as ma
 from marshmallow import fields, post_load, pre_load, validate, validates_schema
 
 from cohop import limits, site_rules
+from cohop.physics import capture
 from cohop.api.schemas.fields import IDENTIFIER, Count, Flag, List, Number, Text, default
 from cohop.regulatory import PROFILES
 from cohop.regulatory.profiles import unknown_profile_message
 from cohop.site import MOBILITY_POLICIES, Area, Grid, Interferer, Position, Propagation, Site, Survey, System
 from cohop.site_form import site_from
 
-FADING_MODELS = ("rayleigh", "rician", "none")
+FADING_MODELS = capture.WANTED_MODELS
 PROPAGATION_MODELS = ("free_space", "log_distance", "p1238")
 P1238_ENVIRONMENTS = ("residential", "office", "commercial")
 
@@ -123,6 +124,10 @@ class RejectionPointSchema(StrictSchema):
 class FadingSchema(StrictSchema):
     model = Text(required=True, validate=validate.OneOf(FADING_MODELS))
     k_factor_db = Number(limits.K_FACTOR_DB, metadata={"description": "Rician K-factor; rician only."})
+    interference = Text(validate=validate.OneOf(capture.LINK_MODELS), load_default=capture.DEFAULT_LINK_MODEL,
+                        metadata={"description": "How the interference this receiver hears fades: steady (the "
+                                                 "default, conservative) or rayleigh. With a faded wanted signal "
+                                                 "it sets the harm of each overlapped transmission."})
 
     @validates_schema
     def _rules(self, data, **kwargs):
