@@ -34,7 +34,7 @@ from cohop.prepare import PreparedSite, SourceLink
 from cohop.regulatory import check_compliance
 from cohop.regulatory.rules import Finding
 from cohop.stats import retries
-from cohop.stats.overlap import distinct_survival_weighted, near_symmetric, survival
+from cohop.stats.overlap import distinct_survival_weighted, survival
 
 DETAIL_LEVELS = ("system", "channel", "source")
 
@@ -146,50 +146,95 @@ def _offset_counts(prefix: np.ndarray, channels: np.ndarray, lo, hi) -> np.ndarr
     return np.where(hi >= lo, right + left, 0)
 
 
-def _segments(steps: np.ndarray) -> list[tuple[int, int, int]]:
-    """(step, first offset, last offset) of each step of a victim's table that the grid's offsets fall in."""
-    change = np.flatnonzero(np.diff(steps)) + 1
-    starts = np.concatenate([[0], change])
-    ends = np.concatenate([change - 1, [steps.size - 1]])
-    return [(int(steps[a]), int(a), int(b)) for a, b in zip(starts, ends)]
+#: Victims evaluated together hold at most this many (victim, source, channel, offset) cells.
+_CHUNK_CELLS = 4_000_000
 
 
 def system_collisions(prep: PreparedSite, v: int, channels: np.ndarray, prefix: np.ndarray,
                       sizes: np.ndarray) -> np.ndarray:
-    """Standalone per-hop collision probability of each source system, (S, N_v).
+    """Standalone per-hop collision probability of each source system, (S, N_v) (`collisions_of`)."""
+    occupancy = np.diff(prefix, axis=1).astype(bool)
+    return collisions_of(prep, [v], [np.asarray(channels, dtype=int)], occupancy, sizes)[0]
+
+
+def collisions_of(prep: PreparedSite, victims: list[int], channels: list[np.ndarray], occupancy: np.ndarray,
+                  sizes: np.ndarray) -> list[np.ndarray]:
+    """Standalone per-hop collision probability of each source system at each victim, (S, N_v) per victim, the
+    victims taken in chunks of at most _CHUNK_CELLS cells.
 
     The K overlapped dwells of source a lie on K distinct channels of its hop set, a dwell on a channel at
     offset d being survived with 1 - alpha_a rho_va(d) (`cohop.harm`): E over K-subsets of the product
-    (`stats.overlap.distinct_survival_weighted`). The channels whose harm differs from the constant (tail) one
-    are grouped by step of v's rejection table (one harm per step); the rest share the tail's."""
-    tables = prep.harm
-    levels = tables.system_levels[v]  # (S, L)
-    steps = tables.steps[v]
-    tail = levels[np.arange(prep.n_systems), steps[-1]]
-    alpha = prep.activity
-    near_counts, near_keeps = [], []
-    for t, lo, hi in _segments(steps):
-        varies = levels[:, t] > tail  # this step is 'near' for source a
-        if not varies.any():
-            continue
-        n = _offset_counts(prefix, channels, lo, hi) * varies[:, None]
-        near_counts.append(n)
-        near_keeps.append((1.0 - alpha * levels[:, t])[:, None])
-    near = sum(near_counts) if near_counts else np.zeros((prep.n_systems, channels.size), dtype=int)
-    far = sizes[:, None] - near
-    k0, r = prep.overlap_k0[v][:, None], prep.overlap_r[v][:, None]
-    degree = int(min(np.max(np.minimum(k0 + 1, sizes[:, None] - 1)), near.max(initial=0)))
-    e = near_symmetric(near_counts, near_keeps, max(degree, 0))
-    product = np.ones(near.shape)
-    for n, y in zip(near_counts, near_keeps):
-        product = product * y**n
-    far_keep = (1.0 - alpha * tail)[:, None]
-    survive = (1.0 - r) * distinct_survival_weighted(k0, e, near, product, far, far_keep, sizes[:, None]) \
-        + r * distinct_survival_weighted(k0 + 1, e, near, product, far, far_keep, sizes[:, None])
-    x = 1.0 - survive
-    x[tables.reach[v] < 0] = 0.0
-    x[v] = 0.0
-    return x
+    (`stats.overlap.distinct_survival_weighted`). Channels within the offsets where a's harm varies are 'near';
+    the rest share the constant (tail) harm."""
+    reach, constant, varying = prep.harm.varying()
+    width = 2 * max(int(reach.max(initial=-1)), 0) + 1
+    out: list[np.ndarray] = []
+    start = 0
+    while start < len(victims):
+        stop, cells = start, 0
+        while stop < len(victims) and (stop == start or cells + prep.n_systems * channels[stop].size * width
+                                       <= _CHUNK_CELLS):
+            cells += prep.n_systems * channels[stop].size * width
+            stop += 1
+        out += _chunk_collisions(prep, victims[start:stop], channels[start:stop], occupancy, sizes, reach,
+                                 constant, varying)
+        start = stop
+    return out
+
+
+def _chunk_collisions(prep, victims, channels, occupancy, sizes, reach, constant, varying) -> list[np.ndarray]:
+    s_count, c = prep.n_systems, prep.n_channels
+    w = (varying.shape[2] - 1) if reach.max(initial=-1) >= 0 else 0
+    d = np.arange(-w, w + 1)
+    longest = max(ch.size for ch in channels)
+    ch = np.full((len(victims), longest), -10 * (w + 1) - c)  # padding: off the grid, finds nothing
+    for i, chans in enumerate(channels):
+        ch[i, :chans.size] = chans
+    at = ch[:, :, None] + d  # (V, N, D)
+    on_grid = (at >= 0) & (at < c)
+    vs = np.asarray(victims)
+    near_offset = np.abs(d)[None, None, :] <= reach[vs][:, :, None]  # (V, S, D)
+    present = occupancy[:, np.clip(at, 0, c - 1)] & on_grid  # (S, V, N, D)
+    present = present.transpose(1, 0, 2, 3) & near_offset[:, :, None, :]  # (V, S, N, D)
+    alpha = prep.activity[None, :, None]
+    keep = 1.0 - alpha * varying[vs][:, :, np.abs(d)]  # (V, S, D)
+    near = present.sum(axis=3)
+    far = sizes[None, :, None] - near
+    far_keep = (1.0 - prep.activity[None, :] * constant[vs])[:, :, None]
+    k0, r = prep.overlap_k0[vs][:, :, None], prep.overlap_r[vs][:, :, None]
+    m_top = int(np.max(np.minimum(k0 + 1, sizes[None, :, None] - 1), initial=0))
+    degree = max(0, min(m_top, int(near.max(initial=0))))
+    if np.any(k0 + 1 >= sizes[None, :, None]):  # a whole pass over the hop set: the product of every factor
+        product = np.where(present, keep[:, :, None, :], 1.0).prod(axis=3)
+    else:
+        product = np.ones(near.shape)
+    e = _near_polynomials(present, keep, degree)
+    n = sizes[None, :, None]
+    survive = (1.0 - r) * distinct_survival_weighted(k0, e, near, product, far, far_keep, n) \
+        + r * distinct_survival_weighted(k0 + 1, e, near, product, far, far_keep, n)
+    x = np.clip(1.0 - survive, 0.0, 1.0)  # rounding can leave 1 - survival a few ulps below 0
+    x[prep.harm.reach[vs] < 0] = 0.0
+    out = []
+    for i, v in enumerate(victims):
+        xv = x[i][:, :channels[i].size].copy()
+        xv[v] = 0.0
+        out.append(xv)
+    return out
+
+
+def _near_polynomials(present: np.ndarray, keep: np.ndarray, degree: int) -> np.ndarray:
+    """e_j, j = 0 .. degree, of the near channels' survival factors (the elementary symmetric polynomials; e_1
+    is their sum), (V, S, N, degree + 1); `present` (V, S, N, D) marks the near channels at each offset, whose
+    factor is keep (V, S, D)."""
+    e = np.zeros(present.shape[:3] + (degree + 1,))
+    e[..., 0] = 1.0
+    if degree == 1:
+        e[..., 1] = np.einsum("vsnd,vsd->vsn", present, keep)
+    elif degree >= 2:
+        for j in range(present.shape[3]):  # e_j <- e_j + y e_{j-1}, one offset's channel at a time
+            y = (present[..., j] * keep[:, :, None, j])[..., None]
+            e[..., 1:] = e[..., 1:] + y * e[..., :-1]
+    return e
 
 
 def interferer_spans(prep: PreparedSite) -> np.ndarray:
@@ -227,13 +272,16 @@ def _channel_figures(prep, channels, total, hop_loss, x, source_ids, detail) -> 
     return tuple(out)
 
 
-def _harm_by_offset(prep: PreparedSite, v: int, a: int) -> tuple[float, ...]:
-    """rho of source a at v for channel offsets 0 .. D, the last value holding at every larger offset: up to
-    the first offset from which the harm no longer changes."""
-    steps = prep.harm.steps[v]
-    last_change = np.flatnonzero(np.diff(prep.harm.system_levels[v, a, steps]) != 0)
-    top = int(last_change[-1]) + 1 if last_change.size else 0
-    return tuple(prep.harm.system_levels[v, a, steps[:top + 1]].tolist())
+def _harms_by_offset(prep: PreparedSite, v: int, kernel) -> list[tuple[float, ...]]:
+    """For each source system a: rho at v for channel offsets 0 .. D, the last value holding at every larger
+    offset: the harm where it varies (`HarmTables.varying`), then the constant one if the grid reaches it."""
+    reach, constant, harm_by_d = kernel
+    out = []
+    for a in range(prep.n_systems):
+        r = int(reach[v, a])
+        head = harm_by_d[v, a, :r + 1].tolist() if r >= 0 else []
+        out.append(tuple(head + ([float(constant[v, a])] if r + 1 < prep.n_channels else [])))
+    return out
 
 
 def _harm_by_distance(prep: PreparedSite, v: int, k: int) -> tuple[tuple[float, float], ...]:
@@ -243,9 +291,11 @@ def _harm_by_distance(prep: PreparedSite, v: int, k: int) -> tuple[tuple[float, 
     return tuple((float(d), float(r)) for d, r in zip(starts, prep.harm.interferer_levels[v, k, :starts.size]))
 
 
-def _source_figures(prep: PreparedSite, v: int, x_sys: np.ndarray, x_itf: np.ndarray) -> tuple[SourceFigures, ...]:
+def _source_figures(prep: PreparedSite, v: int, x_sys: np.ndarray, x_itf: np.ndarray,
+                    kernel) -> tuple[SourceFigures, ...]:
     site, tables = prep.site, prep.harm
     sys_mean, itf_mean = x_sys.mean(axis=1), x_itf.mean(axis=1)
+    by_offset = _harms_by_offset(prep, v, kernel)
     out = []
     for a, link in enumerate(prep.links[v]):
         if link is None:
@@ -253,7 +303,7 @@ def _source_figures(prep: PreparedSite, v: int, x_sys: np.ndarray, x_itf: np.nda
         out.append(SourceFigures(source_id=site.systems[a].id, kind="system", link=link,
                                  window_channels=int(prep.window[v, a]), channel_range=None,
                                  collision_probability=float(sys_mean[a]), harm_reach=int(tables.reach[v, a]),
-                                 harm_by_offset=_harm_by_offset(prep, v, a)))
+                                 harm_by_offset=by_offset[a]))
     for k, link in enumerate(prep.interferer_links[v]):
         lo, hi = prep.interferer_range[v, k]
         itf = site.interferers[k]
@@ -276,12 +326,16 @@ def _aligned_exact(prep: PreparedSite, v: int, channels: np.ndarray, x_sys: np.n
 
 
 def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin: str, prefix: np.ndarray,
-                  sizes: np.ndarray, detail: str = "channel", sequences=None, compliance: bool = True) -> SystemFigures:
+                  sizes: np.ndarray, detail: str = "channel", sequences=None, compliance: bool = True,
+                  x_sys: np.ndarray | None = None, kernel=None) -> SystemFigures:
     """System v's figures; `compliance` False skips the profile checks (they do not depend on coupling: the
-    per-position figures of systems that move, `cohop.mobility`)."""
+    per-position figures of systems that move, `cohop.mobility`). `x_sys` (`collisions_of`) and `kernel`
+    (`HarmTables.varying`): computed already for the whole site."""
     system = prep.site.systems[v]
     channels = hop_sets[v]
-    x_sys = system_collisions(prep, v, channels, prefix, sizes)
+    if x_sys is None:
+        x_sys = system_collisions(prep, v, channels, prefix, sizes)
+    x_sys = x_sys.copy()
     _aligned_exact(prep, v, channels, x_sys, sequences)
     x_itf = interferer_collisions(prep, v, channels)
     x = np.vstack([np.delete(x_sys, v, axis=0), x_itf])
@@ -306,7 +360,7 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
         attempt_fade_probability=attempt_fade, attempt_loss_probability=attempt_loss,
         residual_loss_probability=float(retries.residual_loss(attempt_loss, system.retry_limit)),
         expected_attempts=float(retries.expected_attempts(attempt_loss, system.retry_limit)),
-        sources=_source_figures(prep, v, x_sys, x_itf),
+        sources=_source_figures(prep, v, x_sys, x_itf, kernel or prep.harm.varying()),
         channels=_channel_figures(prep, channels, total, hop_loss, x, ids, detail),
         compliance=tuple(findings), noise_floor_dbm=noise)
 
@@ -337,8 +391,11 @@ def assess_hop_sets(prep: PreparedSite, sets: list[np.ndarray], origins: list[st
         raise ValueError(f"detail must be one of {DETAIL_LEVELS}")
     prefix = channel_prefix_counts(prep, sets)
     sizes = np.array([s.size for s in sets])
-    figures = tuple(assess_system(prep, v, sets, origins[v], prefix, sizes, detail, sequences)
-                    for v in range(prep.n_systems))
+    occupancy = np.diff(prefix, axis=1).astype(bool)
+    x_all = collisions_of(prep, list(range(prep.n_systems)), sets, occupancy, sizes)
+    kernel = prep.harm.varying()
+    figures = tuple(assess_system(prep, v, sets, origins[v], prefix, sizes, detail, sequences, x_sys=x_all[v],
+                                  kernel=kernel) for v in range(prep.n_systems))
     weights = np.array([s.priority_weight for s in prep.site.systems])
     rates = np.array([f.collision_probability for f in figures])
     worst = int(np.argmax(rates))

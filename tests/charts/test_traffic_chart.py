@@ -16,6 +16,12 @@ from tests.charts.test_channel_map import _by_gid
 
 def test_each_system_with_requirements_is_drawn_from_its_answer():
     body, answer = assessed()
+    # the colours must follow the answer's own verdicts, both of them: a chart of one colour would pass the loop
+    # below. The container terminal's verdicts are physics (with the fading-aware harm every system misses its
+    # deadline), so a copy is given one of each (the first system met, the last missed) to see both colours drawn.
+    answer = copy.deepcopy(answer)
+    judged = [t for t in answer["traffic"] if t.get("meets_deadline") is not None]
+    judged[0]["meets_deadline"], judged[-1]["meets_deadline"] = True, False
     fig = charts.traffic_chart(body["site"], answer)
     traffic = {t["id"]: t for t in answer["traffic"]}
     dots = _by_gid(fig, "miss:")
@@ -32,7 +38,6 @@ def test_each_system_with_requirements_is_drawn_from_its_answer():
         assert dot.get_xdata()[0] == max(traffic[sid]["stops_per_hour"]["value"], tc.STOPS_FLOOR)
         low, high = _by_gid(fig, "stops-interval:")[sid].get_xdata()
         assert (low, high) == tuple(max(x, tc.STOPS_FLOOR) for x in traffic[sid]["stops_per_hour"]["interval"])
-    # the container terminal has both verdicts: a chart of one colour would pass the loop above
     assert {t["meets_deadline"] for t in traffic.values() if t.get("meets_deadline") is not None} == {True, False}
 
 

@@ -13,15 +13,11 @@ import math
 import pytest
 
 from cohop import limits
-from cohop.assess import assess_site
-from cohop.montecarlo import simulate_site
 from cohop.prepare import prepare_site
 from cohop.stats.overlap import random_phase_overlap
 from tests.api.conftest import load_sample, post_assessment
+from tests.model.test_montecarlo_fading import compare
 from tests.sites import load
-
-Z999 = 3.2905  # 99.9 % Wilson intervals, as tests/model/test_montecarlo.py
-Z_SOURCES = 4.417  # Bonferroni-style, many comparisons per site
 
 
 def _long_packet_site() -> dict:
@@ -50,17 +46,11 @@ def test_the_issue_site_simulates_through_the_api(client):
 
 @pytest.mark.parametrize("seed", [1, 2])
 def test_the_simulation_agrees_with_the_model_on_the_issue_site(seed):
+    # within the interval where the evaluator is exact; for the Rician systems of the sample with several
+    # overlapped transmissions its product is an approximation that must not exceed the simulated interval
+    # (tests/model/test_montecarlo_fading.py)
     prep = prepare_site(load(_long_packet_site()["site"]))
-    analytic = assess_site(prep)
-    sim = simulate_site(prep, 100_000, seed=seed)
-    for f, s in zip(analytic.systems, sim.systems):
-        lo, hi = s.collision.interval(Z999)
-        assert lo <= f.collision_probability <= hi, (f.id, f.collision_probability, s.collision.probability)
-        for src in f.sources:
-            rate = s.by_source.get(src.source_id)
-            if rate is not None:
-                lo, hi = rate.interval(Z_SOURCES)
-                assert lo <= src.collision_probability <= hi, (f.id, src.source_id, src.link.overlap)
+    compare(prep, 100_000, seed)
 
 
 def test_the_overlap_cap_covers_a_longest_fcc_dwell_against_bluetooth_slots():

@@ -41,7 +41,7 @@ def test_more_coupling_loss_never_raises_a_collision_rate(body, data):
     entry = data.draw(st.sampled_from(more["coupling"]["entries"]))
     entry["loss_db"] += data.draw(st.floats(0.1, 40.0))
     after = _rates(more)
-    assert all(a <= b + 1e-15 for a, b in zip(after, before))
+    assert all(a <= b + 1e-15 for a, b in zip(after, before)), (entry, before, after)
 
 
 @settings(max_examples=60, deadline=None)

@@ -138,3 +138,62 @@ def test_dwell_counts_both_ways_match_a_plain_loop():
     long = lo + rng.integers(0, 200, 500)
     assert simulate._counts_from_totals(seq_a, chan_v, lo, long, 2).tolist() == \
         _plain_count(seq_a, lo, long, chan_v, 2).tolist()
+
+
+def test_fading_none_reproduces_the_threshold_simulation():
+    # the same draws as the threshold code (tests.sequences.threshold: its figures for this site and seed), bit
+    # for bit: with one band of harm 1 the counts, the survival (1 - alpha)^count and the interferers' draws
+    # against alpha are the old ones
+    from cohop.sequences.analysis import analyse
+    from cohop.sequences.construct import Sequence
+    from tests.sequences import threshold
+
+    prep, orders = threshold.scenario()
+    seqs = [Sequence(system=v, channels=q, construction="given", component=-1) for v, q in enumerate(orders)]
+    reach = analyse(prep, seqs, 100e-9).reach
+    got = [(f.attempt_loss, f.residual_loss) for f in simulate.simulate_all(prep, orders, 4000, 7, 100e-9, reach)]
+    assert got == threshold.SIMULATED
+
+
+def test_soft_harm_simulated_per_transmission_matches_the_exact_per_hop_figure():
+    # A Rayleigh-faded victim (60 dB margin: fades 1e-6 per hop, negligible), one attempt of one hop. Sources:
+    # - neighbour a, 23 dB over v's threshold co-channel (rho about 1 out to 1 MHz, 0.016 at 2 MHz, 0.0016
+    #   beyond: harm at every offset), T_v + T_a = 6 ms < D_a: K = 0 or 1 overlapped dwell, P(K = 1) = 0.6
+    #   (cohop.stats.overlap), the dwell uniform over a's order: x_a(c) = 0.6 alpha_a mean_j rho(|c - y_j|);
+    # - a continuous interferer: alpha_w rho_w(c) per hop;
+    # - a bursty one (3 ms bursts every 5 ms: K = 1 or 2 with P(2) = 0.4): 1 - E_K[(1 - alpha_r rho_r(c))^K];
+    # rho read from the kernel (cohop.harm), fractional on most channels. Sources independent: the hop survives
+    # all of them (cohop.physics.capture: the product is exact for a Rayleigh-faded wanted signal).
+    from cohop import harm
+    from cohop.stats.overlap import random_phase_overlap
+
+    systems = [sites.system("v", range(0, 20), dwell_s=0.01, packet_airtime_s=0.004, retry_limit=0,
+                            fade_margin_db=60.0),
+               sites.system("a", range(5, 30), dwell_s=0.01, packet_airtime_s=0.002, activity_fraction=0.7)]
+    itf = [{"id": "wall", "low_hz": 2404.5e6, "high_hz": 2406.5e6, "activity_fraction": 0.5,
+            "levels": [{"system": "v", "level_dbm": -70.0}]},
+           {"id": "radar", "low_hz": 2412.5e6, "high_hz": 2413.5e6, "activity_fraction": 0.8, "burst_s": 0.003,
+            "period_s": 0.005, "levels": [{"system": "v", "level_dbm": -67.0}]}]
+    prep = prepare_site(sites.load(sites.site(systems, coupling_loss_db=48.0, interferers=itf, n_channels=30)))
+    rng = np.random.default_rng(2)
+    x, y = rng.permutation(20), rng.permutation(np.arange(5, 30))
+    rho_a = prep.harm.system_harm(0, np.abs(x[:, None] - y[None, :]))[1]  # (x, y)
+    assert ((rho_a > 0.01) & (rho_a < 0.99)).any() and prep.window[0, 1] == 1  # soft beyond the window
+    overlap = random_phase_overlap(0.004, 0.002, 0.01)
+    x_a = overlap.r * 0.7 * rho_a.mean(axis=1)
+    spans = np.array([[i.low_hz, i.high_hz] for i in prep.site.interferers])
+    rho_w, rho_r = harm.interferer_harm(prep.harm, prep.site.systems[0], 0, spans, prep.centres_hz, x)
+    assert ((rho_w > 0) & (rho_w < 0.5)).any() and ((rho_r > 0.1) & (rho_r < 0.95)).any()
+    burst = random_phase_overlap(0.004, 0.003, 0.005)
+    keep_r = sum(p * (1 - 0.8 * rho_r) ** k for k, p in burst.probabilities().items())
+    fade = float(prep.fade_probability[0])
+    per_hop = 1 - (1 - fade) * (1 - x_a) * (1 - 0.5 * rho_w) * keep_r
+    want = per_hop.mean()  # v's packet starts on a uniform position of its order
+    packets = 60_000
+    sim = simulate.simulate_retries(prep, [x, y], 0, packets, 9, 100e-9)
+    sd = math.sqrt(want * (1 - want) / packets)
+    assert abs(sim.attempt_loss - want) < 5 * sd, (sim.attempt_loss, want, sd)
+    # the check can tell: harm 1 wherever there is some (the window's hard form, stretched) is many sd away
+    hard = 1 - (1 - fade) * (1 - overlap.r * 0.7 * (rho_a > 0).mean(axis=1)) * (1 - 0.5 * (rho_w > 0)) * sum(
+        p * (1 - 0.8 * (rho_r > 0)) ** k for k, p in burst.probabilities().items())
+    assert abs(sim.attempt_loss - hard.mean()) > 20 * sd

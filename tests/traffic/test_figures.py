@@ -177,3 +177,89 @@ def test_enumerated_phases_agree_with_many_stratified_samples(monkeypatch):
         e, s = getattr(exact, name), getattr(sampled, name)
         assert s.interval[0] <= e.value <= s.interval[1], (name, e, s)
     assert exact.undelivered.value > 1e-4  # a figure the comparison can see
+
+
+def _overlapping_dwells(t, phase, dwell_v, airtime_v, dwell_a, airtime_a):
+    """Definition (cohop.traffic.hits): a's dwells m, [m D_a + phi, m D_a + phi + T_a), that overlap v's packet on
+    its hop t, [t D_v, t D_v + T_v), found by checking a generous range of m one by one."""
+    centre = int(np.floor((t * dwell_v - phase) / dwell_a))
+    return [m for m in range(centre - 4, centre + int(np.ceil(airtime_v / dwell_a)) + 5)
+            if m * dwell_a + phase < t * dwell_v + airtime_v and m * dwell_a + phase + airtime_a > t * dwell_v]
+
+
+def test_band_counts_and_survival_match_a_plain_loop_over_the_dwells():
+    # Soft harm of fractional rho in three bands and a gap (a made-up row): the per-band counts and
+    # prod_g (1 - alpha rho_g)^count_g against listing the overlapping dwells and multiplying their
+    # (1 - alpha rho(offset)) one by one; unequal dwells and packets longer than a's dwell (several dwells).
+    from cohop.sequences.bands import bands_of
+    from cohop.traffic.hits import band_counts, dwell_counts, survival_given_phase
+
+    rng = np.random.default_rng(6)
+    order_v, order_a = rng.permutation(12), rng.integers(0, 12, 17)
+    rho = np.array([0.9, 0.9, 0.35, 0.0, 0.05, 0.05, 0.05, 0, 0, 0, 0, 0])
+    b = bands_of(rho[None])
+    assert b.widths.tolist() == [[1, 2, 3, 6]]
+    alpha, dv, tv, da, ta = 0.6, 1e-3, 0.9e-3, 0.4e-3, 0.3e-3
+    hops = rng.integers(0, 1000, (5, 30))
+    phase = rng.random(5) * order_a.size * da
+    within = band_counts(order_v, order_a, b.widths[0], hops, phase, dv, tv, da, ta)
+    got = survival_given_phase(within, b.hit([alpha])[0])
+    assert within[-1].tolist() == dwell_counts(order_v, order_a, 6, hops, phase, dv, tv, da, ta).tolist()
+    for j in range(5):
+        for x in range(30):
+            t = int(hops[j, x])
+            dwells = _overlapping_dwells(t, phase[j], dv, tv, da, ta)
+            offsets = [abs(int(order_a[m % order_a.size]) - int(order_v[t % order_v.size])) for m in dwells]
+            for g, w in enumerate(b.widths[0]):
+                assert within[g, j, x] == sum(o <= w for o in offsets)
+            assert got[j, x] == pytest.approx(np.prod([1 - alpha * rho[o] for o in offsets]), rel=1e-12)
+
+
+def test_enumerated_phases_with_soft_harm_match_walking_every_phase():
+    # One neighbour B with A's dwell (so its phase classes are enumerated: exact), A Rayleigh-faded, one hop per
+    # message: a message is lost unless the hop neither fades (f) nor is destroyed by B, whose dwells overlapping
+    # the hop each transmit with alpha and destroy it with rho(offset), 5 dB over A's threshold co-channel:
+    # rho = 0.958 co-channel, 0.222 at 1 MHz (cohop.physics.capture [2]). Definition walked directly: every
+    # position of A's order against B's phase on a grid of 0.01 dwell (the overlap breakpoints 1 - T_b / D =
+    # 0.52 and T_a / D = 0.64 are grid lines, so the grid average is exact): mean of 1 - (1 - f) prod (1 - alpha rho).
+    traffic = Traffic(message_interval_s=0.004)
+    order_b = np.array([5, 2, 7, 0, 3, 6, 1, 4])
+    prep = _prepared([sites.system("A", sequence=ORDER, retry_limit=0, packet_airtime_s=400e-6),
+                      sites.system("B", hop_set=range(0, 8), packet_airtime_s=300e-6, activity_fraction=0.6)],
+                     traffic, coupling_loss_db=66.0)
+    rho = prep.harm.system_harm(0, np.arange(12))[1]
+    assert 0.9 < rho[0] < 1 and 0.1 < rho[1] < 0.5 and prep.window[0, 1] == 0  # soft beyond the window
+    sets, _ = resolve_hop_sets(prep)
+    fig = system_traffic(prep, sets, [np.array(ORDER), order_b], 0, "request")
+    assert fig.exact
+    f = float(prep.fade_probability[0])
+    d = 625e-6
+    lost = []
+    for t in range(len(ORDER)):
+        for i in range(order_b.size * 100):
+            phase = (i + 0.5) * d / 100
+            dwells = _overlapping_dwells(t, phase, d, 400e-6, d, 300e-6)
+            keep = np.prod([1 - 0.6 * rho[abs(int(order_b[m % 8]) - ORDER[t])] for m in dwells])
+            lost.append(1 - (1 - f) * keep)
+    assert fig.undelivered.value == pytest.approx(np.mean(lost), rel=1e-9)
+
+
+@pytest.mark.parametrize("known", [0, 1])
+def test_fading_none_reproduces_the_threshold_traffic_figures(known):
+    # tests.sequences.threshold: the threshold code's figures for this site (s0 along its order, neighbours
+    # with and without a known order, a continuous and a bursty interferer), kept with fading "none"
+    from tests.sequences import threshold
+
+    prep, orders = threshold.scenario()
+    site = prep.site
+    site = dataclasses.replace(site, systems=(dataclasses.replace(site.systems[0], traffic=threshold.TRAFFIC),)
+                               + site.systems[1:])
+    prep = prepare_site(site)
+    sets, _ = resolve_hop_sets(prep)
+    given = [[orders[0], orders[1], orders[2], None], [orders[0], None, orders[2], orders[3]]][known]
+    fig = system_traffic(prep, sets, given, 0, "request", samples=16, seed=3)
+    undelivered, missed, stops, delivered = threshold.TRAFFIC_FIGURES[known]
+    assert fig.undelivered.value == pytest.approx(undelivered, rel=1e-12)
+    assert fig.deadline_missed.value == pytest.approx(missed, rel=1e-12)
+    assert fig.stops_per_hour.value == pytest.approx(stops, rel=1e-12)
+    assert fig.delivered_at_attempt == pytest.approx(delivered, rel=1e-12)

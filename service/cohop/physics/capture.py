@@ -28,7 +28,11 @@ Rayleigh-faded one).
   (`_rician_faded_link_harm`).
   rho is exact for one interferer; the evaluator's product over several is
   an approximation here (the joint survival does not factor [4]), which the
-  answer's assumptions state.
+  answer's assumptions state. It errs on the optimistic side: the Rician
+  power's survival is log-concave, so P(s > m + a + b) P(s > m) <=
+  P(s > m + a) P(s > m + b) and the joint survival is at most the product
+  (measured against the Monte Carlo: up to 2.1 points of per-hop collision
+  on generated sites, 8 points for one source with 9 faded dwells).
 - No fading of the wanted signal ("none"): today's threshold, rho = 1 when
   E > 0 and 0 otherwise, each interferer judged alone [5].
 
@@ -98,6 +102,7 @@ def _rician_faded_link_harm(m: float, x, k_factor_db: float):
         log_tilted = (np.log((k + 1.0) / b) + m * sigma + k2 - k
                       + ncx2.logsf(2.0 * b * m, df=2, nc=2.0 * k2))
         rho = np.exp(log_tilted - _rician_log_survival(m, k_factor_db))
+    rho = np.where(np.isinf(x), 1.0, np.nan_to_num(rho, nan=1.0))
     return np.clip(np.where(x > 0, rho, 0.0), 0.0, 1.0)
 
 
@@ -114,13 +119,16 @@ def harm_probability(excess_db, wanted: str = "rayleigh", link: str = DEFAULT_LI
         if link == "steady":
             return -np.expm1(-x)  # [2]
         if link == "rayleigh":
-            return x / (1.0 + x)  # [1]
+            with np.errstate(divide="ignore"):
+                return 1.0 / (1.0 + 1.0 / x)  # [1]: x / (1 + x), finite for x = 0 and x = inf
         raise ValueError(f"unknown interference link model {link!r}")
     if wanted == "rician":
         if k_factor_db is None:
             raise ValueError("a Rician wanted signal needs its k_factor_db")
         m = float(ratio(-margin_db))
         base = _rician_log_survival(m, k_factor_db)
+        if not np.isfinite(base):  # the noise alone always wins: nothing is left to destroy (harm 1, cautious)
+            return np.ones(x.shape)
         if link == "steady":
             return -np.expm1(_rician_log_survival(m + x, k_factor_db) - base)
         if link == "rayleigh":

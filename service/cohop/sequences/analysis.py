@@ -5,10 +5,17 @@ assumption): equal use, consecutive spacing and the fading correlation it
 leaves, direction and step variety, Hamming coincidences between systems that
 share channels, the exact hit pattern of slot-aligned systems, the per-hop
 rate that losing alignment gives, and the longest run of consecutive hops
-another system can hit.
+another system's dwells fall inside the threshold window of.
+
+Hit probabilities read the soft harm (`cohop.harm`): one overlapped
+transmission of a at channel offset d destroys v's hop with rho(d), 0 beyond
+`prep.harm.reach[v, a]`, counted per band of equal harm (`cohop.sequences.
+bands`). The coincidences and the longest runs describe where channels meet
+and keep the threshold windows (`prep.window`: over the capture threshold on
+median levels).
 
 A pair (victim v, source a) is listed when the two share a channel or some
-channel of a lies inside v's harmful window of some channel of v; other pairs
+channel of a lies within reach of harm of some channel of v; other pairs
 cannot interact and are skipped. The figures of all pairs of one victim are
 computed together from per-system channel counts (`_victim_rows`); the
 longest-run search runs over all pairs at once in chunks (`longest_runs`).
@@ -18,8 +25,8 @@ offset class (`cohop.stats.hopping.coincidence_counts`), and the aligned hit
 figures likewise: with g = gcd(L_v, L_a), slot t puts v on x[t mod L_v] and a
 on y[t mod L_a], and by the Chinese remainder theorem each pair of positions
 (i, j) with i = j (mod g) occurs in exactly one slot of the common period, so
-the hits of position i are the j = i (mod g) whose channel lies in v's window
-of x_i, each once per period [der].
+position i meets the j = i (mod g), each once per period, and its harm is
+the sum of their rho(|x_i - y_j|) [der].
 
 Work is bounded whatever the request: the longest-run search looks at most
 RUN_HORIZON_HOPS hops of the victim after each time offset and at most
@@ -36,9 +43,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from cohop.prepare import PreparedSite
+from cohop.sequences import bands
 from cohop.sequences.construct import Sequence
 from cohop.stats import hopping
-from cohop.stats.overlap import survival_distinct
 
 #: Time offsets of the other sequence tried when looking for the longest run.
 RUN_PHASES = 128
@@ -58,10 +65,10 @@ _CALL_STEPS = 5_000
 _ALL_PAIRS_WORK = 2_000_000
 #: The shortest horizon the longest-run search is cut to when there are very many pairs.
 _MIN_HORIZON_HOPS = 16
-#: Harmful cells (plus positions) the exact search of equal-dwell pairs may list in all (`_diagonal_runs`;
-#: about 0.15 s on our machines).
+#: Cells inside the threshold window (plus positions) the exact search of equal-dwell pairs may list in all
+#: (`_diagonal_runs`; about 0.15 s on our machines).
 DIAGONAL_WORK = 1_000_000
-#: A run that never ends (a whole cycle of the torus harmful).
+#: A run that never ends (a whole cycle of the torus inside the window).
 _ENDLESS = 1 << 60
 
 
@@ -88,9 +95,9 @@ class PairFigures:
     shared_channels: int
     coincidences_max: int | None  # most coincidences per common period at any hop offset (equal dwell only)
     common_period_hops: int | None
-    longest_run: int  # longest run of consecutive hops of a that b can hit (any phase searched)
+    longest_run: int  # longest run of consecutive hops of a with b's dwell inside a's threshold window (any phase)
     aligned: bool
-    aligned_hit_rate: float | None  # a's per-hop hit rate from b in the plan's alignment (exact)
+    aligned_hit_rate: float | None  # a's per-hop hit rate from b in the plan's alignment (exact, soft harm)
     unaligned_hit_rate: float  # the same sequences with a random phase (what losing alignment gives)
     run_horizon_hops: int = 0  # hops of a searched after each time offset for the longest run
     run_horizon_cut: bool = False  # fewer than two periods of both sequences searched: a longer run may exist
@@ -103,7 +110,7 @@ class SequenceReport:
     pairs: list[PairFigures]
     family_bounds: dict[int, dict] = field(default_factory=dict)  # component -> Peng-Fan figures
     notes: list[str] = field(default_factory=list)
-    reach: np.ndarray | None = None  # (S, S) bool [v, a]: a can hit v (where not counted: a harmful window)
+    reach: np.ndarray | None = None  # (S, S) bool [v, a]: a can hit v (where not counted: prep.harm.reach >= 0)
 
 
 def order_figures(prep: PreparedSite, seq: Sequence, rms_delay_spread_s: float) -> OrderFigures:
@@ -174,15 +181,15 @@ def _offsets(equal: np.ndarray, la: np.ndarray, phases: int) -> tuple[np.ndarray
 
 def _diagonal_runs(prep: PreparedSite, v: np.ndarray, a: np.ndarray, orders: dict[int, np.ndarray],
                    work: int) -> np.ndarray:
-    """Equal dwells, every time offset: longest run of v's hops that a can hit (-1 for the pairs past
-    `work`; a run that never ends counts as _ENDLESS).
+    """Equal dwells, every time offset: longest run of v's hops during which a's dwell lies inside v's
+    threshold window (-1 for the pairs past `work`; a run that never ends counts as _ENDLESS).
 
     With equal dwells v's hop k meets a's hop k + s for one integer s, so the pairs of positions (i, j)
     met in turn lie on the g = gcd(L_v, L_a) cycles (i, j) -> (i + 1, j + 1) of the torus, each
     lcm(L_v, L_a) long: cycle r = (j - i) mod g holds (i, j) at place t with t = i (mod L_v) and
-    t + r = j (mod L_a) (Chinese remainder theorem). Only the harmful cells (|x_i - y_j| <= window) are
-    listed (the work: L_v plus their number, per pair), placed on their cycles and sorted; runs are
-    stretches of consecutive places, a cycle's last place joined to its first."""
+    t + r = j (mod L_a) (Chinese remainder theorem). Only the cells inside the window
+    (|x_i - y_j| <= prep.window) are listed (the work: L_v plus their number, per pair), placed on their
+    cycles and sorted; runs are stretches of consecutive places, a cycle's last place joined to its first."""
     out = np.full(v.size, -1, dtype=np.int64)
     if not v.size:
         return out
@@ -249,8 +256,10 @@ def _within(counts: np.ndarray) -> np.ndarray:
 
 def longest_runs(prep: PreparedSite, pairs: list[tuple[int, int]], orders: dict[int, np.ndarray],
                  phases: int = RUN_PHASES, cells: int = RUN_CELLS) -> tuple[np.ndarray, list[RunSearch], int]:
-    """Longest run of v's consecutive hops during which a's dwell is on a channel inside v's harmful window,
-    for every (v, a) in `pairs` (whether a transmits then is left to chance), at most two periods of both
+    """Longest run of v's consecutive hops during which a's dwell is on a channel inside v's threshold window
+    (`prep.window`, where a is over v's capture threshold on median levels; a faded hop may be lost further
+    out, with the soft harm of `cohop.harm`), for every (v, a) in `pairs` (whether a transmits then, and
+    whether it destroys the hop, is left to chance), at most two periods of both
     orders. Pairs of equal dwells are searched exactly over every offset while DIAGONAL_WORK lasts
     (`_diagonal_runs`); the others over `phases` time offsets spread evenly across a's period and at most
     RUN_HORIZON_HOPS hops after each, in at most `cells` (offset x hop) cells in all: the offsets are
@@ -315,7 +324,7 @@ def _bucket(hops: np.ndarray) -> np.ndarray:
 @dataclass(frozen=True)
 class _PairGeometry:
     """Per pair of the longest-run search: where each order lies in one flat array of channels, the step of
-    a's hop index per hop of v, the harmful window and the horizon."""
+    a's hop index per hop of v, the threshold window and the horizon."""
 
     channels: np.ndarray
     x_first: np.ndarray
@@ -400,30 +409,61 @@ class _Channels:
         return cls(counts, cumulative, lengths)
 
 
-def _victim_rows(prep: PreparedSite, table: _Channels, v: int, sources: np.ndarray):
-    """For every source a of `sources`: channels shared with v, whether some channel of a lies in v's window
-    of some channel of v, and v's per-hop hit rate with a random phase between them (the overlapped dwells
-    are consecutive, so distinct, positions of a's period; which positions is averaged as a random subset)."""
-    c = np.flatnonzero(table.counts[v])
-    visits = table.counts[v, c].astype(float)
-    width = prep.window[v, sources][:, None]
-    n = prep.n_channels
-    shared = (table.counts[sources[:, None], c[None, :]] > 0).sum(axis=1)
-    lo = np.clip(c[None, :] - width, 0, n)
-    hi = np.clip(c[None, :] + width + 1, 0, n)
+def _visits_within(table: _Channels, v_channels: np.ndarray, sources: np.ndarray, width: np.ndarray) -> np.ndarray:
+    """(A, D): visits per period of source sources[i] to channels within width[i] of v_channels[d] (0 where
+    the width is negative)."""
+    n = table.counts.shape[1]
+    w = np.asarray(width)[:, None]
+    lo = np.clip(v_channels[None, :] - w, 0, n)
+    hi = np.clip(v_channels[None, :] + w + 1, 0, n)
     rows = sources[:, None]
-    inside = np.where(width >= 0, table.cumulative[rows, hi] - table.cumulative[rows, lo], 0)
-    near = inside.max(axis=1) > 0
+    return np.where(w >= 0, table.cumulative[rows, hi] - table.cumulative[rows, lo], 0)
+
+
+def _victim_bands(prep: PreparedSite, table: _Channels, v: int, sources: np.ndarray):
+    """v's channels with a sequence, v's bands against each source and a's visits per band (A, G, D)."""
+    c = np.flatnonzero(table.counts[v])
+    bands_ = bands.system_bands(prep, v, sources)
+    within = np.stack([_visits_within(table, c, sources, bands_.widths[:, g]) for g in range(bands_.count)], axis=1)
+    return c, bands_, np.diff(within, axis=1, prepend=0)
+
+
+def _overlaps(prep: PreparedSite, v: int, sources: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(k0, r) of the random-phase overlap count K of each source's dwells with v's packet."""
     systems = prep.site.systems
     airtime = np.array([systems[a].packet_airtime_s for a in sources])
     dwell = np.array([systems[a].dwell_s for a in sources])
     ratio = (systems[v].packet_airtime_s + airtime) / dwell  # random-phase overlap count (cohop.stats.overlap)
     k0 = np.floor(ratio)
-    # the K overlapped dwells are K consecutive positions of a's period: distinct positions (cohop.stats.overlap)
-    hit = 1.0 - survival_distinct(k0[:, None], (ratio - k0)[:, None], inside, table.lengths[sources][:, None],
-                                  prep.activity[sources][:, None])
+    return k0.astype(np.int64), ratio - k0
+
+
+def _victim_rows(prep: PreparedSite, table: _Channels, v: int, sources: np.ndarray, work: _Work):
+    """For every source a of `sources`: channels shared with v, whether some channel of a lies within reach
+    of harm (`prep.harm.reach`) of some channel of v, whether within v's threshold window (`prep.window`:
+    the longest runs), and v's per-hop hit rate with a random phase between them: the overlapped dwells are
+    consecutive, so distinct, positions of a's period, which positions averaged as a random subset, each
+    destroying the hop with alpha_a rho(offset) (`bands.subset_survival`). None when `work` refuses it."""
+    steps = sources.size * (int(np.count_nonzero(table.counts[v])) + 1)
+    if not work.take(steps + 10 * _CALL_STEPS):
+        return None
+    c, bands_, counts = _victim_bands(prep, table, v, sources)
+    k0, r = _overlaps(prep, v, sources)
+    a_count, g_count, d_count = counts.shape
+    rows = counts.transpose(0, 2, 1).reshape(-1, g_count)
+    drawn = np.repeat(np.minimum(k0 + 1, np.maximum(table.lengths[sources] - 1, 0)), d_count)
+    if not work.take((g_count - 1) * steps + (bands.subset_work(rows, drawn) if g_count > 1 else 0)):
+        return None
+    visits = table.counts[v, c].astype(float)
+    shared = (table.counts[sources[:, None], c[None, :]] > 0).sum(axis=1)
+    near = counts.sum(axis=1).max(axis=1) > 0
+    in_window = _visits_within(table, c, sources, prep.window[v, sources]).max(axis=1) > 0
+    kept = bands.subset_survival(np.repeat(k0, d_count), np.repeat(r, d_count), rows,
+                                 np.repeat(bands_.hit(prep.activity[sources]), d_count, axis=0),
+                                 np.repeat(table.lengths[sources], d_count))
+    hit = 1.0 - kept.reshape(a_count, d_count)
     unaligned = hit @ visits / visits.sum()
-    return shared, near, unaligned
+    return shared, near, in_window, unaligned
 
 
 def _aligned_counts(x: np.ndarray, y: np.ndarray, width: int) -> np.ndarray:
@@ -440,12 +480,25 @@ def _aligned_counts(x: np.ndarray, y: np.ndarray, width: int) -> np.ndarray:
     return np.searchsorted(keys, base + width, side="right") - np.searchsorted(keys, base - width, side="left")
 
 
+def _aligned_harm(prep: PreparedSite, v: int, a: int, x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """For each position i of x: sum of rho(|x_i - y_j|) over the positions j = i (mod g) of y it meets (once
+    per common period each), from the counts within each band's width (`cohop.sequences.bands`)."""
+    bands_ = bands.system_bands(prep, v, [a])
+    within = np.stack([_aligned_counts(x, y, int(w)) for w in bands_.widths[0]])
+    counts = bands.per_band(within)
+    out = bands_.harm[0, 0] * counts[0]
+    for g in range(1, bands_.count):
+        out = out + bands_.harm[0, g] * counts[g]
+    return out
+
+
 def aligned_channel_hits(prep: PreparedSite, v: int, a: int, x: np.ndarray, y: np.ndarray,
                          channels: np.ndarray) -> np.ndarray:
     """Slot-aligned sequences: a's per-hop hit probability on each of v's `channels`, exactly, over the
-    common period (slot t: v on x[t mod Lx], a on y[t mod Ly]; a transmits in a share alpha_a of slots)."""
+    common period (slot t: v on x[t mod Lx], a on y[t mod Ly]; a transmits in a share alpha_a of slots and
+    then destroys v's hop with rho(|x - y|), `cohop.harm`)."""
     x, y = np.asarray(x), np.asarray(y)
-    hits = _aligned_counts(x, y, int(prep.window[v, a]))
+    hits = _aligned_harm(prep, v, a, x, y)
     channels = np.asarray(channels)
     grid = int(max(x.max(), channels.max(initial=0))) + 1
     total = np.bincount(x, weights=hits, minlength=grid)[channels]
@@ -455,8 +508,9 @@ def aligned_channel_hits(prep: PreparedSite, v: int, a: int, x: np.ndarray, y: n
 
 
 def aligned_rate(prep: PreparedSite, v: int, a: int, x: np.ndarray, y: np.ndarray) -> float:
-    """Slot-aligned: exact per-hop hit rate of v from a over the common period."""
-    hits = _aligned_counts(np.asarray(x), np.asarray(y), int(prep.window[v, a]))
+    """Slot-aligned: exact per-hop hit rate of v from a over the common period (alpha_a times the mean harm
+    of the slots)."""
+    hits = _aligned_harm(prep, v, a, np.asarray(x), np.asarray(y))
     return float(prep.site.systems[a].activity_fraction * hits.sum() / math.lcm(len(x), len(y)))
 
 
@@ -506,29 +560,32 @@ def analyse(prep: PreparedSite, sequences: list[Sequence], rms_delay_spread_s: f
     work = _Work(PAIR_WORK)
     systems = sorted(seqs)
     listed: list[tuple[int, int]] = []
-    shared, near, unaligned = {}, {}, {}
-    reach = (prep.window >= 0) & ~np.eye(prep.n_systems, dtype=bool)
+    shared, near, in_window, unaligned = {}, {}, {}, {}
+    reach = (prep.harm.reach >= 0) & ~np.eye(prep.n_systems, dtype=bool)
     skipped_victims = 0
     for v in systems:
         sources = np.array([a for a in systems if a != v], dtype=np.int64)
         if not sources.size:
             continue
-        if not work.take(sources.size * (int(np.count_nonzero(table.counts[v])) + 1) + 10 * _CALL_STEPS):
+        rows = _victim_rows(prep, table, v, sources, work)
+        if rows is None:
             skipped_victims += 1
             continue
-        sh, nr, un = _victim_rows(prep, table, v, sources)
+        sh, nr, iw, un = rows
         reach[v, sources] = nr
-        for a, s_, n_, u_ in zip(sources.tolist(), sh.tolist(), nr.tolist(), un.tolist()):
+        for a, s_, n_, w_, u_ in zip(sources.tolist(), sh.tolist(), nr.tolist(), iw.tolist(), un.tolist()):
             if s_ or n_:
                 listed.append((v, a))
-                shared[v, a], near[v, a], unaligned[v, a] = int(s_), bool(n_), float(u_) if n_ else 0.0
+                shared[v, a], near[v, a], in_window[v, a] = int(s_), bool(n_), bool(w_)
+                unaligned[v, a] = float(u_) if n_ else 0.0
     aligned_hits = {}
     for v, a in listed:
         x, y = seqs[v], seqs[a]
-        if prep.links[v][a].aligned and work.take(2 * (x.size + y.size) + 5 * _CALL_STEPS):
+        if prep.links[v][a].aligned and work.take(2 * (x.size + y.size) * bands.system_bands(prep, v, [a]).count
+                                                  + 5 * _CALL_STEPS):
             aligned_hits[v, a] = aligned_rate(prep, v, a, x, y)
     coinc = _coincidences(prep, seqs, [(v, a) for v, a in listed if shared[v, a] and _same_rate(prep, v, a)], work)
-    run_pairs = [(v, a) for v, a in listed if near[v, a]]
+    run_pairs = [(v, a) for v, a in listed if in_window[v, a]]
     runs, searches, phases_used = longest_runs(prep, run_pairs, seqs, run_phases)
     run_of = {pair: (int(r), s) for pair, r, s in zip(run_pairs, runs, searches)}
     pairs = []

@@ -47,7 +47,7 @@ def packets_for(prep: PreparedSite, requested: int) -> int:
 #: Calibrated costs of the sequence phases on our 2-core machines (`bench/bench_timelimits.py --phases`
 #: prints them measured beside these estimates): the construction per channel held; the analysis besides
 #: the longest-run search (a base, per system, per ordered pair of systems); that search per (time offset
-#: x hop) cell (at most `analysis.RUN_CELLS` in all) and per harmful cell of the exact search of
+#: x hop) cell (at most `analysis.RUN_CELLS` in all) and per cell inside the window of the exact search of
 #: equal-dwell pairs (at most `analysis.DIAGONAL_WORK`); and one retry simulation per system, per packet and
 #: system, and per packet, system and other system. Three simulations run (planned order, ascending
 #: order, common pattern).
@@ -81,18 +81,19 @@ class SequenceWork:
 
 
 def _run_cells(prep: PreparedSite, sizes) -> int:
-    """Cells (hops) per time offset of the longest-run search over every pair that may be harmed (an upper
-    bound: `analysis.longest_runs` also skips pairs with no channel in reach)."""
+    """Cells (hops) per time offset of the longest-run search over every pair with a threshold window (an
+    upper bound: `analysis.longest_runs` also skips pairs with no channel inside it)."""
     n = np.asarray(sizes, dtype=float)
     dwell = np.array([s.dwell_s for s in prep.site.systems])
     natural = 2 * np.maximum(n[:, None], np.ceil(n[None, :] * dwell[None, :] / dwell[:, None]))
-    harmful = (prep.window >= 0) & ~np.eye(prep.n_systems, dtype=bool)
-    return int(np.minimum(natural, analysis.RUN_HORIZON_HOPS)[harmful].sum())
+    windowed = (prep.window >= 0) & ~np.eye(prep.n_systems, dtype=bool)
+    return int(np.minimum(natural, analysis.RUN_HORIZON_HOPS)[windowed].sum())
 
 
 def _diagonal_cells(prep: PreparedSite, sizes) -> int:
-    """Harmful cells the exact search of equal-dwell pairs lists at most (each channel once per period:
-    a position of v meets at most 2 w + 1 positions of a), at most `analysis.DIAGONAL_WORK`."""
+    """Cells inside the threshold window the exact search of equal-dwell pairs lists at most (each channel
+    once per period: a position of v meets at most 2 w + 1 positions of a), at most
+    `analysis.DIAGONAL_WORK`."""
     n = np.asarray(sizes, dtype=np.int64)
     dwell = np.array([s.dwell_s for s in prep.site.systems])
     equal = np.isclose(dwell[:, None], dwell[None, :], rtol=1e-12, atol=0.0) & ~np.eye(prep.n_systems, dtype=bool)

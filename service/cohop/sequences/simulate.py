@@ -4,10 +4,12 @@ A packet of victim v starts on a random hop of its sequence; attempt k uses
 the next `hops_per_attempt` hops. Every other system keeps one random time
 offset over its whole period for the packet (slot-aligned group members keep
 the plan's alignment) and is active in each of its dwells independently; its
-channel at any time is read from its own sequence. A hop is hit when an
-overlapping active burst lies inside v's harmful window; fixed interferers
-hit as in the analytic model (independently per attempt; bursty ones through
-their phase, kept for the packet). Fading follows the hops: the complex gain
+channel at any time is read from its own sequence. An overlapping active
+burst at channel offset d destroys the hop with its harm rho(d) (`cohop.harm`,
+0 beyond `prep.harm.reach`), independently of the others; fixed interferers
+hit as in the analytic model, each transmission with alpha rho(channel)
+(independently per hop; bursty ones through their phase, kept for the
+packet, one draw per overlapped burst). Fading follows the hops: the complex gain
 is AR(1) from hop to hop with magnitude sqrt(r), r the envelope correlation
 at that frequency step (`cohop.stats.hopping.envelope_correlation`, after
 Jakes, "Microwave Mobile Communications", 1974), since the envelope
@@ -17,12 +19,16 @@ fades when the power falls below 10^(-M/10) of the mean.
 
 Source a's dwells m that overlap v's packet starting at t0 are those with
 m D_a + phi < t0 + T_v and m D_a + phi + T_a > t0, a run of consecutive m; of
-them, the ones whose channel lies in v's window are counted (up to
-`cohop.limits.MAX_OVERLAPS` and more, in 64-bit integers), and each is active
-independently, so the hop is hit with probability 1 - (1 - alpha_a)^count.
-All sources that can reach v are drawn together (their counts as one array);
-a source overlapping many dwells has its counts read from running totals
-along its sequence instead of dwell by dwell.
+them, the ones whose channel lies in each band of equal harm rho_g of the pair
+(`cohop.sequences.bands`) are counted (up to `cohop.limits.MAX_OVERLAPS` and
+more, in 64-bit integers), and each is active and destroys the hop
+independently, so the hop is hit with probability
+1 - prod_g (1 - alpha_a rho_g)^(count_g), drawn once per cell (the same law
+as one draw per transmission). With fading "none" there is one band, rho 1
+inside the threshold window: 1 - (1 - alpha_a)^count. All sources that can
+reach v are drawn together (their counts as one array); a source overlapping
+many dwells has its counts read from running totals along its sequence
+instead of dwell by dwell.
 
 The residual loss after the retry limit is then counted directly and
 reported beside p^(k+1), the independent-attempt figure from the same
@@ -37,7 +43,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from cohop import harm
 from cohop.prepare import PreparedSite
+from cohop.sequences import bands
 from cohop.stats import hopping
 from cohop.stats.intervals import wilson_interval
 
@@ -84,7 +92,8 @@ class Orders:
     """Every system's order, laid out once for a whole simulation run: one flat array holding each order
     followed by its first _DRAWN_DWELLS + 1 hops again (so that a run of dwells from any start needs no
     wrap), and the sorted keys a K + channel of the channels each system visits (K wider than any channel
-    plus two windows), which say at once which of v's channels a source can reach."""
+    plus twice the farthest reach of harm, the grid), which say at once which of v's channels a source can
+    reach."""
 
     sequences: tuple[np.ndarray, ...]
     flat: np.ndarray
@@ -110,11 +119,12 @@ class Orders:
         return (at < self.keys.size) & (self.keys[np.minimum(at, self.keys.size - 1)] <= base + w)
 
     def reach(self, prep: PreparedSite, v: int) -> np.ndarray:
-        """(S,) bool: some channel of a's order lies inside v's harmful window of some channel of v's."""
+        """(S,) bool: some channel of a's order lies within reach of harm (`prep.harm.reach`) of some channel
+        of v's."""
         others = np.array([a for a in range(prep.n_systems) if a != v], dtype=np.int64)
         out = np.zeros(prep.n_systems, dtype=bool)
         if others.size:
-            width = prep.window[v, others]
+            width = prep.harm.reach[v, others]
             out[others] = (width >= 0) & self.near(others, np.unique(self.sequences[v]), width).any(axis=1)
         return out
 
@@ -157,7 +167,8 @@ def _counts_from_totals(seq_a: np.ndarray, chan_v: np.ndarray, lo, hi, width: in
 def _system_hits(rng, prep: PreparedSite, v: int, orders: Orders, sources: np.ndarray, hop: np.ndarray) -> np.ndarray:
     """(packets, hops): some source in `sources` hits v's hop (`hop`: v's hop numbers). Each source keeps one
     random time offset over its whole period for the packet (none when slot-aligned with v). Only the
-    (source, hop) cells whose channel has some channel of the source within its window are looked at."""
+    (source, hop) cells whose channel has some channel of the source within its reach of harm are looked
+    at; their overlapped dwells are counted per band (`cohop.sequences.bands`)."""
     n, hops = hop.shape
     cells = n * hops
     chan_v = orders.sequences[v][hop % orders.size[v]].ravel()
@@ -171,7 +182,8 @@ def _system_hits(rng, prep: PreparedSite, v: int, orders: Orders, sources: np.nd
     per_chunk = max(1, _CHUNK_ELEMENTS // cells)
     for c in range(0, sources.size, per_chunk):
         chunk = sources[c:c + per_chunk]
-        width, dwell, airtime = prep.window[v, chunk], dwell_all[chunk], airtime_all[chunk]
+        chunk_bands = bands.system_bands(prep, v, chunk)
+        width, dwell, airtime = chunk_bands.reach, dwell_all[chunk], airtime_all[chunk]
         period = orders.size[chunk] * dwell
         phase = np.where(aligned_all[chunk][:, None], 0.0, rng.random((chunk.size, n)) * period[:, None])
         found = np.flatnonzero(orders.near(chunk, distinct, width)[:, which])  # (source, cell) worth a look
@@ -182,31 +194,42 @@ def _system_hits(rng, prep: PreparedSite, v: int, orders: Orders, sources: np.nd
         lo = np.floor(z - (airtime / dwell)[i]).astype(np.int64) + 1
         hi = np.ceil(z + sv.packet_airtime_s / dwell[i]).astype(np.int64) - 1
         many = np.ceil((sv.packet_airtime_s + airtime) / dwell) + 1 > _DRAWN_DWELLS
-        counts = np.zeros(found.size, dtype=np.int64)
-        drawn = ~many[i]
-        if drawn.any():
-            counts[drawn] = _counts_drawn(orders, chunk[i[drawn]], chan_v[cell[drawn]], lo[drawn], hi[drawn],
-                                          width[i[drawn]])
+        within = np.zeros((chunk_bands.count, found.size), dtype=np.int64)  # dwells within each band's width
+        drawn = np.flatnonzero(~many[i])
+        if drawn.size:
+            at_i, at_chan, at_lo, at_hi = i[drawn], chan_v[cell[drawn]], lo[drawn], hi[drawn]
+            for g in range(chunk_bands.count):
+                within[g, drawn] = _counts_drawn(orders, chunk[at_i], at_chan, at_lo, at_hi,
+                                                 chunk_bands.widths[at_i, g])
         for k in np.flatnonzero(many):
-            mine = i == k
-            counts[mine] = _counts_from_totals(orders.sequences[chunk[k]], chan_v[cell[mine]], lo[mine], hi[mine],
-                                               int(width[k]))
-        # each exposed dwell transmits independently with a's activity: one draw per exposed cell for all
-        exposed = np.flatnonzero(counts)
-        quiet = (1.0 - prep.activity[chunk])[i[exposed]] ** counts[exposed]
+            mine = np.flatnonzero(i == k)
+            for g in range(chunk_bands.count):
+                within[g, mine] = _counts_from_totals(orders.sequences[chunk[k]], chan_v[cell[mine]], lo[mine],
+                                                      hi[mine], int(chunk_bands.widths[k, g]))
+        # each exposed dwell transmits independently with a's activity and then destroys the hop with its
+        # band's harm: one draw per exposed cell for all
+        exposed = np.flatnonzero(within[-1])
+        hit = chunk_bands.hit(prep.activity[chunk])[i[exposed]].T  # (G, exposed)
+        quiet = bands.survival(bands.per_band(within[:, exposed]), hit)
         lost[cell[exposed[rng.random(exposed.size) < 1.0 - quiet]]] = True
     return lost.reshape(n, hops)
 
 
 def _interferer_hits(rng, prep: PreparedSite, v: int, k: int, chan_v: np.ndarray, t0: np.ndarray) -> np.ndarray:
+    """(packets, hops): fixed interferer k destroys v's hop. Each of its transmissions overlapping the hop
+    (a continuous one: one per hop) does so with alpha_k rho_k(channel) (`cohop.harm.interferer_harm`),
+    independently; only channels in `prep.interferer_range` have harm."""
     link = prep.interferer_links[v][k]
     lo, hi = prep.interferer_range[v, k]
     harmed = (chan_v >= lo) & (chan_v < hi)
     if not harmed.any():
         return harmed
     itf = prep.site.interferers[k]
+    spans = np.array([[i.low_hz, i.high_hz] for i in prep.site.interferers]).reshape(-1, 2)
+    rho = harm.interferer_harm(prep.harm, prep.site.systems[v], v, spans, prep.centres_hz, np.arange(hi))[k]
+    chance = link.activity_fraction * rho[np.minimum(chan_v, hi - 1)]  # one transmission destroys the hop
     if itf.burst_s is None:
-        return harmed & (rng.random(chan_v.shape) < link.activity_fraction)
+        return harmed & (rng.random(chan_v.shape) < chance)
     tv = prep.site.systems[v].packet_airtime_s
     phase = rng.random((chan_v.shape[0], 1)) * itf.period_s
     hit = np.zeros(chan_v.shape, dtype=bool)
@@ -214,7 +237,7 @@ def _interferer_hits(rng, prep: PreparedSite, v: int, k: int, chan_v: np.ndarray
     for j in range(math.ceil((tv + itf.burst_s) / itf.period_s) + 2):
         begin = (first + j) * itf.period_s + phase
         overlaps = (begin < t0 + tv) & (begin + itf.burst_s > t0)
-        hit |= overlaps & (rng.random(chan_v.shape) < link.activity_fraction)
+        hit |= overlaps & (rng.random(chan_v.shape) < chance)
     return hit & harmed
 
 

@@ -198,10 +198,23 @@ def distinct_survival_weighted(k, near_e, near_count, near_product, far_count, f
     far = np.asarray(far_count, dtype=float)
     y_far = np.asarray(far_keep, dtype=float)
     full = near_product * y_far ** far  # prod of y over every channel
-    ln_all = _log_choose(n, m)
-    acc = np.zeros(np.broadcast_shapes(np.shape(m), np.shape(far), near_e.shape[:-1]))
-    for j in range(near_e.shape[-1]):
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            w = np.exp(_log_choose(far, m - j) - ln_all) * np.where(m >= j, y_far ** np.maximum(m - j, 0), 0.0)
-        acc += np.where((m >= j) & (j <= near_count), near_e[..., j] * w, 0.0)
+    shape = np.broadcast_shapes(np.shape(m), np.shape(far), np.shape(y_far), np.shape(n), np.shape(q),
+                                np.shape(near_product), near_e.shape[:-1])
+    m, far, y_far, n = (np.broadcast_to(a, shape) for a in (m, far, y_far, n))
+    e1 = near_e[..., 1] if near_e.shape[-1] > 1 else np.zeros(near_e.shape[:-1])
+    # m <= 1 in closed form: e_0 = 1, e_1 / N = the mean of y over the channels
+    acc = np.where(m == 0, 1.0, (np.broadcast_to(e1, shape) + far * y_far) / n)
+    several = m >= 2
+    if several.any():
+        acc = acc.copy()
+        e = np.broadcast_to(near_e, shape + near_e.shape[-1:])[several]
+        near = np.broadcast_to(np.asarray(near_count), shape)[several]
+        ms, fs, ys = m[several], far[several], y_far[several]
+        ln_all = _log_choose(n[several], ms)
+        part = np.zeros(ms.shape)
+        for j in range(e.shape[-1]):
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                w = np.exp(_log_choose(fs, ms - j) - ln_all) * np.where(ms >= j, ys ** np.maximum(ms - j, 0), 0.0)
+            part += np.where((ms >= j) & (j <= near), e[:, j] * w, 0.0)
+        acc[several] = part
     return full**q * acc

@@ -6,11 +6,13 @@ The model, step by step (each module holds its sources):
    retry_limit + 1 attempts of n = hops_per_attempt hops; when retries outlast the interval the next
    message waits, so the interval is at least R n dwells). Message k starts on hop s0 + k g of the order.
 2. Per hop of a message (`hits`, `pieces`): a neighbour whose order is known hits according to its fixed
-   phase (its dwells overlapping the hop whose channel lies in the harmful window, each active
-   independently with its activity); a neighbour without a known order hits independently per hop with
-   its uniform-hopping figure from the assessment (`pieces.channel_losses`); a continuous fixed interferer
-   is on or off for the whole stretch (its activity is the share of phase samples in which it is on);
-   a bursty one hits independently per hop with its assessment figure.
+   phase (its dwells overlapping the hop, each active independently with its activity and then
+   destroying the hop with its harm rho at its channel offset, `cohop.harm`: the hop survives with
+   prod (1 - alpha rho)); a neighbour without a known order hits independently per hop with its
+   uniform-hopping figure from the assessment (`pieces.channel_losses`); a continuous fixed interferer
+   is on or off for the whole stretch (its activity is the share of phase samples in which it is on)
+   and, while on, destroys each hop with its harm at the hop's channel (the assessment's figure over its
+   activity); a bursty one hits independently per hop with its assessment figure.
 3. Fading: a two-state chain between consecutive hops whose joint fade probability is, for Rayleigh,
    Kibble's for the power correlation of the two channels (Jakes' form with the site's delay spread;
    `cohop.stats.runs.fade_transitions`) and, for Rician, the same diffuse correlation under a fixed line
@@ -44,13 +46,14 @@ import numpy as np
 
 from cohop import limits
 from cohop.prepare import PreparedSite
+from cohop.sequences.bands import system_bands
 from cohop.sequences.report import delay_spread
 from cohop.site import Traffic
 from cohop.stats import hopping
 from cohop.stats.runs import fade_transitions, rician_fade_transitions
 from cohop.traffic import chain, latency
 from cohop.traffic.ceiling import collision_ceiling
-from cohop.traffic.hits import dwell_counts, survival_given_phase
+from cohop.traffic.hits import band_counts, survival_given_phase
 from cohop.traffic.messages import message_hops, watchdog_messages
 from cohop.traffic.pieces import ChannelLosses, channel_losses
 
@@ -233,10 +236,11 @@ def _pieces(prep: PreparedSite, v: int, orders, losses: ChannelLosses,
         else:
             order_a = np.asarray(orders[a])
             phase = np.zeros(shape[0]) if link.aligned else lay.phase[:, a] * order_a.size * src.dwell_s
-            counts = dwell_counts(order_v, order_a, int(prep.window[v, a]), flat, phase, system.dwell_s,
-                                  system.packet_airtime_s, src.dwell_s, src.packet_airtime_s,
-                                  rows=(losses.channels, col.reshape(flat.shape)))
-            x = 1.0 - survival_given_phase(counts, float(prep.activity[a])).reshape(shape)
+            pair = system_bands(prep, v, [a])
+            within = band_counts(order_v, order_a, pair.widths[0], flat, phase, system.dwell_s,
+                                 system.packet_airtime_s, src.dwell_s, src.packet_airtime_s,
+                                 rows=(losses.channels, col.reshape(flat.shape)))
+            x = 1.0 - survival_given_phase(within, pair.hit([prep.activity[a]])[0]).reshape(shape)
         if x.any():
             out.append((src.id, x))
     for k, link in enumerate(prep.interferer_links[v]):
