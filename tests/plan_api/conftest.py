@@ -116,9 +116,18 @@ def assert_repeats(first: dict, second: dict) -> None:
         assert without_time(first) == without_time(second)
 
 
+def unfaded(site: dict) -> dict:
+    """`site` with every receiver judged on the capture threshold (`fading: none`: harm 1 inside the harmful
+    window, 0 outside), for tests whose expectations are the threshold's channel sets or levels."""
+    for s in site["systems"]:
+        s["fading"] = "none"
+    return site
+
+
 def interfered(threshold: float, d_count: int, pins=()) -> dict:
-    """The small request with the interferer on d, d needing `d_count` channels."""
-    body = small_request(site=small_site(interferers=[interferer()]))
+    """The small request with the interferer on d, d needing `d_count` channels; unfaded, so the interferer
+    harms exactly INTERFERED_CHANNELS."""
+    body = small_request(site=unfaded(small_site(interferers=[interferer()])))
     body["requirements"]["interferer_threshold"] = threshold
     requirement(body, "d").update(min_channels=d_count, max_channels=d_count, pinned_channels=list(pins))
     return body

@@ -1,9 +1,9 @@
 """The channel DP (`planning.channel_dp`) against full enumeration of its relaxed problem on small instances.
 
 The relaxed objective is re-implemented here from its definition (the instance's pair coefficients and
-windows, the DP module's text): for every channel c a set t_c of systems, cost
+varying harm, the DP module's text): for every channel c a set t_c of systems, cost
     sum_c sum_{v in t_c} (w_v q_v(c) / N_v - lambda_v)
-  + sum over ordered pairs (v, a), v != a, at offset d in {0, 1} within v's window: w_v beta_va / (N_v N_a),
+  + sum over ordered pairs (v, a), v != a, at offset d in {0, 1}: w_v beta_va / (N_v N_a) offset_harm[v, a, d],
 and the kept constraints (allowed channels or pins, pins held, separation 2 between consecutive channels,
 guards of width 0 and 1). Every path over the channels is enumerated (common practice: exhaustive search as
 the reference for a dynamic programme).
@@ -21,8 +21,10 @@ from cohop.planning.linear import occupancy, system_estimates
 from tests.planning import helpers
 
 
-def _instance(loss=30.0, sizes=(2, 2, 2), n_channels=5, seed=0, **req):
-    body = helpers.tiny_site(len(sizes), n_channels, losses={(0, 1): loss, (1, 2): loss + 10, (0, 2): loss - 5})
+def _instance(loss=30.0, sizes=(2, 2, 2), n_channels=5, seed=0, system=None, **req):
+    """Three systems (Rayleigh-faded by default: soft harm); `system` overrides every system's fields."""
+    body = helpers.tiny_site(len(sizes), n_channels, losses={(0, 1): loss, (1, 2): loss + 10, (0, 2): loss - 5},
+                             **(system or {}))
     inst = helpers.instance(body, sizes, **req)
     rng = np.random.default_rng(seed)
     inst.interferer_cost = rng.uniform(0.0, 0.2, inst.interferer_cost.shape)
@@ -31,9 +33,7 @@ def _instance(loss=30.0, sizes=(2, 2, 2), n_channels=5, seed=0, **req):
 
 def _relaxed_cost(inst, sets, lam, w) -> float | None:
     """Cost of one path (a tuple of sets of systems, one per channel), None where a kept constraint fails."""
-    s, c = inst.n_systems, inst.n_channels
-    coef = inst.pair_coef()
-    full = inst.window >= c - 1
+    s = inst.n_systems
     total = 0.0
     for k, t in enumerate(sets):
         for v in range(s):
@@ -44,8 +44,7 @@ def _relaxed_cost(inst, sets, lam, w) -> float | None:
                 return None
             total += w[v] * inst.interferer_cost[v, k] / inst.sizes[v] - lam[v]
         for v, a in itertools.permutations(t, 2):
-            if inst.window[v, a] >= 0 and not full[v, a]:
-                total += w[v] * coef[v, a]
+            total += w[v] * _pair(inst, v, a, 0)
         for v, a, g in inst.guards:
             if v in t and a in t:
                 return None
@@ -62,11 +61,14 @@ def _relaxed_cost(inst, sets, lam, w) -> float | None:
             for a in t:
                 if v == a:
                     continue
-                if inst.window[v, a] >= 1 and not full[v, a]:
-                    total += w[v] * coef[v, a]
-                if inst.window[a, v] >= 1 and not full[a, v]:
-                    total += w[a] * coef[a, v]
+                total += w[v] * _pair(inst, v, a, 1) + w[a] * _pair(inst, a, v, 1)
     return total
+
+
+def _pair(inst, v: int, a: int, d: int) -> float:
+    """Victim v's varying cost of one pair of channel uses at offset d: beta_va / (N_v N_a) x offset_harm."""
+    harm = inst.offset_harm[v, a, d] if d < inst.offset_harm.shape[2] else 0.0
+    return float(inst.beta[v, a] / (inst.sizes[v] * inst.sizes[a]) * harm)
 
 
 def _enumerate(inst, lams, w) -> np.ndarray:
@@ -118,10 +120,17 @@ def test_dense_and_compiled_scans_agree(monkeypatch):
     assert scan.value == pytest.approx(dense.value, abs=1e-12)
 
 
+#: A receiver whose rejection stops at 30 dB from 2 MHz on: with Rayleigh fading every pair keeps a constant
+#: harm at every offset, and its harm varies at offsets 0 and 1 only.
+SHALLOW = {"rejection": [{"offset_hz": 1e6, "rejection_db": 11.0}, {"offset_hz": 2e6, "rejection_db": 30.0}]}
+
+
 def test_relaxed_cost_is_the_objective_when_nothing_is_dropped():
-    """With windows of at most one channel the relaxation drops nothing: on a plan with the right counts its
-    per-victim cost is the linearised estimate (`planning.linear`)."""
-    inst = _instance(loss=40.0, sizes=(2, 2, 2), n_channels=6)
+    """With harm varying at offsets 0 and 1 only the relaxation drops nothing: on a plan with the right counts
+    its per-victim cost, the constant part of the harm included, is the linearised estimate
+    (`planning.linear`)."""
+    inst = _instance(loss=40.0, sizes=(2, 2, 2), n_channels=6, system=SHALLOW)
+    assert inst.window.max() == 1 and (inst.constant_harm[~np.eye(3, dtype=bool)] > 0).all()
     rel = channel_dp.relax(inst)
     assert not rel.dropped.pairs
     x = occupancy([[0, 3], [1, 3], [2, 5]], 3, 6)
@@ -129,22 +138,32 @@ def test_relaxed_cost_is_the_objective_when_nothing_is_dropped():
 
 
 def test_wider_windows_are_dropped_and_listed():
-    inst = _instance(loss=30.0)
+    """Unfaded (harm 1 inside the threshold window), only the strongest pair's window reaches offset 2."""
+    inst = _instance(loss=30.0, system={"fading": "none"})
     dropped = channel_dp.relax(inst).dropped
     assert {(v, a, d) for v, a, d, _ in dropped.pairs} == {(0, 2, 2), (2, 0, 2)}
     assert "offsets >= 2" in dropped.describe(inst.ids)
 
 
-def test_given_offset_harm_replaces_the_window():
-    """The kernel's per-offset harm, when the instance has it, is what the DP costs: the 0/1 window given as
-    offset_harm changes nothing; halving the harm at offset 1 halves those pair costs."""
-    inst = _instance(loss=40.0)
-    lam = np.array([0.3, 0.25, 0.3])
-    w = inst.weights.astype(float)
-    base = channel_dp.solve(channel_dp.relax(inst), lam, w).value
-    harm = (inst.window[:, :, None] >= np.arange(2)[None, None, :]).astype(float)
-    inst.offset_harm = harm
-    assert channel_dp.solve(channel_dp.relax(inst), lam, w).value == pytest.approx(base, abs=1e-14)
-    assert channel_dp.pair_offset_costs(inst)[1] == pytest.approx(inst.pair_coef() * harm[:, :, 1])
-    inst.offset_harm = harm * np.array([1.0, 0.5])
-    assert channel_dp.pair_offset_costs(inst)[1] == pytest.approx(0.5 * inst.pair_coef() * harm[:, :, 1])
+def test_soft_harm_beyond_offset_1_is_dropped_at_its_cost():
+    """Faded, every pair's harm varies beyond offset 1: each dropped pair is listed with its varying cost
+    beta_va / (N_v N_a) x offset_harm[v, a, d]."""
+    inst = _instance(loss=30.0)
+    dropped = channel_dp.relax(inst).dropped
+    expected = {(v, a, d) for v in range(3) for a in range(3) for d in range(2, int(inst.window[v, a]) + 1)}
+    assert {(v, a, d) for v, a, d, _ in dropped.pairs} == expected and expected
+    for v, a, d, cost in dropped.pairs:
+        assert cost == pytest.approx(_pair(inst, v, a, d), rel=1e-12)
+
+
+def test_harm_table_is_the_constant_and_the_varying_harm():
+    """The DP's harm at every grid offset is constant_harm + offset_harm (the constant alone beyond the varying
+    part's reach); halving the varying harm at offset 1 halves those pair costs and leaves the constant."""
+    inst = _instance(loss=40.0, n_channels=6, system=SHALLOW)
+    table = channel_dp.harm_table(inst)
+    assert table[:, :, 4] == pytest.approx(inst.constant_harm)
+    assert table[:, :, 1] == pytest.approx(inst.constant_harm + inst.offset_harm[:, :, 1])
+    before = channel_dp.constant_per_victim(inst)
+    inst.offset_harm = inst.offset_harm * np.array([1.0, 0.5])
+    assert channel_dp.pair_offset_costs(inst)[1] == pytest.approx(inst.pair_coef() * inst.offset_harm[:, :, 1])
+    assert channel_dp.constant_per_victim(inst) == pytest.approx(before)

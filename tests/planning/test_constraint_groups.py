@@ -56,9 +56,9 @@ def test_guards():
 
 
 def test_ceilings():
-    # Two systems sharing channels: s0's linearised collision is known by hand, so a ceiling just above it
-    # is feasible and one just below is not.
-    inst = instance(tiny_site(2, 6), [2, 2])
+    # Two systems sharing channels: s0's linearised collision is known by hand (unfaded: harm 1 co-channel, 0
+    # elsewhere), so a ceiling just above it is feasible and one just below is not.
+    inst = instance(tiny_site(2, 6, fading="none"), [2, 2])
     objective = model.Objective()
     m, mv = model.build(inst, [model.ChannelVariables(keep_excluded=True), objective])
     scale = model.Scale.choose(np.array([c for _, wc, cv, ca in objective.costs.pair for c in (wc, cv, ca)]))
@@ -74,8 +74,9 @@ def test_ceilings():
 
 
 def test_objective_products_follow_the_channels():
-    # The pair booleans take the AND of the two channel literals at the optimum (minimisation).
-    inst = instance(tiny_site(2, 6), [2, 2])
+    # The pair booleans take the AND of the two channel literals at the optimum (minimisation); unfaded, only
+    # co-channel pairs cost anything.
+    inst = instance(tiny_site(2, 6, fading="none"), [2, 2])
     objective = model.Objective()
     m, mv = model.build(inst, [model.ChannelVariables(), model.ChannelCounts(), objective])
     scale = model.Scale.choose(np.array([wc for _, wc, _, _ in objective.costs.pair]))

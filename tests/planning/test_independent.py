@@ -181,9 +181,10 @@ def test_a_system_that_cannot_reach_its_minimum_is_a_conflict_not_a_crash():
 
 
 def test_spacing_keeps_pins_and_the_separation():
-    from cohop.planning.independent import _select, _spaced
-    assert _spaced(range(10), 3) == [0, 3, 6, 9]
-    assert _spaced(range(10), 3, keep=[4]) == [0, 4, 7]
+    from cohop.planning.independent import _select
+    from cohop.planning.take_back import spaced
+    assert spaced(range(10), 3) == [0, 3, 6, 9]
+    assert spaced(range(10), 3, keep=[4]) == [0, 4, 7]
     exposure = np.zeros(10)
     exposure[[0, 9]] = 0.5  # the edges are the most exposed
     chosen = _select(np.arange(10), np.array([4]), exposure, 3, 2)

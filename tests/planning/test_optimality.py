@@ -51,8 +51,9 @@ def test_column_generation_bound_is_below_the_optimum(seed):
 
 
 def _uniform(n_systems: int, n_channels: int, size: int):
-    """Identical systems, co-channel harm only (excess 11 dB, first adjacent rejection 11 dB)."""
-    systems = [sites.system(f"u{i}", dwell_s=0.01, packet_airtime_s=0.002, activity_fraction=1.0)
+    """Identical systems, co-channel harm only (excess 11 dB, first adjacent rejection 11 dB; unfaded, so the
+    harm is 1 co-channel and 0 elsewhere: the hand-computed optima below rest on it)."""
+    systems = [sites.system(f"u{i}", dwell_s=0.01, packet_airtime_s=0.002, activity_fraction=1.0, fading="none")
                for i in range(n_systems)]
     body = sites.site(systems, coupling_loss_db=60.0, n_channels=n_channels)
     prep = prepare_site(sites.load(body))
@@ -79,8 +80,8 @@ def test_known_optimum_balanced_loads(n_systems, n_channels, size):
 def test_known_optimum_zero_when_blocks_fit_with_guards():
     # Construction: windows of one channel (excess between the first and second rejection step) and
     # S blocks of N channels with one empty channel between blocks fit in S (N + 1) - 1 channels:
-    # the optimum is 0 and the planner must find a conflict-free layout.
-    systems = [sites.system(f"b{i}", dwell_s=0.01, packet_airtime_s=0.002) for i in range(5)]
+    # the optimum is 0 and the planner must find a conflict-free layout. Unfaded: no harm beyond the window.
+    systems = [sites.system(f"b{i}", dwell_s=0.01, packet_airtime_s=0.002, fading="none") for i in range(5)]
     body = sites.site(systems, coupling_loss_db=50.0, n_channels=5 * 7 - 1)
     prep = prepare_site(sites.load(body))
     assert (prep.window[~np.eye(5, dtype=bool)] == 1).all()
@@ -106,8 +107,9 @@ def test_plan_beats_every_feasible_baseline_on_a_sample():
 # --- the rounding allowance: CP-SAT's bound less the rounding of its integer costs (issue 11, item 6) -----
 
 def _adjacent_pair():
-    """Two identical systems of 5 channels on a 10-channel grid, harmed co-channel and one channel apart."""
-    systems = [sites.system(f"b{i}", dwell_s=0.01, packet_airtime_s=0.002) for i in range(2)]
+    """Two identical unfaded systems of 5 channels on a 10-channel grid, harmed (harm 1) co-channel and one
+    channel apart, not beyond."""
+    systems = [sites.system(f"b{i}", dwell_s=0.01, packet_airtime_s=0.002, fading="none") for i in range(2)]
     prep = prepare_site(sites.load(sites.site(systems, coupling_loss_db=50.0, n_channels=10)))
     reqs = tuple(SystemRequirement(system=s["id"], min_channels=5, max_channels=5) for s in systems)
     return prep, PlanRequirements(systems=reqs)

@@ -26,8 +26,10 @@ Lagrangian bound
     z_LP + sum_P m_P min_p reduced_cost(p)
 is valid when every class was priced exactly, so the bound is reported even
 if the loop stops early. With L = 1 this is the aggregated model with one
-count per subset of systems (Dantzig-Wolfe on channels). Pairs harmed at
-every offset are constant.
+count per subset of systems (Dantzig-Wolfe on channels). A pair of channel
+uses at offset d costs pair_coef x offset_harm[d] (`linear.pair_costs`); the
+constant part of the harm (`inst.constant_harm`) is paid whatever the plan
+and added as a constant.
 """
 
 from __future__ import annotations
@@ -39,6 +41,7 @@ import numpy as np
 from ortools.linear_solver import pywraplp
 
 from cohop.planning.instance import PlanningInstance
+from cohop.planning.linear import constant_costs, pair_costs
 
 Pattern = tuple[frozenset, ...]
 
@@ -84,41 +87,33 @@ class _Costs:
 
     def __init__(self, inst: PlanningInstance, length: int):
         self.inst, self.length = inst, length
-        self.coef = inst.pair_coef()
-        self.full = inst.n_channels - 1
-        self.eff = np.where(inst.window >= self.full, -1, inst.window)  # full windows are constant
+        omega = 1.0 / (length - np.arange(length))  # a pair at offset d lies in L - d windows
+        #: [d, v, a]: to victim v per pair of channel uses at offset d < L, in one window
+        self.unit = np.moveaxis(pair_costs(inst, length), 2, 0) * omega[:, None, None]
         self.node = inst.node_coef()
 
-    def omega(self, d: int) -> float:
-        return 1.0 / (self.length - d)
+    def pair(self, d: int, v: int, a: int) -> float:
+        """What one pair (v, a) at offset d in a window costs victim v (0 beyond its varying harm)."""
+        return float(self.unit[d, v, a])
 
     def per_victim(self, pattern: Pattern, key: tuple, classes: _Classes) -> np.ndarray:
         inst = self.inst
-        out = np.zeros(inst.n_systems)
+        on = np.zeros((self.length, inst.n_systems))
         for i, members in enumerate(pattern):
+            on[i, list(members)] = 1.0
+        out = np.zeros(inst.n_systems)
+        for i in range(self.length):
             if key[i] >= 0:
-                c = classes.type_channel[key[i]]
-                for v in members:
-                    out[v] += self.node[v, c] / self.length
-        for i, si in enumerate(pattern):
-            for j in range(i, self.length):
-                d = j - i
-                for v in si:
-                    for a in pattern[j]:
-                        if a == v or (d == 0 and a < v):
-                            continue
-                        if d <= self.eff[v, a]:
-                            out[v] += self.coef[v, a] * self.omega(d)
-                        if d <= self.eff[a, v]:
-                            out[a] += self.coef[a, v] * self.omega(d)
+                out += on[i] * self.node[:, classes.type_channel[key[i]]] / self.length
+        for d in range(self.length):
+            lo, hi = on[:self.length - d], on[d:]  # positions i and i + d
+            out += (lo * (hi @ self.unit[d].T)).sum(axis=0)
+            if d:
+                out += (hi * (lo @ self.unit[d].T)).sum(axis=0)
         return out
 
     def constant_per_victim(self) -> np.ndarray:
-        inst = self.inst
-        n = inst.sizes.astype(float)
-        full = inst.window >= self.full
-        np.fill_diagonal(full, False)
-        return (self.coef * full * n[:, None] * n[None, :]).sum(axis=1)
+        return constant_costs(self.inst)
 
 
 def _uses(pattern: Pattern, n_systems: int) -> np.ndarray:
@@ -184,8 +179,7 @@ class _Pricing:
                     continue
                 if guard.get((min(v, a), max(v, a)), -1) >= d:
                     self.forbidden[k1, k2] = self.forbidden[k2, k1] = True
-                to_v = costs.coef[v, a] * costs.omega(d) if d <= costs.eff[v, a] else 0.0
-                to_a = costs.coef[a, v] * costs.omega(d) if d <= costs.eff[a, v] else 0.0
+                to_v, to_a = costs.pair(d, v, a), costs.pair(d, a, v)
                 if to_v or to_a:
                     pairs.append((k1, k2, to_v, to_a))
         self.pairs = np.array(pairs, dtype=float).reshape(-1, 4)
@@ -330,8 +324,8 @@ class _Pricing:
 
 
 def window_length(inst: PlanningInstance, max_booleans: int = 40, cap: int = 3) -> int:
-    finite = inst.window[(inst.window >= 0) & (inst.window < inst.n_channels - 1)]
-    widest = int(finite.max()) if finite.size else 0
+    """L: one more than the widest offset where some harm varies, within `cap` and `max_booleans` per pattern."""
+    widest = max(int(inst.window.max(initial=-1)), 0)
     length = min(widest + 1, cap, max(1, max_booleans // max(1, inst.n_systems)))
     return max(1, length)
 

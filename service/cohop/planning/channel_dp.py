@@ -20,10 +20,10 @@ What the relaxed problem keeps and what it drops (so every bound stays valid):
   every plan's objective), separation beyond one channel, guards beyond
   offset 1 (dropping a constraint only adds plans). `Dropped` lists them with
   their cost weight. The least harm of a pair over all offsets is paid on
-  every pair of channel uses whatever the plan (today: pairs harmed at every
-  offset) and stays a constant (`split_harm`). The per-offset harm is read in
-  one place, `harm_table`: the instance's `offset_harm` when it has one, else
-  the 0/1 window.
+  every pair of channel uses whatever the plan (the instance's
+  `constant_harm`) and stays a constant (`split_harm`). The per-offset harm
+  is read in one place, `harm_table`: the instance's constant and varying
+  harm (`constant_harm + offset_harm`) at every offset of the grid.
 
 Exact pruning. Pair costs are >= 0, so removing system v from a state
 changes the path's cost by at most -(node - lambda_v) - (v's co-channel cost
@@ -52,6 +52,7 @@ import numpy as np
 
 from cohop.planning.instance import PlanningInstance
 from cohop.planning.jit import njit
+from cohop.planning.linear import varying_harm
 
 #: Offsets the DP carries: 0 (co-channel) and 1 (consecutive channels).
 KEPT_OFFSETS = 2
@@ -63,26 +64,18 @@ MAX_SYSTEMS = 62
 
 def harm_table(inst: PlanningInstance) -> np.ndarray:
     """H[v, a, d] for d = 0 .. C - 1: the share of a pair of channel uses (v on c, a on c +- d) that counts as a
-    hit to v. The one place the planner's bound reads the per-offset harm: the instance's `offset_harm`
-    (S, S, W + 1) when it has one (zero beyond W), else today's 0/1 window (1 for d <= window[v, a])."""
-    s, c = inst.n_systems, inst.n_channels
-    given = getattr(inst, "offset_harm", None)
-    if given is not None:
-        given = np.asarray(given, dtype=float)
-        out = np.zeros((s, s, c))
-        top = min(c, given.shape[2])
-        out[:, :, :top] = given[:, :, :top]
-    else:
-        out = (inst.window[:, :, None] >= np.arange(c)[None, None, :]).astype(float)
-    idx = np.arange(s)
+    hit to v, the total harm constant_harm + offset_harm (the varying part zero beyond its W: there the harm is
+    the constant part). The one place the planner's bound reads the per-offset harm."""
+    out = np.asarray(inst.constant_harm, dtype=float)[:, :, None] + varying_harm(inst, inst.n_channels)
+    idx = np.arange(inst.n_systems)
     out[idx, idx, :] = 0.0
     return out
 
 
 def split_harm(inst: PlanningInstance) -> tuple[np.ndarray, np.ndarray]:
     """(constant share, varying harm): every pair of channel uses of v and a lies at some offset 0 .. C - 1, so
-    the least harm over those offsets, K[v, a], is paid on all N_v N_a pairs whatever the plan (today: the
-    pairs harmed at every offset); the rest, H - K >= 0 per offset, is what channels change."""
+    the least harm over those offsets, K[v, a] (the instance's constant_harm), is paid on all N_v N_a pairs
+    whatever the plan; the rest, H - K >= 0 per offset, is what channels change."""
     h = harm_table(inst)
     floor = h.min(axis=2)
     return floor, h - floor[:, :, None]
@@ -179,7 +172,7 @@ class Relaxation:
     inst: PlanningInstance
     node: np.ndarray  # (S, C) q_v(c) / N_v, unweighted
     u: np.ndarray  # (2, S, S) unweighted per-victim cost at offsets 0 and 1
-    constant: np.ndarray  # (S,) per-victim constant (pairs harmed at every offset)
+    constant: np.ndarray  # (S,) per-victim constant (the constant part of the harm)
     channel_class: np.ndarray  # (C,) class of each channel
     class_allowed: np.ndarray  # (K,) int64 masks of systems allowed (or pinned) on the class's channels
     class_pinned: np.ndarray  # (K,) int64 masks of pinned systems

@@ -257,6 +257,17 @@ LAGRANGE_MAX_SYSTEMS = 24
 MIN_LAGRANGE_WORK_S = 0.5
 
 
+def taken_back_notes(inst: PlanningInstance) -> list[str]:
+    """One note per system that hops over interfered channels because the rest could not hold its count."""
+    out = []
+    for v, chan_runs in sorted(inst.taken_back.items()):
+        shown = ", ".join(str(a) if a == b else f"{a}-{b}" for a, b in chan_runs)
+        out.append(f"{inst.ids[v]}: channels {shown} are hit by fixed interferers more than "
+                   f"{inst.req.interferer_threshold:g} of the time but were taken back (the least hit) so that it "
+                   f"keeps its {int(inst.min_size[v])} channels")
+    return out
+
+
 def _without_dp(shares: dict, inst: PlanningInstance, notes: list[str]) -> dict:
     """The shares, with the Lagrangian bound's given to the local search when the DP is out of reach (too many
     systems)."""
@@ -466,7 +477,7 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
         if with_sequences else None
     if budget is None:
         budget = search_budget(deadline, inst, costs.after_search_s(full, detail, seq_work))
-    notes: list[str] = []
+    notes: list[str] = taken_back_notes(inst)
     x, bounds, method, scale, start = _search(inst, settings, budget, clock, notes)
     estimates = system_estimates(inst, x)
     objective = objective_value(inst, estimates)

@@ -36,7 +36,6 @@ beside it so the user sees what lawful independence costs.
 
 from __future__ import annotations
 
-import bisect
 import random
 from dataclasses import dataclass, field, replace
 
@@ -51,6 +50,7 @@ from cohop.planning.engine import (FEASIBLE, NO_PLAN, PlanResult, SolverReport, 
 from cohop.planning.instance import PlanningInstance, build_instance, runs, without_inter_system_terms
 from cohop.planning.linear import objective_value, system_estimates
 from cohop.planning.requirements import PlanRequirements
+from cohop.planning.take_back import spaced, taken_back
 from cohop.planning.validate import validate_plan
 from cohop.prepare import PreparedSite
 from cohop.sequences.construct import RESPACE_WORK, CommonRelabelling, Sequence, required_spacing_channels
@@ -91,26 +91,11 @@ def commissioning_order(ids: list[str], stated: tuple[str, ...]) -> list[int]:
     return first + [v for v in range(len(ids)) if v not in first]
 
 
-def _spaced(chans, separation: int, keep=()) -> list[int]:
-    """`keep`, then channels of `chans` in the order given that stay `separation` steps from all taken
-    (sorted; a neighbour check by bisection, so large grids stay cheap)."""
-    taken = sorted(set(int(c) for c in keep))
-    if separation <= 1:
-        return sorted(set(taken) | set(int(c) for c in chans))
-    for c in chans:
-        c = int(c)
-        i = bisect.bisect_left(taken, c)
-        if (i < len(taken) and taken[i] - c < separation) or (i > 0 and c - taken[i - 1] < separation):
-            continue
-        taken.insert(i, c)
-    return taken
-
-
 def _select(free: np.ndarray, pins: np.ndarray, exposure: np.ndarray, sep: int, hi: int) -> list[int]:
     """The pins and as many of `free` as fit (at `sep` steps, at most `hi` in all), least exposed first."""
     by_exposure = free[np.argsort(exposure[free], kind="stable")]
-    chosen = _spaced(by_exposure, sep, pins)
-    widest = _spaced(free, sep, pins)  # along the grid: the most channels at this separation
+    chosen = spaced(by_exposure, sep, pins)
+    widest = spaced(free, sep, pins)  # along the grid: the most channels at this separation
     if len(widest) > len(chosen):
         chosen = widest
     rest = sorted((c for c in chosen if c not in set(pins.tolist())), key=lambda c: (exposure[c], c))
@@ -143,21 +128,8 @@ def choose_hop_set(inst: PlanningInstance, v: int, hop_sets: list[np.ndarray | N
     lo = int(inst.min_size[v])
     hi = r.max_channels if r.max_channels is not None else prep.n_channels
     free = np.flatnonzero(allowed & ~avoid)
-    taken_back = 0
-    if len(_spaced(free, sep, pins)) < lo and avoid.any():
-        back = np.flatnonzero(avoid)
-        back = back[np.argsort(occupancy[back], kind="stable")]
-        k_lo, k_hi = 1, back.size  # the fewest least-occupied channels that reach the minimum (bisection:
-        while k_lo < k_hi:  # more channels never fit fewer)
-            mid = (k_lo + k_hi) // 2
-            if len(_spaced(np.concatenate([free, back[:mid]]), sep, pins)) >= lo:
-                k_hi = mid
-            else:
-                k_lo = mid + 1
-        level = occupancy[back[k_lo - 1]]
-        back = back[occupancy[back] <= level * (1 + 1e-9) + 1e-15]  # ties go together
-        free = np.union1d(free, back)
-        taken_back = int(back.size)
+    back = taken_back(free, np.flatnonzero(avoid), occupancy, lo, sep, pins)  # too few left: the least occupied
+    free = np.union1d(free, back)
     chosen = _select(free, pins, exposure, sep, hi)
     limited = None if len(chosen) >= np.union1d(free, pins).size else \
         "max_channels" if len(chosen) >= hi else "separation"
@@ -165,7 +137,7 @@ def choose_hop_set(inst: PlanningInstance, v: int, hop_sets: list[np.ndarray | N
     others = [inst.ids[a] for a in range(inst.n_systems) if a != v and heard[a].any()]
     hs = np.array(sorted(chosen), dtype=int)
     return hs, SystemChoice(sid, position, int(allowed.sum()), tuple(runs(np.flatnonzero(avoid))),
-                            tuple(others) if basis == "occupancy" else (), taken_back, int(hs.size), limited)
+                            tuple(others) if basis == "occupancy" else (), int(back.size), int(hs.size), limited)
 
 
 def choose_hop_sets(inst: PlanningInstance, order: list[int], basis: str):

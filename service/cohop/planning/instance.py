@@ -2,14 +2,16 @@
 
 Built from a PreparedSite (`cohop.prepare`) and PlanRequirements. Nothing is
 left to the model builders: allowed channels (usable, not excluded, inside
-the sub-band the profile allows), pins, channel counts, separations, the
+the sub-band the profile allows; interferer exclusions taken back where they
+leave too few, `cohop.planning.take_back`), pins, channel counts, separations, the
 coefficients of the linearised objective, guards and ceilings.
 
 The linearised objective (documented in DEVELOPERS.md): victim v's per-hop
 collision estimate is
     c_v = (1 / N_v) sum_{c in A_v} [ q_v(c) + sum_a (beta_va / N_a) h_va(c) ],
 with q_v(c) the combined hit probability of the fixed interferers (exact),
-h_va(c) the number of a's channels within v's harmful window of c, and
+h_va(c) the harm-weighted count of a's channels around c, sum over c' in A_a of
+constant_harm[v, a] + offset_harm[v, a, |c - c'|] (`cohop.harm`), and
 beta_va = alpha_a E[K_va]. Since 1 - E[(1 - p)^K] <= E[K] p and
 1 - prod(1 - x_i) <= sum x_i, c_v never falls below the evaluated figure;
 it equals it when sources do not overlap and at most one burst can overlap.
@@ -27,6 +29,7 @@ from cohop.prepare import PreparedSite
 from cohop.errors import Conflict, PlanInfeasible
 from cohop.planning.headroom import Headroom, headroom_for
 from cohop.planning.requirements import PlanRequirements
+from cohop.planning.take_back import taken_back
 from cohop.regulatory import check_compliance
 from cohop.regulatory.profiles import EU868_SUBBANDS, SubBand
 from cohop.regulatory.rules import FAIL
@@ -55,13 +58,22 @@ class PlanningInstance:
     separation: np.ndarray  # (S,) int: two channels of a system at least this many grid steps apart
     interferer_cost: np.ndarray  # (S, C): q_v(c)
     beta: np.ndarray  # (S, S) [v, a]: alpha_a E[K_va]; 0 where a cannot hurt v
-    window: np.ndarray  # (S, S) [v, a]
+    window: np.ndarray  # (S, S) [v, a]: largest offset where the harm varies (offset_harm > 0; -1: none)
     weights: np.ndarray  # (S,)
     guards: list[tuple[int, int, int]]  # (v, a, w): no channel of a within w of one of v's (v < a)
     ceilings: np.ndarray  # (S,) max linearised per-hop collision (inf: none)
     exclusions: dict[int, list[tuple[str, list[tuple[int, int]]]]] = field(default_factory=dict)  # v -> (why, runs)
+    #: v -> runs of interferer-avoided channels taken back so that v keeps its minimum count (`take_back`)
+    taken_back: dict[int, list[tuple[int, int]]] = field(default_factory=dict)
     separation_citation: list[str | None] = field(default_factory=list)
     headroom: list[Headroom] = field(default_factory=list)  # spare channels per system (cohop.planning.headroom)
+    #: (S, S, W + 1) [v, a, d]: the harm of a pair of channel uses at offset d above the constant part (>= 0, never
+    #: rising with d; 0 beyond `window`): what the channels change (`cohop.harm`). With `fading: none`, 1 inside
+    #: the harmful window and 0 outside.
+    offset_harm: np.ndarray | None = None
+    #: (S, S) [v, a]: the harm paid on every pair of channel uses whatever the offset (the least over the grid's
+    #: offsets; 1 for a source that blocks v at every offset, 0 for most pairs).
+    constant_harm: np.ndarray | None = None
 
     @property
     def n_systems(self) -> int:
@@ -83,7 +95,8 @@ class PlanningInstance:
     # --- coefficients of the linearised objective (depend on the sizes) ---
 
     def pair_coef(self) -> np.ndarray:
-        """coef[v, a] = beta_va / (N_v N_a): cost to victim v per (v-channel, a-channel) pair in its window."""
+        """coef[v, a] = beta_va / (N_v N_a): cost to victim v per (v-channel, a-channel) pair of harm 1; a pair at
+        offset d costs coef x (constant_harm + offset_harm[d])."""
         n = self.sizes.astype(float)
         return self.beta / (n[:, None] * n[None, :])
 
@@ -163,11 +176,16 @@ def _eu868_allowed(prep: PreparedSite, v: int, usable_mask: np.ndarray) -> tuple
     for band in EU868_SUBBANDS:
         if erp > band.max_erp_dbm + 1e-9 or (band.max_duty_fraction is not None and duty > band.max_duty_fraction):
             continue
-        mask = usable_mask & (prep.centres_hz - half >= band.low_hz - 1e-6) & (prep.centres_hz + half <= band.high_hz
-                                                                               + 1e-6)
+        mask = usable_mask & _in_band(prep, v, band)
         if mask.sum() > best_mask.sum():
             best, best_mask = band, mask
     return best_mask, best
+
+
+def _in_band(prep: PreparedSite, v: int, band: SubBand) -> np.ndarray:
+    """Channels whose whole bandwidth lies in the sub-band (as `_eu868_allowed` selects them)."""
+    half = prep.site.systems[v].bandwidth_hz / 2
+    return (prep.centres_hz - half >= band.low_hz - 1e-6) & (prep.centres_hz + half <= band.high_hz + 1e-6)
 
 
 def _collision_ceiling(max_attempt_loss, max_residual_loss, fade_p, hops, retry_limit) -> float:
@@ -201,6 +219,7 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
     q = np.zeros((s_count, c_count))
     ceilings = np.full(s_count, math.inf)
     exclusions: dict[int, list] = {}
+    taken: dict[int, list[tuple[int, int]]] = {}
     sep_cite = []
     headroom = []
     conflicts: list[Conflict] = []
@@ -209,11 +228,9 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
         x_itf = interferer_collisions(prep, v, channels) if site.interferers else np.zeros((0, c_count))
         q[v] = 1.0 - np.prod(1.0 - x_itf, axis=0)
         reasons = []
-        for k, itf in enumerate(site.interferers):
-            hit = (x_itf[k] > req.interferer_threshold) & prep.usable[v]
-            if hit.any():
-                allowed[v] &= ~hit
-                reasons.append((f"interferer {itf.id}", runs(np.flatnonzero(hit))))
+        hits = (x_itf > req.interferer_threshold) & prep.usable[v][None, :]
+        allowed[v] &= ~hits.any(axis=0)
+        fence = prep.usable[v].copy()  # where a channel taken back from the interferers may lie
         if r.excluded_channels:
             ex = np.array(r.excluded_channels, dtype=int)
             allowed[v, ex] = False
@@ -225,6 +242,7 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
                                           "system's e.r.p. and duty cycle", "CEPT ERC Rec 70-03 Annex 1",
                                           relax="lower the power or the duty cycle"))
             allowed[v] = mask
+            fence &= mask if band is None else _in_band(prep, v, band)
         exclusions[v] = reasons
         usable = np.flatnonzero(prep.usable[v])
         gap, cite = _separation(prep, v, usable) if usable.size else (1, None)
@@ -243,6 +261,12 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
                                       "(profile, pins and min_channels)", relax="raise max_channels"))
             hi = lo
         min_size[v], max_size[v] = lo, hi
+        back = _take_back(allowed[v], hits & fence, q[v], lo, gap, r)
+        allowed[v, back] = True
+        if back.size:
+            taken[v] = runs(back)
+        reasons[:0] = [(f"interferer {itf.id}", runs(np.flatnonzero(hits[k] & ~allowed[v])))
+                       for k, itf in enumerate(site.interferers) if (hits[k] & ~allowed[v]).any()]
         if r.pinned_channels:
             pins = np.array(r.pinned_channels, dtype=int)
             pinned[v, pins] = True
@@ -252,15 +276,48 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
                           traffic_ceiling(system, float(prep.fade_probability[v])))  # cohop.traffic.ceiling
     if conflicts:
         raise PlanInfeasible(conflicts)
-    beta = np.where(prep.window >= 0, prep.activity[None, :] * (prep.overlap_k0 + prep.overlap_r), 0.0)
+    offset_harm, constant, varying_reach = split_offset_harm(prep)
+    beta = np.where(prep.harm.reach >= 0, prep.activity[None, :] * (prep.overlap_k0 + prep.overlap_r), 0.0)
     np.fill_diagonal(beta, 0.0)
     _orthogonal_groups(site, beta, min_size, max_size)
     guards = _guards(prep, req)
     weights = np.array([s.priority_weight for s in site.systems])
     return PlanningInstance(prep=prep, req=req, allowed=allowed, pinned=pinned, min_size=min_size, max_size=max_size,
                             sizes=min_size.copy(), separation=separation, interferer_cost=q, beta=beta,
-                            window=prep.window.copy(), weights=weights, guards=guards, ceilings=ceilings,
-                            exclusions=exclusions, separation_citation=sep_cite, headroom=headroom)
+                            window=varying_reach, weights=weights, guards=guards, ceilings=ceilings,
+                            exclusions=exclusions, separation_citation=sep_cite, headroom=headroom,
+                            offset_harm=offset_harm, constant_harm=constant, taken_back=taken)
+
+
+def split_offset_harm(prep: PreparedSite) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(varying harm (S, S, W + 1), constant harm (S, S), varying reach (S, S)) from the interference kernel
+    (`cohop.harm`): harm(d) = constant + varying(d) for every grid offset d, varying(d) = 0 beyond the reach."""
+    tables = prep.harm
+    constant = tables.tail()
+    n = prep.n_systems
+    last = tables.steps[:, -1]  # the step of the grid's largest offset, per victim
+    levels = tables.system_levels
+    steps_idx = np.arange(levels.shape[2])[None, None, :]
+    # the first step whose harm is already the constant one: offsets in earlier steps vary
+    is_const = (levels <= constant[:, :, None]) | (steps_idx > last[:, None, None])
+    first_const = np.argmax(is_const, axis=2)  # (S, S); always found at step `last`
+    reach = np.stack([np.searchsorted(tables.steps[v], first_const[v], side="left") for v in range(n)]) - 1
+    reach[np.arange(n), np.arange(n)] = -1
+    width = int(reach.max(initial=-1)) + 1
+    varying = tables.offset_harm(max(width, 1) - 1) - constant[:, :, None]
+    varying = np.where(np.arange(varying.shape[2])[None, None, :] <= reach[:, :, None], np.maximum(varying, 0.0), 0.0)
+    constant = constant.copy()
+    constant[np.arange(n), np.arange(n)] = 0.0
+    return varying, constant, reach.astype(int)
+
+
+def _take_back(allowed: np.ndarray, hits: np.ndarray, hit_cost: np.ndarray, need: int, gap: int, r) -> np.ndarray:
+    """Channels that interferers made v avoid, taken back (least hit first) when the rest cannot hold `need`
+    channels at separation `gap` (`cohop.planning.take_back`); never an explicit exclusion."""
+    avoided = hits.any(axis=0).copy()
+    avoided[np.asarray(r.excluded_channels, dtype=int)] = False
+    pins = np.asarray(r.pinned_channels, dtype=int)
+    return taken_back(np.flatnonzero(allowed), np.flatnonzero(avoided & ~allowed), hit_cost, need, gap, pins)
 
 
 def _orthogonal_groups(site, beta: np.ndarray, min_size: np.ndarray, max_size: np.ndarray) -> None:

@@ -1,6 +1,12 @@
 """The linearised objective and its marginal costs (see `cohop.planning.instance`).
 
-All functions take a boolean occupancy matrix X (systems x channels).
+A pair of channel uses (v on c, a on c') costs victim v
+pair_coef[v, a] x (constant_harm[v, a] + offset_harm[v, a, |c - c'|]): the
+constant part is paid whatever the channels, the varying part (`varying_harm`)
+is what the channels change. Costs are summed one offset d at a time, with one
+matrix product per offset (`offset_counts`).
+
+Functions of a plan take it as a boolean occupancy matrix X (systems x channels).
 """
 
 from __future__ import annotations
@@ -21,35 +27,56 @@ def hop_sets_of(x: np.ndarray) -> list[np.ndarray]:
     return [np.flatnonzero(row) for row in x]
 
 
-def prefix_counts(x: np.ndarray) -> np.ndarray:
-    p = np.zeros((x.shape[0], x.shape[1] + 1), dtype=np.int32)
-    np.cumsum(x, axis=1, out=p[:, 1:])
-    return p
+def varying_harm(inst: PlanningInstance, n_offsets: int | None = None) -> np.ndarray:
+    """G[v, a, d] for d = 0 .. n_offsets - 1 (default: the offsets `inst.offset_harm` holds, 0 .. W): the harm a
+    pair of channel uses at offset d adds to the constant part (`inst.offset_harm`, zero beyond W)."""
+    given = np.asarray(inst.offset_harm, dtype=float)
+    n = given.shape[2] if n_offsets is None else max(int(n_offsets), 0)
+    out = np.zeros(given.shape[:2] + (n,))
+    top = min(n, given.shape[2])
+    out[:, :, :top] = given[:, :, :top]
+    return out
 
 
-def window_counts(prefix: np.ndarray, w: np.ndarray) -> np.ndarray:
-    """F[a, c] = number of a's channels within w[a] of c (0 where w[a] < 0), shape (S, C)."""
-    c = prefix.shape[1] - 1
-    idx = np.arange(c)[None, :]
-    ww = np.maximum(w, 0)[:, None]
-    lo = np.clip(idx - ww, 0, c)
-    hi = np.clip(idx + ww + 1, 0, c)
-    f = np.take_along_axis(prefix, hi, axis=1) - np.take_along_axis(prefix, lo, axis=1)
-    f[w < 0] = 0
-    return f
+def pair_costs(inst: PlanningInstance, n_offsets: int | None = None) -> np.ndarray:
+    """U[v, a, d] = pair_coef[v, a] x G[v, a, d]: what one pair of channel uses at offset d adds to victim v's
+    estimate above the constant part (unweighted)."""
+    return inst.pair_coef()[:, :, None] * varying_harm(inst, n_offsets)
+
+
+def constant_costs(inst: PlanningInstance, counts=None) -> np.ndarray:
+    """Each victim's cost from the constant part of the harm: pair_coef x constant_harm on every pair of channel
+    uses, N_v N_a of them with the given channel counts (default: the instance's sizes)."""
+    n = (inst.sizes if counts is None else np.asarray(counts)).astype(float)
+    return (inst.pair_coef() * inst.constant_harm) @ n * n
+
+
+def offset_counts(x: np.ndarray, d: int) -> np.ndarray:
+    """Y[a, c] = number of a's channels at offset exactly d from c (c - d and c + d; c alone for d = 0)."""
+    xf = x.astype(float)
+    if d == 0:
+        return xf
+    y = np.zeros_like(xf)
+    if d < xf.shape[1]:
+        y[:, d:] += xf[:, :-d]
+        y[:, :-d] += xf[:, d:]
+    return y
+
+
+def harm_field(costs: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """F[v, c] = sum_a sum_d costs[v, a, d] Y_d[a, c] (`offset_counts`): one matrix product per offset."""
+    out = np.zeros(x.shape)
+    for d in range(costs.shape[2]):
+        if costs[:, :, d].any():
+            out += costs[:, :, d] @ offset_counts(x, d)
+    return out
 
 
 def system_estimates(inst: PlanningInstance, x: np.ndarray) -> np.ndarray:
     """Linearised per-hop collision c_v of every system (never below the evaluated figure)."""
-    prefix = prefix_counts(x)
-    n = inst.sizes.astype(float)
-    out = np.zeros(inst.n_systems)
-    for v in range(inst.n_systems):
-        f = window_counts(prefix, inst.window[v])
-        f[v] = 0
-        per_channel = inst.interferer_cost[v] + (inst.beta[v] / n) @ f
-        out[v] = per_channel[x[v]].sum() / n[v]
-    return out
+    own = (inst.node_coef() * x).sum(axis=1)
+    varying = (harm_field(pair_costs(inst), x) * x).sum(axis=1)
+    return own + varying + constant_costs(inst, x.sum(axis=1))
 
 
 def objective_value(inst: PlanningInstance, estimates: np.ndarray) -> float:
@@ -58,51 +85,41 @@ def objective_value(inst: PlanningInstance, estimates: np.ndarray) -> float:
     return float(inst.weights @ estimates)
 
 
-def finite_windows(inst: PlanningInstance) -> np.ndarray:
-    """Windows with "harmful at every offset" set to -1: such pairs cost the same whatever the channels."""
-    return np.where(inst.window >= inst.n_channels - 1, -1, inst.window)
+def weighted_pair_costs(inst: PlanningInstance, weights: np.ndarray) -> np.ndarray:
+    """P[v, a, d] = w_v U[v, a, d] + w_a U[a, v, d]: the weighted varying cost of one pair of channel uses of v and
+    a at offset d, from either side."""
+    wu = weights[:, None, None] * pair_costs(inst)
+    return wu + wu.transpose(1, 0, 2)
 
 
 def marginal_costs(inst: PlanningInstance, x: np.ndarray, weights: np.ndarray | None = None) -> np.ndarray:
     """M[v, c]: change of sum_v weights_v c_v if v (alone) added channel c, given the others' channels,
-    up to a constant per system (pairs harmed at every offset are left out: they do not depend on c)."""
+    up to a constant per system (the constant part of the harm is left out: it does not depend on c)."""
     w = inst.weights if weights is None else weights
-    window = finite_windows(inst)
-    prefix = prefix_counts(x)
-    coef = inst.pair_coef()
-    out = w[:, None] * inst.node_coef()
-    for v in range(inst.n_systems):
-        as_victim = window_counts(prefix, window[v])  # a's channels in v's windows
-        as_source = window_counts(prefix, window[:, v])  # a's channels whose windows hold c
-        as_victim[v] = 0
-        as_source[v] = 0
-        out[v] += (w[v] * coef[v]) @ as_victim + (w * coef[:, v]) @ as_source
-    return out
+    return w[:, None] * inst.node_coef() + harm_field(weighted_pair_costs(inst, w), x)
 
 
 class MarginalTable:
     """Marginal costs kept up to date while systems swap channels (for local search).
 
     When system a gains channel c, every other system's marginal cost rises on
-    the channels within the windows around c; a precomputed stamp per source
-    (systems x offsets) applies that in one array operation.
+    the channels within a's and their varying harm of c (by the weighted pair
+    cost at each offset); a precomputed stamp per source (systems x offsets)
+    applies that in one array operation.
     """
 
     def __init__(self, inst: PlanningInstance, x: np.ndarray, weights: np.ndarray | None = None):
         self.inst = inst
         w = inst.weights if weights is None else weights
         self.m = marginal_costs(inst, x, w)
-        window = finite_windows(inst)
-        coef = inst.pair_coef()
+        pair = weighted_pair_costs(inst, w)
         self.stamps = []
         for a in range(inst.n_systems):
-            reach = int(max(window[:, a].max(initial=-1), window[a, :].max(initial=-1)))
+            reach = int(max(inst.window[:, a].max(initial=-1), inst.window[a, :].max(initial=-1)))
             if reach < 0:
                 self.stamps.append((reach, None))
                 continue
-            offsets = np.abs(np.arange(-reach, reach + 1))[None, :]
-            stamp = ((offsets <= window[:, a][:, None]) * (w * coef[:, a])[:, None]
-                     + (offsets <= window[a, :][:, None]) * (w[a] * coef[a, :])[:, None])
+            stamp = pair[:, a, np.abs(np.arange(-reach, reach + 1))]
             stamp[a] = 0.0
             self.stamps.append((reach, stamp))
 

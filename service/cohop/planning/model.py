@@ -5,9 +5,11 @@ Each group adds its constraints and, for the infeasibility diagnosis, ties
 them to one enforcement literal per requirement instance (per system, per
 interferer exclusion, per guarded pair) so that CP-SAT assumptions can name
 the requirements that conflict. The objective group adds one boolean per
-pair of channels (v on c, a on c') inside either system's harmful window,
-z >= x[v, c] + x[a, c'] - 1, with the pair's linearised cost; pairs harmed at
-every offset cost the same whatever the channels and enter as a constant.
+pair of channels (v on c, a on c') at an offset where either system's harm
+varies (`inst.window`), z >= x[v, c] + x[a, c'] - 1, with the pair's
+linearised cost pair_coef x offset_harm at that offset (`linear.pair_costs`);
+the constant part of the harm (`inst.constant_harm`, paid on every pair of
+channel uses) costs the same whatever the channels and enters as a constant.
 
 Real-valued costs are scaled to integers by `Scale` (a power of ten chosen
 so the smallest cost keeps at least four significant digits); the relative
@@ -28,6 +30,7 @@ import numpy as np
 from ortools.sat.python import cp_model
 
 from cohop.planning.instance import PlanningInstance
+from cohop.planning.linear import constant_costs, pair_costs
 
 Enforce = Callable[[str, tuple], "cp_model.IntVar | None"]
 
@@ -185,11 +188,12 @@ class Guards:
 
 
 def _harm_pairs(inst: PlanningInstance):
-    """Unordered system pairs with the windows that matter, and pairs harmed at every offset."""
-    full = inst.n_channels - 1
+    """Unordered system pairs (v, a) whose harm varies with the offset, with the largest such offset of either."""
     for v in range(inst.n_systems):
         for a in range(v + 1, inst.n_systems):
-            yield v, a, int(inst.window[v, a]), int(inst.window[a, v]), full
+            w = int(max(inst.window[v, a], inst.window[a, v]))
+            if w >= 0:
+                yield v, a, w
 
 
 def product_count(inst: PlanningInstance) -> int:
@@ -197,10 +201,7 @@ def product_count(inst: PlanningInstance) -> int:
     total = 0
     cum = np.concatenate([np.zeros((inst.n_systems, 1), int), np.cumsum(inst.allowed | inst.pinned, axis=1)], axis=1)
     idx = np.arange(inst.n_channels)
-    for v, a, wva, wav, full in _harm_pairs(inst):
-        w = max(wva if wva < full else -1, wav if wav < full else -1)
-        if w < 0:
-            continue
+    for v, a, w in _harm_pairs(inst):
         lo, hi = np.clip(idx - w, 0, inst.n_channels), np.clip(idx + w + 1, 0, inst.n_channels)
         total += int(((cum[a, hi] - cum[a, lo]) * (inst.allowed[v] | inst.pinned[v])).sum())
     return total
@@ -223,34 +224,20 @@ class Objective:
         self.costs = Costs()
 
     def add(self, m, mv, inst, enforce) -> None:
-        coef = inst.pair_coef()
         node = inst.node_coef()
         wts = inst.weights
         for (v, c) in mv.x:
             self.costs.node[v, c] = (wts[v] * node[v, c], node[v, c])
-        for v, a, wva, wav, full in _harm_pairs(inst):
-            # pairs harmed at every offset: N_v N_a conflicting channel pairs whatever the plan
-            to_v = coef[v, a] if wva >= 0 else 0.0
-            to_a = coef[a, v] if wav >= 0 else 0.0
-            n_pairs = float(inst.sizes[v] * inst.sizes[a])
-            if wva >= full:
-                mv.constant += wts[v] * to_v * n_pairs
-            if wav >= full:
-                mv.constant += wts[a] * to_a * n_pairs
-            wva_eff = wva if wva < full else -1
-            wav_eff = wav if wav < full else -1
-            w = max(wva_eff, wav_eff)
-            if w < 0:
-                continue
+        mv.constant += float(wts @ constant_costs(inst))  # the constant part of the harm, whatever the plan
+        unit = pair_costs(inst)  # [v, a, d]: to victim v per pair at offset d
+        for v, a, w in _harm_pairs(inst):
             for c in range(inst.n_channels):
                 if (v, c) not in mv.x:
                     continue
                 for k in range(max(0, c - w), min(inst.n_channels, c + w + 1)):
                     if (a, k) not in mv.x:
                         continue
-                    d = abs(c - k)
-                    cv = to_v if d <= wva_eff else 0.0
-                    ca = to_a if d <= wav_eff else 0.0
+                    cv, ca = float(unit[v, a, abs(c - k)]), float(unit[a, v, abs(c - k)])
                     if cv == 0.0 and ca == 0.0:
                         continue
                     z = m.new_bool_var("")
@@ -282,8 +269,9 @@ class Ceilings:
             if not math.isfinite(inst.ceilings[v]):
                 continue
             lit = enforce("ceiling", (v,))
-            # widened by v's rounding excess: no plan within the real ceiling is cut off by rounding
-            limit = int(math.floor(inst.ceilings[v] * self.scale.factor + excess[v]))
+            # less v's constant part (no channel changes it), widened by v's rounding excess: no plan within the
+            # real ceiling is cut off by rounding
+            limit = int(math.floor((inst.ceilings[v] - _constant_of(inst, v)) * self.scale.factor + excess[v]))
             ct = m.add(sum(k * var for k, var in terms[v] if k) <= limit)
             if lit is not None:
                 ct.only_enforce_if(lit)
@@ -390,11 +378,8 @@ def minimise(m: cp_model.CpModel, mv: ModelVars, inst: PlanningInstance, objecti
 
 
 def _constant_of(inst: PlanningInstance, v: int) -> float:
-    """Victim v's share of the plan-independent cost (pairs harmed at every offset), unweighted."""
-    full = inst.n_channels - 1
-    coef = inst.pair_coef()
-    return float(sum(coef[v, a] * inst.sizes[v] * inst.sizes[a] for a in range(inst.n_systems)
-                     if a != v and inst.window[v, a] >= full))
+    """Victim v's share of the plan-independent cost (the constant part of its harm), unweighted."""
+    return float(constant_costs(inst)[v])
 
 
 def build(inst: PlanningInstance, groups: list, enforce: Enforce | None = None,

@@ -44,6 +44,8 @@ def _system_violations(inst: PlanningInstance, v: int, hs: np.ndarray) -> list[V
         bad("band fit", f"channels {hs[~prep.usable[v, hs]].tolist()} do not fit the band")
     itf = interferer_collisions(prep, v, hs)
     pinned = np.isin(hs, np.array(r.pinned_channels, dtype=int))  # a pin overrides an interferer exclusion
+    back = [c for lo, hi in inst.taken_back.get(v, []) for c in range(lo, hi + 1)]
+    pinned |= np.isin(hs, np.array(back, dtype=int))  # so does a channel taken back to reach the count
     for k, row in enumerate(itf):
         over = hs[(row > req.interferer_threshold) & ~pinned]
         if over.size:
