@@ -292,19 +292,11 @@ def build_instance(prep: PreparedSite, req: PlanRequirements) -> PlanningInstanc
 def split_offset_harm(prep: PreparedSite) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(varying harm (S, S, W + 1), constant harm (S, S), varying reach (S, S)) from the interference kernel
     (`cohop.harm`): harm(d) = constant + varying(d) for every grid offset d, varying(d) = 0 beyond the reach."""
-    tables = prep.harm
-    constant = tables.tail()
+    reach, constant, harm = prep.harm.varying()  # one rule for where the harm varies (cohop.harm)
     n = prep.n_systems
-    last = tables.steps[:, -1]  # the step of the grid's largest offset, per victim
-    levels = tables.system_levels
-    steps_idx = np.arange(levels.shape[2])[None, None, :]
-    # the first step whose harm is already the constant one: offsets in earlier steps vary
-    is_const = (levels <= constant[:, :, None]) | (steps_idx > last[:, None, None])
-    first_const = np.argmax(is_const, axis=2)  # (S, S); always found at step `last`
-    reach = np.stack([np.searchsorted(tables.steps[v], first_const[v], side="left") for v in range(n)]) - 1
+    reach = reach.copy()
     reach[np.arange(n), np.arange(n)] = -1
-    width = int(reach.max(initial=-1)) + 1
-    varying = tables.offset_harm(max(width, 1) - 1) - constant[:, :, None]
+    varying = harm - constant[:, :, None]
     varying = np.where(np.arange(varying.shape[2])[None, None, :] <= reach[:, :, None], np.maximum(varying, 0.0), 0.0)
     constant = constant.copy()
     constant[np.arange(n), np.arange(n)] = 0.0
