@@ -83,7 +83,9 @@ class SequencePairSchema(StrictSchema):  # cohop.jobs.sequence_answers.SequenceP
         "description": "Most coincidences per common period at any hop offset (equal dwell only)"})
     common_period_hops = fields.Integer(allow_none=True, attribute="figures.common_period_hops")
     longest_run_hops = fields.Integer(attribute="figures.longest_run",
-                                      metadata={"description": "Longest run of the victim's hops the source can hit"})
+                                      metadata={"description": "Longest run of the victim's hops in which the source's dwell "
+                                                               "lies inside the victim's threshold window (over the "
+                                                               "capture threshold on median levels)"})
     aligned = fields.Boolean(attribute="figures.aligned")
     aligned_hit_rate = fields.Float(allow_none=True, attribute="figures.aligned_hit_rate",
                                     metadata={"description": "Exact, in the plan's alignment"})
