@@ -2,15 +2,16 @@
 
 For victim v on channel c of its hop set A_v (random-phase overlap [derived], uniform hopping):
 
-1. Source system a hurts the hop when one of its overlapped bursts lands on a
-   channel c' of A_a with |c - c'| <= window[v, a] (`cohop.prepare`). With h
-   such channels, the K overlapped bursts lie on K distinct channels of A_a
-   (a hop order visits distinct channels in consecutive dwells), each active
-   with alpha_a: survival against a is E over K of (1 - alpha_a)^(h q)
-   E[(1 - alpha_a)^J], J hypergeometric (`cohop.stats.overlap`); for K = 1
-   it is 1 - alpha_a h / |A_a|.
-2. A fixed interferer k hurts channels in its harmful range: continuous ones
-   with probability alpha_k, bursty ones through the same overlap count.
+1. One overlapped transmission of source system a on channel c' destroys the
+   hop with the harm rho_va(|c - c'|) (`cohop.harm`, fading-aware capture:
+   `cohop.physics.capture`). The K overlapped bursts lie on K distinct
+   channels of A_a (a hop order visits distinct channels in consecutive
+   dwells), each active with alpha_a: survival against a is E over K of
+   E over K-subsets of prod (1 - alpha_a rho) = (prod y)^q e_m(y) / C(N_a, m)
+   (`cohop.stats.overlap.distinct_survival_weighted`; with rho in {0, 1} the
+   hypergeometric form); for K = 1 it is 1 - alpha_a mean(rho).
+2. A fixed interferer k hurts channel c with harm rho_vk(c): continuous ones
+   with probability alpha_k rho, bursty ones through the same overlap count.
 3. The hop's collision probability is 1 - prod over sources of survival; the
    system's is the mean over its hop set (uniform hopping).
 4. An attempt of n hops collides with 1 - (1 - collision)^n and fades with
@@ -122,28 +123,6 @@ def channel_prefix_counts(prep: PreparedSite, hop_sets: list[np.ndarray]) -> np.
     for a, hs in enumerate(hop_sets):
         ind[a, hs + 1] = 1
     return np.cumsum(ind, axis=1)
-
-
-def system_hits(prep: PreparedSite, v: int, channels: np.ndarray, prefix: np.ndarray) -> np.ndarray:
-    """h[a, i]: a's channels with harm (within `harm.reach`) of v's channel i, (S, N_v)."""
-    return _offset_counts(prefix, channels, 0, np.clip(prep.harm.reach[v], -1, prep.n_channels)[:, None])
-
-
-def _offset_counts(prefix: np.ndarray, channels: np.ndarray, lo, hi) -> np.ndarray:
-    """[a, i]: a's channels at an offset in [lo, hi] (either side) of channels[i]; lo, hi broadcast against
-    (S, 1); empty where hi < lo."""
-    c = prefix.shape[1] - 1
-    lo = np.broadcast_to(np.asarray(lo), (prefix.shape[0], 1))
-    hi = np.broadcast_to(np.asarray(hi), (prefix.shape[0], 1))
-    ch = channels[None, :]
-
-    def count(a, b):  # channels in [a, b]
-        a, b = np.clip(a, 0, c), np.clip(b + 1, 0, c)
-        return np.where(b > a, np.take_along_axis(prefix, b, axis=1) - np.take_along_axis(prefix, a, axis=1), 0)
-
-    right = count(ch + lo, ch + hi)
-    left = count(ch - hi, ch - np.maximum(lo, 1))  # offset 0 counted once, on the right
-    return np.where(hi >= lo, right + left, 0)
 
 
 #: Victims evaluated together hold at most this many (victim, source, channel, offset) cells.

@@ -115,12 +115,6 @@ def reach_of(levels: np.ndarray, steps: np.ndarray) -> np.ndarray:
     return np.where(count >= c, c, count - 1)
 
 
-def interferer_offsets_hz(centres_hz: np.ndarray, low_hz: float, high_hz: float) -> np.ndarray:
-    """Offset of each channel centre from a fixed interferer's span [low, high] (0 inside), as the
-    rejection table reads it (from the span's nearest edge)."""
-    return np.maximum(0.0, np.maximum(low_hz - centres_hz, centres_hz - high_hz))
-
-
 def interferer_harm(tables: HarmTables, victim: System, v: int, spans: np.ndarray, centres_hz: np.ndarray,
                     channels) -> np.ndarray:
     """rho[k, j] of every fixed interferer (spans (K, 2) [low, high] Hz) on victim v's channels[j]."""
@@ -131,13 +125,6 @@ def interferer_harm(tables: HarmTables, victim: System, v: int, spans: np.ndarra
     offsets = np.maximum(0.0, np.maximum(spans[:, :1] - f[None, :], f[None, :] - spans[:, 1:]))
     idx = step_of(victim, offsets)  # (K, n)
     return np.take_along_axis(tables.interferer_levels[v], idx, axis=1)
-
-
-def harmed_range(rho_row: np.ndarray) -> tuple[int, int]:
-    """[lo, hi) of the channels with harm in one interferer's row over the whole grid (a contiguous run: harm
-    falls with the distance from the span)."""
-    on = np.flatnonzero(rho_row > 0)
-    return (0, 0) if on.size == 0 else (int(on[0]), int(on[-1]) + 1)
 
 
 _CAPTURE_TEXT = {
