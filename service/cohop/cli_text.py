@@ -14,6 +14,15 @@ if TYPE_CHECKING:  # the client's types, for annotations only (profiles and samp
 SMALLEST_PCT = 1e-6  # below this a percentage reads "<0.000001%" (never scientific notation)
 
 
+def _harm_text(source: dict) -> str:
+    """How far a source's harm reaches and what one transmission costs co-channel (fading-aware)."""
+    by_offset, reach = source.get("harm_by_offset"), source.get("harm_reach_channels")
+    if not by_offset or reach is None or reach < 0:
+        return ""
+    far = "every offset" if by_offset[-1] > 0 else f"{reach} ch"  # the last value holds beyond the list
+    return f"  harm {by_offset[0]:.3g} co-channel, reaches {far}"
+
+
 def _pct(p: float) -> str:
     """A probability as a percentage in plain decimals: two significant digits below 1 %, two decimals above."""
     pct = 100 * p
@@ -71,6 +80,7 @@ def _detail_lines(result: Assessment, detail: str | None) -> list[str]:
         out += ["", f"{s.id}: hit/hop by source"]
         out += [f"  {x['id']:24s} {x['kind']:10s} {_pct(x['collision_probability']):>12s}"
                 + ("" if x.get("window_channels") is None else f"  window {x['window_channels']} ch")
+                + _harm_text(x)
                 for x in sources] or ["  (no source reaches it)"]
         channels = s.raw.get("channels") or []
         if channels:

@@ -121,10 +121,11 @@ def figures(answer: dict) -> str:
                          key=lambda x: -x["collision_probability"])
         if sources:
             out += tag("h3", esc(f"{s['id']}: who hits it (each source alone)")) + table(
-                ["source", "kind", "level [dBm]", "above the SIR limit [dB]", "harmful window [channels]",
-                 "hit per hop"],
+                ["source", "kind", "level [dBm]", "above the SIR limit [dB]", "over the limit within [channels]",
+                 "harm of one transmission co-channel", "hit per hop"],
                 [[x["id"], x["kind"], _num(x["level_dbm"]), _num(x["excess_db"]), x.get("window_channels", ""),
-                  pct(x["collision_probability"])] for x in sources], numeric={2, 3, 4, 5})
+                  _num((x.get("harm_by_offset") or [None])[0], "{:.3g}"), pct(x["collision_probability"])] for x in sources],
+                numeric={2, 3, 4, 5, 6})
     sim = assessment_of(answer).get("simulation")
     if sim:
         out += tag("h3", "Monte Carlo check") + tag("pre", esc(json.dumps(sim, indent=1)[:4000]))
