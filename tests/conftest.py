@@ -2,9 +2,18 @@
 
 from __future__ import annotations
 
+import os
+
 import pytest
 
 from cohop.api.app import create_app
+from cohop.planning import calibration
+
+# Work budgets at the calibration as written, whatever this machine's speed, so that the tests' work counts
+# and plans do not depend on the machine (tests/planning/test_calibration.py measures it): in this process,
+# and in every server or fork server the tests start (COHOP_WORK_SPEED).
+calibration.pin(1.0)
+os.environ.setdefault("COHOP_WORK_SPEED", "1")
 
 
 @pytest.fixture(scope="session")

@@ -63,6 +63,9 @@ class Settings:
     max_simulated_attempts: int = 50_000_000
     max_products: int = 30_000  # largest full CP-SAT model (pair booleans); larger sites use local search
     deterministic: bool = True  # same request and seed, same plan (when no wall-clock stop intervenes)
+    #: Calibrated seconds of planner work per wall second: 0 measures it at start-up (cohop.planning.calibration),
+    #: > 0 fixes it (1: the calibration as written).
+    work_speed: float = 0.0
     retry_after_s: int = 5
     tokens: tuple[str, ...] = ()
     metrics_public: bool = False
@@ -91,6 +94,9 @@ class Settings:
         if not 0 < self.client_timeout_s <= MAX_CLIENT_TIMEOUT_S:
             raise ConfigError(f"{PREFIX}CLIENT_TIMEOUT_S must be above 0 and at most {MAX_CLIENT_TIMEOUT_S:g} "
                               f"seconds, not {self.client_timeout_s:g}")
+        if not 0 <= self.work_speed <= 10:
+            raise ConfigError(f"{PREFIX}WORK_SPEED must be between 0 (measure at start-up) and 10, not "
+                              f"{self.work_speed:g}")
         if self.log_level.upper() not in ("DEBUG", "INFO", "WARNING", "ERROR"):
             raise ConfigError(f"{PREFIX}LOG_LEVEL must be DEBUG, INFO, WARNING or ERROR, not {self.log_level!r}")
         if any(len(t) < 16 for t in self.tokens):
@@ -119,8 +125,8 @@ class Settings:
 
 #: The settings the Flask app reads (the others size gunicorn).
 APP_SETTINGS = ("solver_threads", "max_concurrent_solves", "isolate_solves", "max_solve_s", "max_body_bytes",
-                "max_simulated_attempts", "max_products", "deterministic", "retry_after_s", "tokens",
-                "metrics_public")
+                "max_simulated_attempts", "max_products", "deterministic", "work_speed", "retry_after_s",
+                "tokens", "metrics_public")
 
 #: Where the in-process app (`create_app()`: tests, the command line) differs from the defaults, and why:
 #: it runs solves in its own process, so that the command line's live progress line can follow the
@@ -147,7 +153,7 @@ def in_process_config() -> dict:
 
 _TYPES = {"cpus": int, "solver_threads": int, "workers": int, "threads": int, "max_concurrent_solves": int,
           "isolate_solves": bool, "max_solve_s": float, "max_body_bytes": int, "max_simulated_attempts": int,
-          "max_products": int, "deterministic": bool, "retry_after_s": int, "metrics_public": bool, "log_level": str,
+          "max_products": int, "deterministic": bool, "work_speed": float, "retry_after_s": int, "metrics_public": bool, "log_level": str,
           "bind": str, "graceful_timeout_s": float, "drain_s": float, "client_timeout_s": float, "max_requests": int,
           "max_requests_jitter": int}
 _POSITIVE = {"cpus", "workers", "threads", "max_concurrent_solves", "max_body_bytes", "max_simulated_attempts",

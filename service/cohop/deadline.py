@@ -50,11 +50,13 @@ class Deadline:
     started: float = field(default_factory=time.monotonic)  # when the request arrived (time.monotonic)
     stops: list[str] = field(default_factory=list)  # phases the wall clock cut short, in order
     work_done: dict[str, float] = field(default_factory=dict)  # counts of work, by kind (for the report)
+    work_speed: float = 1.0  # calibrated seconds of work per wall second on this machine (cohop.planning.calibration)
 
     @classmethod
-    def of(cls, requested_s: float, cap_s: float, started: float | None = None) -> "Deadline":
+    def of(cls, requested_s: float, cap_s: float, started: float | None = None,
+           work_speed: float = 1.0) -> "Deadline":
         return cls(requested_s=float(requested_s), limit_s=float(min(requested_s, cap_s)),
-                   started=time.monotonic() if started is None else float(started))
+                   started=time.monotonic() if started is None else float(started), work_speed=float(work_speed))
 
     @property
     def clamped(self) -> bool:

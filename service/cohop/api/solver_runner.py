@@ -30,6 +30,7 @@ from cohop.jobs.plan import run_plan
 from cohop.jobs.replan import run_replan
 from cohop.jobs.requests import PlanRequest, ReplanRequest
 from cohop.deadline import Deadline
+from cohop.planning import calibration
 from cohop.planning.engine import SolveSettings
 
 log = logging.getLogger("cohop.solver")
@@ -57,17 +58,29 @@ def latest_cap_s(max_solve_s: float) -> float:
 
 def solve_settings(config) -> SolveSettings:
     return SolveSettings(solver_threads=config["COHOP_SOLVER_THREADS"], max_solve_s=config["COHOP_MAX_SOLVE_S"],
-                         max_products=config["COHOP_MAX_PRODUCTS"], deterministic=config["COHOP_DETERMINISTIC"])
+                         max_products=config["COHOP_MAX_PRODUCTS"], deterministic=config["COHOP_DETERMINISTIC"],
+                         work_speed=config["COHOP_WORK_SPEED"])
 
 
 def dumped_plan(deadline: Deadline, req: PlanRequest, settings: SolveSettings, progress=None) -> dict:
     """The plan job's answer, dumped by its response schema."""
+    calibrated(deadline, settings)
     return PlanResponseSchema().dump(run_plan(req, settings, progress, deadline))
 
 
 def dumped_replan(deadline: Deadline, req: ReplanRequest, settings: SolveSettings) -> dict:
     """The re-plan job's answer, dumped by its response schema."""
+    calibrated(deadline, settings)
     return ReplanResponseSchema().dump(run_replan(req, settings, deadline))
+
+
+def calibrated(deadline: Deadline, settings: SolveSettings) -> None:
+    """Give the deadline this machine's work speed (in the solver process: the fork server measured it before
+    forking). A process that has to measure first (an in-process app's first plan) does not charge the
+    measurement to the request's limit: the deadline starts that much later."""
+    started = time.monotonic()
+    deadline.work_speed = calibration.speed(settings.work_speed, settings.solver_threads)
+    deadline.started += time.monotonic() - started
 
 
 def slots(app) -> SolveSlots:

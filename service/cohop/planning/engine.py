@@ -24,7 +24,7 @@ from cohop.assess import Assessment, assess_site
 from cohop.config import default_of
 from cohop.errors import PlanInfeasible
 from cohop import cpsat
-from cohop.planning import baselines, bound, costs, formulation, lagrange, model, search
+from cohop.planning import baselines, bound, calibration, costs, formulation, lagrange, model, search
 from cohop.deadline import Budget, Deadline
 from cohop.planning.diagnose import diagnose
 from cohop.planning.instance import PlanningInstance, build_instance, without_inter_system_terms
@@ -68,6 +68,7 @@ class SolveSettings:
     max_solve_s: float = default_of("max_solve_s")  # server cap on the request's time limit
     max_products: int = default_of("max_products")  # the full CP-SAT model is skipped above this many pair booleans
     deterministic: bool = default_of("deterministic")
+    work_speed: float = default_of("work_speed")  # 0: measured once per process (`cohop.planning.calibration`)
 
 
 @dataclass
@@ -257,6 +258,14 @@ LAGRANGE_MAX_SYSTEMS = 24
 MIN_LAGRANGE_WORK_S = 0.5
 
 
+def speed_notes(deadline: Deadline) -> list[str]:
+    """The answer says when the work budgets were scaled to this machine's measured speed."""
+    if deadline.work_speed == 1.0:
+        return []
+    return [f"work budgets at {deadline.work_speed:g} x the calibration: this machine's speed "
+            "(`cohop.planning.calibration`)"]
+
+
 def taken_back_notes(inst: PlanningInstance) -> list[str]:
     """One note per system that hops over interfered channels because the rest could not hold its count."""
     out = []
@@ -444,6 +453,13 @@ def _value(inst: PlanningInstance, x: np.ndarray) -> float:
     return objective_value(inst, system_estimates(inst, x))
 
 
+def request_deadline(req: PlanRequirements, settings: SolveSettings) -> Deadline:
+    """The request's deadline when the caller gives none, with this machine's work speed (measured before the
+    deadline starts, so a first measurement is not charged to the limit)."""
+    speed = calibration.speed(settings.work_speed, settings.solver_threads)
+    return Deadline.of(req.time_limit_s, settings.max_solve_s, work_speed=speed)
+
+
 def search_budget(deadline: Deadline, inst: PlanningInstance, after_s: float) -> Budget:
     """The search's budget: the limit less the estimated cost of what runs before the search (preparing,
     the greedy start) and after it (`after_s`), never below MIN_SEARCH_SHARE of the limit. The work is
@@ -451,7 +467,7 @@ def search_budget(deadline: Deadline, inst: PlanningInstance, after_s: float) ->
     limit = deadline.limit_s
     floor = max(MIN_SEARCH_SHARE * limit, min(MIN_SEARCH_S, limit))
     window = max(floor, limit - after_s)
-    work = WORK_MARGIN * max(floor, limit - after_s - costs.before_search_s(inst))
+    work = WORK_MARGIN * deadline.work_speed * max(floor, limit - after_s - costs.before_search_s(inst))
     deadline.expect(deadline.started + window + after_s)
     return deadline.budget(seconds=work, end=deadline.started + window, reserve_s=after_s)
 
@@ -469,7 +485,7 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
         from cohop.planning.independent import plan_independent
         return plan_independent(prep, req, settings, progress, detail, with_sequences, deadline, budget)
     deadline = deadline or (budget.deadline if budget is not None else
-                            Deadline.of(req.time_limit_s, settings.max_solve_s))
+                            request_deadline(req, settings))
     clock = _Clock(deadline, progress)
     full = build_instance(prep, req)
     inst = without_inter_system_terms(full) if req.coordination == "independent" else full
@@ -477,7 +493,7 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
         if with_sequences else None
     if budget is None:
         budget = search_budget(deadline, inst, costs.after_search_s(full, detail, seq_work))
-    notes: list[str] = taken_back_notes(inst)
+    notes: list[str] = taken_back_notes(inst) + speed_notes(deadline)
     x, bounds, method, scale, start = _search(inst, settings, budget, clock, notes)
     estimates = system_estimates(inst, x)
     objective = objective_value(inst, estimates)

@@ -46,7 +46,7 @@ from cohop.deadline import Deadline
 from cohop.errors import Conflict, PlanInfeasible
 from cohop.planning import costs
 from cohop.planning.engine import (FEASIBLE, NO_PLAN, PlanResult, SolverReport, SolveSettings, evaluated_objective,
-                                   plan_site, search_budget)
+                                   plan_site, request_deadline, search_budget)
 from cohop.planning.instance import PlanningInstance, build_instance, runs, without_inter_system_terms
 from cohop.planning.linear import objective_value, system_estimates
 from cohop.planning.requirements import PlanRequirements
@@ -202,7 +202,7 @@ def plan_independent(prep: PreparedSite, req: PlanRequirements, settings: SolveS
     """The independent plan, its own orders, assessment and validation, and the joint plan beside it (on
     the search budget: the independent choice itself is a few array passes per system)."""
     deadline = deadline or (budget.deadline if budget is not None else
-                            Deadline.of(req.time_limit_s, settings.max_solve_s))
+                            request_deadline(req, settings))
     full = build_instance(prep, req)
     order = commissioning_order(full.ids, req.commissioning_order)
     hop_sets, choices = choose_hop_sets(full, order, req.independent_basis)
@@ -305,7 +305,7 @@ def replan_independent(prep: PreparedSite, req: PlanRequirements, current, mode,
     from cohop.planning.replan import ReplanResult, SystemDiff, lower_bound_changes
 
     deadline = deadline or (budget.deadline if budget is not None else
-                            Deadline.of(req.time_limit_s, settings.max_solve_s))
+                            request_deadline(req, settings))
     cur = {c.system: c for c in current}
     full = build_instance(prep, req)
     ids = full.ids

@@ -54,7 +54,7 @@ from cohop.deadline import Deadline
 from cohop.errors import PlanInfeasible
 from cohop.planning import baselines as baseline_builders, costs
 from cohop.planning.engine import (FEASIBLE, NO_PLAN, BaselineResult, PlanResult, SolveSettings, plan_site,
-                                   search_budget)
+                                   request_deadline, search_budget)
 from cohop.planning.instance import build_instance, without_inter_system_terms
 from cohop.planning.linear import occupancy, system_estimates
 from cohop.planning.requirements import LINEAR_OBJECTIVES, PlanRequirements, Progress
@@ -301,7 +301,7 @@ def _round_progress(progress, r: int):
 
 
 def _iterated(prep, req, settings, progress, detail, deadline):
-    deadline = deadline or Deadline.of(req.time_limit_s, settings.max_solve_s)
+    deadline = deadline or request_deadline(req, settings)
     full = build_instance(prep, req)
     inst = without_inter_system_terms(full) if req.coordination == "independent" else full
     seq_work = sequence_work(prep, full.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s)

@@ -42,7 +42,7 @@ from cohop.planning.instance import PlanningInstance, build_instance, without_in
 from cohop.planning.linear import hop_sets_of, objective_value, system_estimates
 from cohop.planning.requirements import PlanRequirements
 from cohop.planning.search import Placement, best_swap
-from cohop.planning.engine import PlanResult, SolveSettings, plan_site, search_budget
+from cohop.planning.engine import PlanResult, SolveSettings, plan_site, request_deadline, search_budget
 from cohop.planning.validate import Violation, validate_plan
 from cohop.prepare import PreparedSite
 from cohop.sequences.construct import Sequence, build_sequences
@@ -248,7 +248,7 @@ def replan_site(prep: PreparedSite, req: PlanRequirements, current: list[Current
     """`deadline`: the request's (made here if not given); `budget`, if given, is the search's own (else what
     the deadline leaves after the closing phases' reserve)."""
     deadline = deadline or (budget.deadline if budget is not None else
-                            Deadline.of(req.time_limit_s, settings.max_solve_s))
+                            request_deadline(req, settings))
     cur = {c.system: c for c in current}
     ids = [s.id for s in prep.site.systems]
     removed = sorted(set(cur) - set(ids))
