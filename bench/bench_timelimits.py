@@ -102,7 +102,7 @@ def in_process_sender():
     from cohop.api import create_app
     from cohop.isolation import warm
 
-    app = create_app({"TESTING": True, "COHOP_ISOLATE_SOLVES": True})
+    app = create_app({"TESTING": True, "COHOP_ISOLATE_SOLVES": True, "COHOP_WORK_SPEED": 0.0})  # as production
     warm()  # as a production worker does when it starts: the fork server loads the solver modules once
     client = app.test_client()
 

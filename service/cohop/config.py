@@ -130,8 +130,10 @@ APP_SETTINGS = ("solver_threads", "max_concurrent_solves", "isolate_solves", "ma
 
 #: Where the in-process app (`create_app()`: tests, the command line) differs from the defaults, and why:
 #: it runs solves in its own process, so that the command line's live progress line can follow the
-#: solver (a callback cannot cross a process boundary) and a test needs no fork server.
-IN_PROCESS = {"isolate_solves": False}
+#: solver (a callback cannot cross a process boundary) and a test needs no fork server; and it keeps the
+#: work calibration as written, since a one-shot process would spend about a second measuring the machine
+#: (`cohop.planning.calibration`; the server measures once, in its fork server).
+IN_PROCESS = {"isolate_solves": False, "work_speed": 1.0}
 
 
 def default_of(name: str):

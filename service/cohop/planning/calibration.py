@@ -6,15 +6,17 @@ machines, deliberately on the slow side so that a busy machine keeps its time li
 the work then ends at 0.2 to 0.4 of the limit (measured). This module runs the two heaviest phases on a
 fixed instance (the water-works sample): the local search for a fixed number of kicks, and CP-SAT on the
 full model for a fixed deterministic time, with the workers and interleaving the service uses. The speed is
-the calibrated work they stand for divided by the wall time they took, the slower of the two, floored to a
+the calibrated work they stand for divided by the wall time they took (the better of two runs of each),
+the slower of the two probes, floored to a
 multiple of SPEED_STEP and kept within [1, MAX_SPEED]: the search gets that many calibrated seconds per
 wall second of its window (`engine.search_budget`), and the wall clock still stops every phase at its
 window's end. Flooring to a coarse step keeps the figure, and so the plans of `deterministic` solves, the
 same from one start to the next on one machine.
 
 The server measures in the solver fork server, before any solve is forked (`cohop.planning.preload`), so
-every solve inherits the figure; an in-process app measures at its first plan. The setting `work_speed`
-(COHOP_WORK_SPEED) > 0 fixes the figure instead (1: the calibration as written; tests use it).
+every solve inherits the figure (about 1 s once, at start-up). The in-process app (the command line, tests)
+keeps 1 (`config.IN_PROCESS`); a library caller with the default settings measures at its first plan, before
+that plan's deadline starts. The setting `work_speed` (COHOP_WORK_SPEED) > 0 fixes the figure.
 """
 
 from __future__ import annotations
@@ -28,7 +30,7 @@ MAX_SPEED = 3.0
 SPEED_STEP = 0.25
 #: Calibrated seconds each probe stands for.
 PROBE_LOCAL_S = 0.12
-PROBE_CP_SAT_S = 0.12
+PROBE_CP_SAT_S = 0.6
 
 _measured: float | None = None
 
@@ -43,7 +45,9 @@ def speed(setting: float, workers: int = 2) -> float:
 def measured_speed(workers: int = 2) -> float:
     global _measured
     if _measured is None:
-        _measured = quantised(min(_local_search_speed(), _cp_sat_speed(workers)))
+        # the better of two runs of each probe (a busy moment only ever slows a probe), the slower probe
+        _measured = quantised(min(max(_local_search_speed() for _ in range(2)),
+                                  max(_cp_sat_speed(workers) for _ in range(2))))
     return _measured
 
 
