@@ -67,6 +67,9 @@ def _run_one(kind: str, arg: str, seed: int, limit: float) -> dict:
     from cohop.planning import jit
 
     warm_s = jit.warm()  # production warms the compiled kernels in the fork server, before any request
+    from cohop.planning import calibration
+
+    calibration.measured_speed()  # and measures the machine's work speed there
     t = time.perf_counter()
     result = plan_site(prepare_site(site), req, SolveSettings(solver_threads=2, max_solve_s=max(60.0, limit)))
     wall = time.perf_counter() - t
@@ -92,7 +95,8 @@ def known_optimum_site(n_systems: int) -> tuple[dict, int]:
     """Identical systems with co-channel harm only on a custom 1 MHz grid (see known_optimum_value)."""
     from tests import sites
 
-    systems = [sites.system(f"k{i}", dwell_s=0.01, packet_airtime_s=0.002) for i in range(n_systems)]
+    systems = [sites.system(f"k{i}", dwell_s=0.01, packet_airtime_s=0.002, fading="none")  # co-channel harm only
+               for i in range(n_systems)]
     return sites.site(systems, coupling_loss_db=60.0, n_channels=5 * n_systems), 7
 
 

@@ -167,3 +167,20 @@ def test_harm_table_is_the_constant_and_the_varying_harm():
     inst.offset_harm = inst.offset_harm * np.array([1.0, 0.5])
     assert channel_dp.pair_offset_costs(inst)[1] == pytest.approx(inst.pair_coef() * inst.offset_harm[:, :, 1])
     assert channel_dp.constant_per_victim(inst) == pytest.approx(before)
+
+
+def test_the_compiled_scan_gives_up_past_its_work(monkeypatch):
+    # The scan counts the pairs it evaluates; past the work the solve has left it gives up (no bound from it,
+    # over_budget), where a count says, so a budget repeats exactly; with room it finds the same optimum.
+    inst = _instance(loss=40.0, sizes=(3, 2, 3), n_channels=8, seed=7)
+    rel = channel_dp.relax(inst)
+    lam = np.array([0.3, 0.2, 0.35])
+    w = inst.weights.astype(float)
+    monkeypatch.setattr(channel_dp, "DENSE_PAIRS", -1)
+    monkeypatch.setattr(channel_dp, "SCAN_SHARE", 0.0)  # the estimate lets it start whatever the budget
+    full = channel_dp.solve(rel, lam, w)
+    assert full.complete and full.pairs_scanned > 2
+    cut = channel_dp.solve(rel, lam, w, max_work=full.states + full.pairs_scanned // 2)
+    assert not cut.complete and cut.over_budget and cut.value == -np.inf
+    again = channel_dp.solve(rel, lam, w, max_work=full.states + full.pairs_scanned + 1)
+    assert again.complete and again.value == pytest.approx(full.value, abs=1e-12)

@@ -259,3 +259,20 @@ def test_linear_estimate_is_above_the_evaluated_figure_on_soft_harm(seed, fading
         linear = system_estimates(inst, x)
         evaluated = np.array([f.collision_probability for f in assess_site(inst.prep, hop_sets_of(x)).systems])
         assert np.all(linear >= evaluated * (1 - 1e-12) - 1e-15), (linear, evaluated)
+
+
+def test_pricing_branch_and_bound_stops_on_the_wall_clock_with_a_valid_bound():
+    # The column generation's exact pricing stops when the wall clock says so (checked every STOP_CHECK nodes);
+    # its bound is then the root's, never above the exact one (cohop.planning.bound).
+    from cohop.planning import bound
+
+    inst = _tiny(3, sizes=(3, 2, 3, 2, 3, 2, 3, 2, 3, 2, 3, 2, 3, 2, 3, 2), n_channels=12)
+    x = greedy(inst)
+    exact = bound.lower_bound(inst, x, length=1, iterations=5)
+    old = bound._Pricing.STOP_CHECK
+    bound._Pricing.STOP_CHECK = 1
+    try:
+        stopped = bound.lower_bound(inst, x, length=1, iterations=5, deadline=lambda: True)
+    finally:
+        bound._Pricing.STOP_CHECK = old
+    assert stopped.bound <= exact.bound + 1e-12

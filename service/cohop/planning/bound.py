@@ -145,6 +145,7 @@ class _Pricing:
 
     ENUMERATE = 14
     NODE_LIMIT = 200_000
+    STOP_CHECK = 1024
 
     def __init__(self, inst: PlanningInstance, costs: _Costs, classes: _Classes, key: tuple):
         length = costs.length
@@ -257,10 +258,12 @@ class _Pricing:
             optima.setdefault(y.tobytes(), (self._value(y, b, q), y.copy()))
         return sorted(optima.values(), key=lambda t: t[0])
 
-    def _branch_and_bound(self, b, q, incumbent: float, node_limit: int) -> tuple[float, float, np.ndarray]:
+    def _branch_and_bound(self, b, q, incumbent: float, node_limit: int,
+                          stop=None) -> tuple[float, float, np.ndarray]:
         """(proven lower bound, best value, best y). All pair costs are >= 0, so a boolean with
         b >= 0 never helps and stays 0, and the marginals of the remaining ones, summed where
-        negative, bound any completion from below."""
+        negative, bound any completion from below. Past `node_limit` nodes, or when `stop()` (the wall
+        clock, checked every STOP_CHECK nodes) says so, the search ends and the root's bound is the proven one."""
         forbid = self.forbidden.astype(np.int32)
         chosen = self.forced.astype(float)
         blocked = forbid @ chosen.astype(np.int32)
@@ -277,6 +280,9 @@ class _Pricing:
             nodes += 1
             self.work += 4 * (cand.size - i) + 2 * m.size
             if nodes > node_limit:
+                return
+            if stop is not None and nodes % self.STOP_CHECK == 0 and stop():
+                nodes = node_limit + 1
                 return
             rest = cand[i:]
             gains = np.minimum(m[rest], 0.0)
@@ -302,10 +308,12 @@ class _Pricing:
     def pattern(self, y: np.ndarray) -> Pattern:
         return tuple(frozenset(v for (i, v), on in zip(self.vars, y) if on and i == pos) for pos in range(self.length))
 
-    def solve(self, weight, pi, sigma, rho, exact: bool, keep: int = 4) -> tuple[float, list[tuple[float, Pattern]]]:
+    def solve(self, weight, pi, sigma, rho, exact: bool, keep: int = 4,
+              stop=None) -> tuple[float, list[tuple[float, Pattern]]]:
         """(lower bound on the least reduced cost, up to `keep` patterns found with their reduced costs).
 
-        The lower bound is -inf when the pricing was not exact."""
+        The lower bound is -inf when the pricing was not exact. An exact pricing's branch and bound stops at
+        NODE_LIMIT nodes or at `stop()` (the wall clock); then its bound is the root's (still valid)."""
         if not self.vars:
             empty = tuple(frozenset() for _ in range(self.length))
             return -sigma, [(-sigma, empty)]
@@ -316,7 +324,7 @@ class _Pricing:
         found = self._heuristic(b, q)[:keep]
         lower = -math.inf
         if exact:
-            lower, value, y = self._branch_and_bound(b, q, found[0][0], self.NODE_LIMIT)
+            lower, value, y = self._branch_and_bound(b, q, found[0][0], self.NODE_LIMIT, stop)
             if y is not None and value < found[0][0]:
                 found.insert(0, (value, y))
             lower -= sigma
@@ -415,7 +423,7 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
         rho = {k: row.dual_value() for k, row in consistency.items()}
         found, lagrange = [], value
         for key in keys:
-            lower, patterns = pricers[key].solve(weight, pi, sigmas[key], rho, exact)
+            lower, patterns = pricers[key].solve(weight, pi, sigmas[key], rho, exact, stop=deadline)
             lagrange += classes.counts[key] * lower
             found += [(key, p) for rc, p in patterns if rc < -1e-12 * max(1.0, abs(value))]
         return found, lagrange

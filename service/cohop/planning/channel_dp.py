@@ -307,11 +307,12 @@ def _class_states(cand, pins, margin, p0, g0, cap, out_mask, out_cost):
 
 
 @njit(cache=True)
-def _forward(channel_class, lo, hi, mask, cost, reach, g1, members, n_members, sep_mask, offsets, pred):
+def _forward(channel_class, lo, hi, mask, cost, reach, g1, members, n_members, sep_mask, offsets, pred, max_pairs):
     """The DP along the channels over the states of each channel's class (`lo[k]:hi[k]` of the state arrays).
 
     reach[s, a]: offset-1 cost between state s's systems and system a on the next channel. Returns (value,
-    path of global state indices, scanned pairs); value is inf when no path exists."""
+    path of global state indices, scanned pairs); value is inf when no path exists, -inf when the scan passed
+    `max_pairs` pairs and gave up (a count, so where it gives up repeats)."""
     n_ch = channel_class.size
     widest = 0
     for k in range(lo.size):
@@ -328,6 +329,8 @@ def _forward(channel_class, lo, hi, mask, cost, reach, g1, members, n_members, s
         n_prev = hi[kp] - lo[kp]
         n_cur = hi[k] - lo[k]
         order = np.argsort(prev[:n_prev])
+        if work > max_pairs:
+            return -np.inf, np.full(n_ch, -1, np.int64), work
         for j in range(n_cur):
             t = lo[k] + j
             mt = mask[t]
@@ -461,7 +464,7 @@ class PathSolution:
     states: int  # states over all classes
     pairs_scanned: int
     complete: bool = True  # False when a class had more states than the cap (then `value` is not computed)
-    over_budget: bool = False  # the transitions' estimated work exceeded the solve's `max_work` (not computed)
+    over_budget: bool = False  # the transitions' estimated, or counted, work passed the solve's `max_work`
 
 
 def transition_estimate(rel: Relaxation, class_sizes: np.ndarray) -> float:
@@ -540,8 +543,12 @@ def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STAT
         sizes = (hi - lo)[rel.channel_class]
         offsets = np.concatenate([[0], np.cumsum(sizes)[:-1]]).astype(np.int64)
         pred = np.empty(int(sizes.sum()), np.int64)
+        left = max_work - total if np.isfinite(max_work) else float(2**62)
         value, path, scanned = _forward(rel.channel_class, lo, hi, mask, cost, reach, g1.astype(np.int64), members,
-                                        n_members, np.int64(rel.sep_mask), offsets, pred)
+                                        n_members, np.int64(rel.sep_mask), offsets, pred, np.int64(min(left, 2**62)))
+        if value == -np.inf:  # the scans passed the work left: no bound from this solve
+            return PathSolution(-np.inf, None, total + int(scanned), total, int(scanned), complete=False,
+                                over_budget=True)
     if not np.isfinite(value):
         return PathSolution(np.inf, None, total + int(scanned), total, int(scanned))
     x = member[path].T.copy()
@@ -559,6 +566,7 @@ def warm_kernels() -> None:
     lo, hi = np.array([0], np.int64), np.array([n], np.int64)
     members = np.zeros((n, 2), np.int64)
     _forward(classes, lo, hi, out_mask[:n], out_cost[:n], np.zeros((n, 2)), np.zeros(n, np.int64), members,
-             np.zeros(n, np.int64), np.int64(0), np.array([0, n, 2 * n], np.int64), np.empty(3 * n, np.int64))
+             np.zeros(n, np.int64), np.int64(0), np.array([0, n, 2 * n], np.int64), np.empty(3 * n, np.int64),
+             np.int64(2**62))
     cost = np.zeros(2 * n)
     _min_plus(np.zeros(n), np.ascontiguousarray(np.zeros((n, n))), cost[n:2 * n], np.empty(n), np.empty(n, np.int64))
