@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import logging
 import multiprocessing
+import os
 import select
 import socket
 import threading
@@ -54,10 +55,19 @@ _context = None
 WATCH_INTERVAL_S = 0.2
 
 
+#: Solver processes use one BLAS thread: beside CP-SAT's own threads, OpenBLAS's spinning threads made a
+#: 3 ms matrix product on the large site take 100 to 136 ms at the worst of 40 calls on a busy 2-core
+#: machine (1 thread: at most 8 to 10 ms; bench: two busy loops beside `linear.system_estimates`). Set
+#: before the fork server starts, which is when OpenBLAS reads it; an operator's own value is kept.
+BLAS_THREADS = {"OPENBLAS_NUM_THREADS": "1"}
+
+
 def _ctx():
     global _context
     with _lock:
         if _context is None:
+            for name, value in BLAS_THREADS.items():
+                os.environ.setdefault(name, value)
             _context = multiprocessing.get_context("forkserver")
             _context.set_forkserver_preload(_PRELOAD)
         return _context

@@ -162,3 +162,18 @@ def test_connection_errors_back_off_and_give_up():
         api.health()
     assert len(waits) == 2 and all(0.0 <= w <= 30.0 for w in waits)  # urllib3's backoff, capped at max_wait_s
     assert waits[1] >= 0.01  # the second wait backs off
+
+
+def _env_blas() -> str | None:
+    import os
+
+    return os.environ.get("OPENBLAS_NUM_THREADS")
+
+
+def test_solver_processes_use_one_blas_thread():
+    # cohop.isolation.BLAS_THREADS: set before the fork server starts, so every solve's numpy has one BLAS thread
+    # (an operator's own OPENBLAS_NUM_THREADS would be kept instead).
+    import os
+
+    want = os.environ.get("OPENBLAS_NUM_THREADS", "1")
+    assert run_isolated(_env_blas, kill_at=time.monotonic() + 60) == want
