@@ -112,7 +112,7 @@ class _Registry:
             c = _separation_conflict(inst, key[0])
         elif kind == "guard":
             a, b = inst.ids[key[0]], inst.ids[key[1]]
-            c = Conflict("guard", (a, b), f"{a} and {b} must keep out of each other's harmful windows",
+            c = Conflict("guard", (a, b), f"{a} and {b} must keep out of each other's threshold windows",
                          relax="raise guard_excess_db or drop the guard")
         else:
             sid = inst.ids[key[0]]

@@ -50,7 +50,8 @@ class RequirementsSchema(StrictSchema):
                                                            f"this (default {_THRESHOLD})."})
     guard_excess_db = Number(limits.GUARD_EXCESS_DB, load_default=default(PlanRequirements, "guard_excess_db"),
                              metadata={"description": "Pairs whose excess reaches this keep entirely out of each "
-                                                      "other's harmful windows (default: no guard)."})
+                                                      "other's threshold windows (where the other is over the capture "
+                                                      "threshold on median levels; default: no guard)."})
     coordination = Text(load_default=default(PlanRequirements, "coordination"), validate=validate.OneOf(COORDINATION),
                         metadata={"description": "joint: systems planned together; independent: each only "
                                                  "avoids measured occupancy and its own exclusions."})
