@@ -28,14 +28,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from cohop import harm
+from cohop import harm, limits
 from cohop.errors import SiteError
 from cohop.physics.noise import noise_floor_dbm
 from cohop.prepare import PreparedSite, SourceLink
 from cohop.regulatory import check_compliance
 from cohop.regulatory.rules import Finding
 from cohop.stats import retries
-from cohop.stats.overlap import distinct_survival_weighted, survival
+from cohop.stats.overlap import distinct_survival_weighted, near_symmetric, survival
 
 DETAIL_LEVELS = ("system", "channel", "source")
 
@@ -125,7 +125,8 @@ def channel_prefix_counts(prep: PreparedSite, hop_sets: list[np.ndarray]) -> np.
     return np.cumsum(ind, axis=1)
 
 
-#: Victims evaluated together hold at most this many (victim, source, channel, offset) cells.
+#: Victims evaluated together hold at most this many (victim, source, channel, offset) cells; a victim that
+#: alone would hold more (harm varying over many offsets) is evaluated by steps of its rejection table instead.
 _CHUNK_CELLS = 4_000_000
 
 
@@ -134,6 +135,28 @@ def system_collisions(prep: PreparedSite, v: int, channels: np.ndarray, prefix: 
     """Standalone per-hop collision probability of each source system, (S, N_v) (`collisions_of`)."""
     occupancy = np.diff(prefix, axis=1).astype(bool)
     return collisions_of(prep, [v], [np.asarray(channels, dtype=int)], occupancy, sizes)[0]
+
+
+def varying_steps(prep: PreparedSite, v: int, tail: np.ndarray | None = None) -> list[tuple[int, int, int]]:
+    """The steps of v's rejection table (step, first offset, last offset) where some source's harm is above its
+    constant part: what the evaluation counts channels in."""
+    levels = prep.harm.system_levels[v]
+    tail = levels[np.arange(prep.n_systems), prep.harm.steps[v][-1]] if tail is None else tail
+    return [seg for seg in _segments(prep.harm.steps[v]) if (levels[:, seg[0]] > tail).any()]
+
+
+def harm_cells(prep: PreparedSite, sets: list[np.ndarray]) -> int:
+    """The evaluation's work: sum over victims of sources x hop-set channels x varying steps (at least 1)."""
+    return int(sum(prep.n_systems * s.size * max(1, len(varying_steps(prep, v))) for v, s in enumerate(sets)))
+
+
+def check_harm_work(prep: PreparedSite, sets: list[np.ndarray]) -> None:
+    """SiteError when the evaluation's work passes `limits.MAX_HARM_CELLS`."""
+    cells = harm_cells(prep, sets)
+    if cells > limits.MAX_HARM_CELLS:
+        raise SiteError([("/systems", f"evaluating this site would take {cells} cells of harm (systems x hop-set "
+                                      f"channels x rejection-table steps where the harm varies), above the cap of "
+                                      f"{limits.MAX_HARM_CELLS}; use fewer rejection rows, channels or systems")])
 
 
 def collisions_of(prep: PreparedSite, victims: list[int], channels: list[np.ndarray], occupancy: np.ndarray,
@@ -145,8 +168,16 @@ def collisions_of(prep: PreparedSite, victims: list[int], channels: list[np.ndar
     offset d being survived with 1 - alpha_a rho_va(d) (`cohop.harm`): E over K-subsets of the product
     (`stats.overlap.distinct_survival_weighted`). Channels within the offsets where a's harm varies are 'near';
     the rest share the constant (tail) harm."""
-    reach, constant, varying = prep.harm.varying()
+    reach, constant = prep.harm.varying_reach()
     width = 2 * max(int(reach.max(initial=-1)), 0) + 1
+    top = max(int(reach.max(initial=-1)), 0)
+    steps = max((max(1, len(varying_steps(prep, v))) for v in victims), default=1)
+    if width > 4 * steps or max(prep.n_systems * max((ch.size for ch in channels), default=0) * width,
+                                prep.n_systems * prep.n_systems * (top + 1)) > _CHUNK_CELLS:
+        prefix = np.zeros((occupancy.shape[0], occupancy.shape[1] + 1), dtype=np.int64)
+        np.cumsum(occupancy, axis=1, out=prefix[:, 1:])
+        return [_collisions_by_steps(prep, v, ch, prefix, sizes) for v, ch in zip(victims, channels)]
+    varying = prep.harm.offset_harm(top)
     out: list[np.ndarray] = []
     start = 0
     while start < len(victims):
@@ -201,6 +232,61 @@ def _chunk_collisions(prep, victims, channels, occupancy, sizes, reach, constant
     return out
 
 
+def _offset_counts(prefix: np.ndarray, channels: np.ndarray, lo, hi) -> np.ndarray:
+    """[a, i]: a's channels at an offset in [lo, hi] (either side) of channels[i]; lo, hi broadcast against
+    (S, 1); empty where hi < lo."""
+    c = prefix.shape[1] - 1
+    lo = np.broadcast_to(np.asarray(lo), (prefix.shape[0], 1))
+    hi = np.broadcast_to(np.asarray(hi), (prefix.shape[0], 1))
+    ch = channels[None, :]
+
+    def count(a, b):  # channels in [a, b]
+        a, b = np.clip(a, 0, c), np.clip(b + 1, 0, c)
+        return np.where(b > a, np.take_along_axis(prefix, b, axis=1) - np.take_along_axis(prefix, a, axis=1), 0)
+
+    right = count(ch + lo, ch + hi)
+    left = count(ch - hi, ch - np.maximum(lo, 1))  # offset 0 counted once, on the right
+    return np.where(hi >= lo, right + left, 0)
+
+
+def _segments(steps: np.ndarray) -> list[tuple[int, int, int]]:
+    """(step, first offset, last offset) of each step of a victim's table that the grid's offsets fall in."""
+    change = np.flatnonzero(np.diff(steps)) + 1
+    starts = np.concatenate([[0], change])
+    ends = np.concatenate([change - 1, [steps.size - 1]])
+    return [(int(steps[a]), int(a), int(b)) for a, b in zip(starts, ends)]
+
+
+def _collisions_by_steps(prep: PreparedSite, v: int, channels: np.ndarray, prefix: np.ndarray,
+                         sizes: np.ndarray) -> np.ndarray:
+    """`collisions_of` for one victim, with a's near channels counted per step of v's rejection table (one harm
+    per step; prefix counts, so the work does not grow with the offsets a step spans)."""
+    tables = prep.harm
+    levels = tables.system_levels[v]  # (S, L)
+    steps = tables.steps[v]
+    tail = levels[np.arange(prep.n_systems), steps[-1]]
+    alpha = prep.activity
+    near_counts, near_keeps = [], []
+    for t, lo, hi in varying_steps(prep, v, tail):
+        varies = levels[:, t] > tail  # this step is 'near' for source a
+        near_counts.append(_offset_counts(prefix, channels, lo, hi) * varies[:, None])
+        near_keeps.append((1.0 - alpha * levels[:, t])[:, None])
+    near = sum(near_counts) if near_counts else np.zeros((prep.n_systems, channels.size), dtype=int)
+    k0, r = prep.overlap_k0[v][:, None], prep.overlap_r[v][:, None]
+    degree = int(min(np.max(np.minimum(k0 + 1, sizes[:, None] - 1)), near.max(initial=0)))
+    e = near_symmetric(near_counts, near_keeps, max(degree, 0))
+    product = np.ones(near.shape)
+    for n, y in zip(near_counts, near_keeps):
+        product = product * y**n
+    far, far_keep = sizes[:, None] - near, (1.0 - alpha * tail)[:, None]
+    survive = (1.0 - r) * distinct_survival_weighted(k0, e, near, product, far, far_keep, sizes[:, None]) \
+        + r * distinct_survival_weighted(k0 + 1, e, near, product, far, far_keep, sizes[:, None])
+    x = np.clip(1.0 - survive, 0.0, 1.0)
+    x[tables.reach[v] < 0] = 0.0
+    x[v] = 0.0
+    return x
+
+
 def _near_polynomials(present: np.ndarray, keep: np.ndarray, degree: int) -> np.ndarray:
     """e_j, j = 0 .. degree, of the near channels' survival factors (the elementary symmetric polynomials; e_1
     is their sum), (V, S, N, degree + 1); `present` (V, S, N, D) marks the near channels at each offset, whose
@@ -253,12 +339,13 @@ def _channel_figures(prep, channels, total, hop_loss, x, source_ids, detail) -> 
 
 def _harms_by_offset(prep: PreparedSite, v: int, kernel) -> list[tuple[float, ...]]:
     """For each source system a: rho at v for channel offsets 0 .. D, the last value holding at every larger
-    offset: the harm where it varies (`HarmTables.varying`), then the constant one if the grid reaches it."""
-    reach, constant, harm_by_d = kernel
+    offset: the harm where it varies (`HarmTables.varying_reach`), then the constant one if the grid reaches it."""
+    reach, constant = kernel
+    harm_by_d = prep.harm.system_harm(v, np.arange(max(int(reach[v].max(initial=-1)), 0) + 1))  # (S, D)
     out = []
     for a in range(prep.n_systems):
         r = int(reach[v, a])
-        head = harm_by_d[v, a, :r + 1].tolist() if r >= 0 else []
+        head = harm_by_d[a, :r + 1].tolist() if r >= 0 else []
         out.append(tuple(head + ([float(constant[v, a])] if r + 1 < prep.n_channels else [])))
     return out
 
@@ -309,7 +396,7 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
                   x_sys: np.ndarray | None = None, kernel=None) -> SystemFigures:
     """System v's figures; `compliance` False skips the profile checks (they do not depend on coupling: the
     per-position figures of systems that move, `cohop.mobility`). `x_sys` (`collisions_of`) and `kernel`
-    (`HarmTables.varying`): computed already for the whole site."""
+    (`HarmTables.varying_reach`): computed already for the whole site."""
     system = prep.site.systems[v]
     channels = hop_sets[v]
     if x_sys is None:
@@ -339,7 +426,7 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
         attempt_fade_probability=attempt_fade, attempt_loss_probability=attempt_loss,
         residual_loss_probability=float(retries.residual_loss(attempt_loss, system.retry_limit)),
         expected_attempts=float(retries.expected_attempts(attempt_loss, system.retry_limit)),
-        sources=_source_figures(prep, v, x_sys, x_itf, kernel or prep.harm.varying()),
+        sources=_source_figures(prep, v, x_sys, x_itf, kernel or prep.harm.varying_reach()),
         channels=_channel_figures(prep, channels, total, hop_loss, x, ids, detail),
         compliance=tuple(findings), noise_floor_dbm=noise)
 
@@ -368,11 +455,12 @@ def assess_hop_sets(prep: PreparedSite, sets: list[np.ndarray], origins: list[st
     came from)."""
     if detail not in DETAIL_LEVELS:
         raise ValueError(f"detail must be one of {DETAIL_LEVELS}")
+    check_harm_work(prep, sets)
     prefix = channel_prefix_counts(prep, sets)
     sizes = np.array([s.size for s in sets])
     occupancy = np.diff(prefix, axis=1).astype(bool)
     x_all = collisions_of(prep, list(range(prep.n_systems)), sets, occupancy, sizes)
-    kernel = prep.harm.varying()
+    kernel = prep.harm.varying_reach()
     figures = tuple(assess_system(prep, v, sets, origins[v], prefix, sizes, detail, sequences, x_sys=x_all[v],
                                   kernel=kernel) for v in range(prep.n_systems))
     weights = np.array([s.priority_weight for s in prep.site.systems])

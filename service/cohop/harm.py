@@ -63,6 +63,11 @@ class HarmTables:
         """(reach, constant, harm): the constant harm T[v, a] (`tail`), the largest offset where the harm is
         above it (reach, -1 where it never is) and the harm at offsets 0 .. W (S, S, W + 1), W the largest reach:
         harm(d) = harm[v, a, d] for d <= reach[v, a], T[v, a] beyond."""
+        reach, constant = self.varying_reach()
+        return reach, constant, self.offset_harm(max(int(reach.max(initial=-1)), 0))
+
+    def varying_reach(self) -> tuple[np.ndarray, np.ndarray]:
+        """(reach, constant) of `varying`, without the (S, S, W + 1) table."""
         constant = self.tail()
         n = self.system_levels.shape[0]
         last = self.steps[:, -1]
@@ -70,7 +75,7 @@ class HarmTables:
         is_const = (self.system_levels <= constant[:, :, None]) | (step_no > last[:, None, None])
         first_const = np.argmax(is_const, axis=2)  # the first step at the constant harm (found by step `last`)
         reach = np.stack([np.searchsorted(self.steps[v], first_const[v], side="left") for v in range(n)]) - 1
-        return reach, constant, self.offset_harm(max(int(reach.max(initial=-1)), 0))
+        return reach, constant
 
 
 def rejection_steps(victim: System) -> tuple[np.ndarray, np.ndarray]:

@@ -139,6 +139,9 @@ MAX_TRAFFIC_CELLS = 2_000_000
 MAX_TRAFFIC_CELLS_TOTAL = 20_000_000
 #: Per-channel, per-source entries a "source" detail response may carry.
 MAX_SOURCE_DETAIL_ENTRIES = 500_000
+#: Cells of one evaluation's harm (`cohop.assess.harm_cells`): sum over victims of sources x hop-set channels x
+#: the steps of the victim's rejection table where some source's harm varies.
+MAX_HARM_CELLS = 50_000_000
 # --- systems that move (positions, area) ---
 #: Positions listed for one moving system.
 MAX_POSITIONS = 64
@@ -177,6 +180,8 @@ CAPS = (
     ("traffic hop cells per site", MAX_TRAFFIC_CELLS_TOTAL, "all systems' traffic chains together: ten times one "
                                                              "system's cap"),
     ("source-detail entries", MAX_SOURCE_DETAIL_ENTRIES, "per-channel breakdown by source (detail=source)"),
+    ("harm evaluation cells", MAX_HARM_CELLS, "sum over victims of systems x hop-set channels x rejection-table "
+                                              "steps where the harm varies (fading-aware capture): about 2 s"),
     ("positions of one system", MAX_POSITIONS, "a rail or route given point by point; use area for more"),
     ("area grid points of one system", MAX_AREA_POINTS, "x samples x y samples (16 x 16): coarsen step_m"),
     ("sampled positions in all", MAX_SAMPLED_POSITIONS, "each is one more evaluation of its system as a victim "

@@ -118,3 +118,56 @@ def test_samples_at_fading_none_keep_todays_figures(name):
         old[prep.window[v] < 0] = 0.0
         old[v] = 0.0
         assert system_collisions(prep, v, sets[v], prefix, sizes) == pytest.approx(old, abs=1e-12)
+
+
+@pytest.mark.parametrize("name", samples.names())
+def test_both_evaluation_paths_agree(name, monkeypatch):
+    # Victims whose harm varies over many offsets are evaluated by steps of their rejection table (prefix
+    # counts) instead of offset by offset; both paths compute the same law.
+    from cohop import assess
+
+    prep = prepare_site(sites.load(copy.deepcopy(samples.load(name)["site"])))
+    by_offsets = assess_site(prep)
+    monkeypatch.setattr(assess, "_CHUNK_CELLS", 0)
+    by_steps = assess_site(prep)
+    for a, b in zip(by_offsets.systems, by_steps.systems):
+        assert b.collision_probability == pytest.approx(a.collision_probability, rel=1e-9, abs=1e-15)
+
+
+def test_harm_varying_over_hundreds_of_offsets(monkeypatch):
+    # A receiver whose rejection rises 0.5 dB per 40 kHz over 64 rows and neighbours 20 dB over the threshold:
+    # the harm varies over hundreds of offsets of a 4096-channel grid. Offset by offset and by steps of the
+    # table (what a larger site gets) give the same figures.
+    from cohop import assess
+
+    rejection = [{"offset_hz": 40e3 * (k + 1), "rejection_db": 0.5 * (k + 1)} for k in range(64)]
+    systems = [sites.system(f"s{i}", range(i, 4096, 8), bandwidth_hz=10e3, rejection=rejection, dwell_s=0.01,
+                            packet_airtime_s=0.002) for i in range(8)]
+    body = sites.site(systems, coupling_loss_db=51.0, n_channels=4096)  # 20 dB over the threshold co-channel
+    body["grid"]["spacing_hz"] = 10e3
+    body["band"]["high_hz"] = 2402e6 + 4096 * 10e3
+    prep = prepare_site(sites.load(body))
+    assert prep.harm.varying_reach()[0].max() >= 150
+    by_offsets = assess_site(prep)
+    monkeypatch.setattr(assess, "_CHUNK_CELLS", 0)
+    by_steps = assess_site(prep)
+    for a, b in zip(by_offsets.systems, by_steps.systems):
+        assert 0.0 < a.collision_probability < 1.0
+        assert b.collision_probability == pytest.approx(a.collision_probability, rel=1e-9)
+
+
+def test_an_evaluation_past_the_harm_cap_is_refused(client, monkeypatch):
+    # limits.MAX_HARM_CELLS bounds the evaluation's work (systems x hop-set channels x varying steps, summed over
+    # victims): past it the answer is a 422 naming the cap, for assessments and plans alike.
+    from cohop import assess, limits
+
+    body = copy.deepcopy(samples.load("water_works"))
+    prep = prepare_site(sites.load(copy.deepcopy(body["site"])))
+    sets, _ = assess.resolve_hop_sets(prep)
+    cells = assess.harm_cells(prep, sets)
+    assert cells > 0
+    monkeypatch.setattr(limits, "MAX_HARM_CELLS", cells - 1)
+    resp = client.post("/v1/assessments", json=body)
+    assert resp.status_code == 422 and "cells of harm" in resp.get_data(as_text=True)
+    monkeypatch.setattr(limits, "MAX_HARM_CELLS", cells)
+    assert client.post("/v1/assessments", json=body).status_code == 200
