@@ -171,9 +171,8 @@ def collisions_of(prep: PreparedSite, victims: list[int], channels: list[np.ndar
     reach, constant = prep.harm.varying_reach()
     width = 2 * max(int(reach.max(initial=-1)), 0) + 1
     top = max(int(reach.max(initial=-1)), 0)
-    steps = max((max(1, len(varying_steps(prep, v))) for v in victims), default=1)
-    if width > 4 * steps or max(prep.n_systems * max((ch.size for ch in channels), default=0) * width,
-                                prep.n_systems * prep.n_systems * (top + 1)) > _CHUNK_CELLS:
+    if max(prep.n_systems * max((ch.size for ch in channels), default=0) * width,
+           prep.n_systems * prep.n_systems * (top + 1)) > _CHUNK_CELLS:
         prefix = np.zeros((occupancy.shape[0], occupancy.shape[1] + 1), dtype=np.int64)
         np.cumsum(occupancy, axis=1, out=prefix[:, 1:])
         return [_collisions_by_steps(prep, v, ch, prefix, sizes) for v, ch in zip(victims, channels)]
