@@ -234,27 +234,19 @@ def _interferer_level(site: Site, itf: Interferer, v: int, f_hz: float) -> float
     return float(np.max(interferer_levels_dbm(site, itf, victim, f_hz, victim.sampled_positions())))
 
 
-def _interferer_links(site: Site, wanted: np.ndarray, centres: np.ndarray, f_hz: float):
-    links, ranges = [], np.zeros((len(site.systems), len(site.interferers), 2), dtype=int)
-    for v, victim in enumerate(site.systems):
-        row = []
-        for k, itf in enumerate(site.interferers):
-            link, ranges[v, k] = _interferer_link(victim, wanted[v], itf, _interferer_level(site, itf, v, f_hz),
-                                                  centres)
-            row.append(link)
-        links.append(tuple(row))
-    return tuple(links), ranges
+def _interferer_links(site: Site, wanted: np.ndarray, f_hz: float):
+    return tuple(tuple(_interferer_link(victim, wanted[v], itf, _interferer_level(site, itf, v, f_hz))
+                       for itf in site.interferers) for v, victim in enumerate(site.systems))
 
 
-def _interferer_link(victim: System, wanted_dbm: float, itf: Interferer, total_dbm: float,
-                     centres: np.ndarray) -> tuple[SourceLink, tuple[int, int]]:
+def _interferer_link(victim: System, wanted_dbm: float, itf: Interferer, total_dbm: float) -> SourceLink:
+    """The interferer at the victim; its channels with harm come from the harm tables (`_victim_harm`)."""
     # share of a wideband emitter's power inside the victim's channel (flat spectrum), as for a system
     share_db = bandwidth_share_db(victim.bandwidth_hz, itf.width_hz)
     overlap = None
     if itf.burst_s is not None:
         overlap = random_phase_overlap(victim.packet_airtime_s, itf.burst_s, itf.period_s)
-    link = _link(victim, wanted_dbm, total_dbm + share_db, overlap, itf.activity_fraction)
-    return link, _span_range(centres, itf.low_hz, itf.high_hz, link.bound_hz)
+    return _link(victim, wanted_dbm, total_dbm + share_db, overlap, itf.activity_fraction)
 
 
 def _harm_tables(site: Site, centres: np.ndarray, margin: np.ndarray, links, ilinks):
@@ -320,7 +312,7 @@ def prepare_site(site: Site) -> PreparedSite:
     links, window = _system_links(site, wanted, loss)
     k0 = np.array([[0 if link is None else link.overlap.k0 for link in row] for row in links], dtype=int)
     r = np.array([[0.0 if link is None else link.overlap.r for link in row] for row in links])
-    ilinks, _ = _interferer_links(site, wanted, centres, f_mid)
+    ilinks = _interferer_links(site, wanted, f_mid)
     tables, iranges = _harm_tables(site, centres, margin, links, ilinks)
     return PreparedSite(site=site, profile=profile, band=band, centres_hz=centres,
                         usable=_usable(site, band, centres), wanted_dbm=wanted, fade_margin_db=margin,
@@ -402,10 +394,9 @@ def victim_at(prep: PreparedSite, v: int, loss_db: np.ndarray, interferer_dbm: n
             continue
         links[a], window[v, a] = _system_link(site, victim, source, prep.wanted_dbm[v], loss[a, v],
                                               links[a].overlap)
-    ilinks, iranges = list(prep.interferer_links[v]), prep.interferer_range.copy()
-    for k, itf in enumerate(site.interferers):
-        ilinks[k], iranges[v, k] = _interferer_link(victim, prep.wanted_dbm[v], itf, float(interferer_dbm[k]),
-                                                    prep.centres_hz)
+    iranges = prep.interferer_range.copy()
+    ilinks = [_interferer_link(victim, prep.wanted_dbm[v], itf, float(interferer_dbm[k]))
+              for k, itf in enumerate(site.interferers)]
     all_links = prep.links[:v] + (tuple(links),) + prep.links[v + 1:]
     all_ilinks = prep.interferer_links[:v] + (tuple(ilinks),) + prep.interferer_links[v + 1:]
     tables = prep.harm
