@@ -99,24 +99,37 @@ def combine(probabilities) -> float:
 
 
 def check_system(victim: dict, systems_by_id: dict[str, dict]) -> None:
-    rows = channel_figures(victim, systems_by_id)
-    totals = [combine(r.values()) for r in rows]
+    joint = victim["link"]["capture"]["combination"] == "joint"
+    if joint:
+        rows, totals = RicianJoint(victim).channel_figures(systems_by_id)
+        close = _close_joint
+    else:
+        rows = channel_figures(victim, systems_by_id)
+        totals = [combine(r.values()) for r in rows]
+        close = _close
     fade = victim["per_hop"]["fade_probability"]
     if victim["channels"]:
         for reported, total, c in zip(victim["channels"], totals, victim["hop_set"]):
             assert reported["channel"] == c
-            _close(reported["collision_probability"], total, f"{victim['id']} channel {c} collision")
-            _close(reported["hop_loss_probability"], combine([total, fade]), f"{victim['id']} channel {c} loss")
+            close(reported["collision_probability"], total, f"{victim['id']} channel {c} collision")
+            _close(reported["hop_loss_probability"], combine([reported["collision_probability"], fade]),
+                   f"{victim['id']} channel {c} loss")
             if "by_source" in reported:
                 expected = rows[victim["hop_set"].index(c)]
                 assert set(reported["by_source"]) <= set(expected)  # the nonzero ones (rounding aside) are listed
                 for k, v in expected.items():
-                    _close(reported["by_source"].get(k, 0.0), v, f"{victim['id']} channel {c} from {k}")
+                    close(reported["by_source"].get(k, 0.0), v, f"{victim['id']} channel {c} from {k}")
+    if joint and victim["channels"]:  # the reported channel figures, recomputed above, make the mean
+        totals = [ch["collision_probability"] for ch in victim["channels"]]
     mean = sum(totals) / len(totals)
-    _close(victim["per_hop"]["collision_probability"], mean, f"{victim['id']} per-hop collision")
+    close(victim["per_hop"]["collision_probability"], mean, f"{victim['id']} per-hop collision")
     for src in victim["sources"]:
         m = sum(r[src["id"]] for r in rows) / len(rows)
-        _close(src["collision_probability"], m, f"{victim['id']} from {src['id']}")
+        close(src["collision_probability"], m, f"{victim['id']} from {src['id']}")
+    if joint:  # the joint figure is at least the product of the standalone ones (the Rician survival is log-concave)
+        for row, total in zip(rows, totals):
+            assert total >= combine(row.values()) - 1e-9, (victim["id"], total, row)
+    mean = victim["per_hop"]["collision_probability"]
     hops = victim["per_attempt"]["hops"]
     coll_attempt = 1 - (1 - mean) ** hops
     fade_attempt = 1 - (1 - fade) ** hops
@@ -243,3 +256,144 @@ def check_harm(victim: dict, src: dict, excess_db: float, grid: dict) -> None:
                              victim.get("fading"))
         if want is not None:
             _close(harm_at_offset(src["harm_by_offset"], d), want, f"harm {src['id']}->{victim['id']} at {d}")
+
+
+# --- several transmissions at a Rician-faded victim: the joint law, by direct convolution -----------------------
+
+JOINT_REL, JOINT_ABS = 1e-7, 1e-9  # the service's transform is exact to about 1e-10 (cohop.physics.capture)
+
+
+def _close_joint(a: float, b: float, what: str) -> None:
+    assert math.isclose(a, b, rel_tol=JOINT_REL, abs_tol=JOINT_ABS), f"{what}: reported {a!r}, recomputed {b!r}"
+
+
+def _poisson_pmf(mean: float, size: int) -> list[float]:
+    out, p = [], math.exp(-mean)
+    for k in range(size):
+        out.append(p)
+        p *= mean / (k + 1)
+    return out
+
+
+class RicianJoint:
+    """The hop's survival at a Rician-faded victim with every overlapped transmission together, computed here by
+    direct convolution of integer counts (the service uses a transform on a contour instead).
+
+    The unit-mean Rician power s of K-factor K is Gamma(N_K + 1, 1 / (K + 1)) with N_K ~ Poisson(K) (a Poisson
+    mixture of Gammas, Goldsmith, "Wireless Communications", ch. 3), so P(s > t) = P(N_K >= N_t) with N_t ~
+    Poisson((K + 1) t) [Gamma-Poisson duality]. The noise m and the transmissions add to t: the noise gives a
+    Poisson((K + 1) m) count, a steady transmission of excess x a Poisson((K + 1) x) count, a Rayleigh-faded one
+    an exponentially mixed Poisson count, i.e. geometric with P(k) = (1 - p) p^k, p = b / (1 + b), b = (K + 1) x.
+    The success is sum_k P(total count = k) P(N_K >= k): the counts are convolved (truncated where P(N_K > k)
+    < 1e-14, which is exact for the success). Each source's harm rho (reported) is turned back into its x by
+    bisection on this same law with one transmission."""
+
+    def __init__(self, victim: dict):
+        cap = victim["link"]["capture"]
+        self.k = 10 ** (cap["k_factor_db"] / 10)
+        self.gain = self.k + 1.0
+        self.link = cap["interference_fading"]
+        size = 1
+        while sum(_poisson_pmf(self.k, size)) < 1 - 1e-14:
+            size += 1
+        self.size = size + 1
+        pmf = _poisson_pmf(self.k, self.size)
+        self.tail = [1.0 - sum(pmf[:k]) for k in range(self.size)]  # P(N_K >= k)
+        self.noise = _poisson_pmf(self.gain * 10 ** (-victim["link"]["fade_margin_db"] / 10), self.size)
+        self.base = self.success(self.noise)
+        self.victim = victim
+        self._x: dict[float, float] = {}
+
+    def conv(self, a, b):
+        import numpy as np
+        return np.convolve(a, b)[:self.size]
+
+    def success(self, counts) -> float:
+        return float(sum(p * q for p, q in zip(counts, self.tail)))
+
+    def transmission(self, x: float):
+        """The count of one transmission of excess x (linear): Poisson or geometric."""
+        b = self.gain * x
+        if self.link == "steady":
+            return _poisson_pmf(b, self.size)
+        p = b / (1.0 + b)
+        return [(1.0 - p) * p**k for k in range(self.size)]
+
+    def harm(self, x: float) -> float:
+        return 1.0 - self.success(self.conv(self.noise, self.transmission(x))) / self.base
+
+    def excess(self, rho: float) -> float | None:
+        """x (linear) whose harm is rho, by bisection on log x; None for rho = 1 (every hop lost), 0 for 0."""
+        if rho <= 0.0:
+            return 0.0
+        if rho >= 1.0:
+            return None
+        if rho not in self._x:
+            lo, hi = -80.0, 80.0  # dB
+            for _ in range(200):
+                mid = 0.5 * (lo + hi)
+                lo, hi = (mid, hi) if self.harm(10 ** (mid / 10)) < rho else (lo, mid)
+            self._x[rho] = 10 ** (0.5 * (lo + hi) / 10)
+        return self._x[rho]
+
+    def factor(self, alpha: float, rho: float):
+        """The count of one dwell: no transmission with 1 - alpha, a transmission of harm rho with alpha."""
+        out = [0.0] * self.size
+        out[0] = 1.0 - alpha
+        x = self.excess(rho)
+        if x is None:  # a certain loss: the count is beyond every N_K (mass outside the truncated range)
+            return out
+        return [o + alpha * t for o, t in zip(out, self.transmission(x))]
+
+    def power(self, y, n: int):
+        out = [1.0] + [0.0] * (self.size - 1)
+        for _ in range(n):
+            out = self.conv(out, y)
+        return out
+
+    def hopping(self, alpha: float, harms: list[float], overlap: dict):
+        """The count of a hopping source whose K overlapped dwells lie on K distinct channels of its set: E over K
+        of (prod over all)^q * e_m / C(N, m) (the several-dwell law, in the ring of counts)."""
+        import numpy as np
+        ys = [self.factor(alpha, h) for h in harms]
+        total = np.zeros(self.size)
+        for k, prob in overlap_distribution(overlap).items():
+            q, m = divmod(k, len(ys))
+            e = [np.eye(1, self.size)[0]] + [np.zeros(self.size) for _ in range(m)]
+            for y in ys:
+                for j in range(m, 0, -1):
+                    e[j] = e[j] + self.conv(y, e[j - 1])
+            whole = self.power(np.eye(1, self.size)[0], 0)
+            for y in ys if q else []:
+                whole = self.conv(whole, y)
+            total = total + prob * self.conv(self.power(whole, q), e[m] / math.comb(len(ys), m))
+        return total
+
+    def interferer(self, alpha: float, rho: float, overlap: dict | None):
+        y = self.factor(alpha, rho)
+        if overlap is None:
+            return y
+        import numpy as np
+        return sum(prob * np.asarray(self.power(y, k)) for k, prob in overlap_distribution(overlap).items())
+
+    def channel_figures(self, systems_by_id: dict[str, dict]):
+        """Per channel of the hop set: ({source: standalone collision}, the channel's collision)."""
+        victim = self.victim
+        centres = {ch["channel"]: ch["centre_hz"] for ch in victim.get("channels") or []}
+        rows, totals = [], []
+        for c in victim["hop_set"]:
+            row, every = {}, self.noise
+            for src in victim["sources"]:
+                if src["kind"] == "system":
+                    other = systems_by_id[src["id"]]["hop_set"]
+                    counts = self.hopping(src["activity_fraction"],
+                                          [harm_at_offset(src["harm_by_offset"], c - c2) for c2 in other], src["overlap"])
+                else:
+                    low, high = src["span_hz"]
+                    rho = harm_at_distance(src["harm_by_distance"], max(0.0, low - centres[c], centres[c] - high))
+                    counts = self.interferer(src["activity_fraction"], rho, src["overlap"])
+                row[src["id"]] = 1.0 - self.success(self.conv(self.noise, counts)) / self.base
+                every = self.conv(every, counts)
+            rows.append(row)
+            totals.append(1.0 - self.success(every) / self.base)
+        return rows, totals

@@ -23,7 +23,7 @@ LAYERS = [
     ("cohop.site", 2), ("cohop.site_form", 2), ("cohop.site_rules", 2), ("cohop.regulatory", 2),
     ("cohop.cautions", 2),
     ("cohop.prepare", 3), ("cohop.surveys", 3), ("cohop.harm", 3),
-    ("cohop.kernel", 4), ("cohop.assess", 4), ("cohop.montecarlo", 4), ("cohop.sequences", 4),
+    ("cohop.kernel", 4), ("cohop.assess", 4), ("cohop.joint", 4), ("cohop.montecarlo", 4), ("cohop.sequences", 4),
     ("cohop.traffic", 4), ("cohop.mobility", 4),
     ("cohop.planning", 5),
     ("cohop.jobs", 6),

@@ -24,7 +24,7 @@ as 1 - prod(1 - x), which is how the totals are formed.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -65,6 +65,18 @@ class ChannelFigures:
 
 
 @dataclass(frozen=True)
+class CaptureFigures:
+    """How a system's capture is modelled (`cohop.physics.capture`) and how its sources combine: 'product' (one
+    factor per transmission: exact for a Rayleigh-faded wanted signal, and the threshold at fading none) or
+    'joint' (a Rician-faded one, `cohop.joint`)."""
+
+    wanted_fading: str
+    k_factor_db: float | None
+    interference_fading: str | None  # None at fading none
+    combination: str
+
+
+@dataclass(frozen=True)
 class SystemFigures:
     index: int
     id: str
@@ -83,6 +95,7 @@ class SystemFigures:
     channels: tuple[ChannelFigures, ...]
     compliance: tuple[Finding, ...]
     noise_floor_dbm: float | None = None
+    capture: CaptureFigures | None = None
 
 
 @dataclass(frozen=True)
@@ -146,8 +159,12 @@ def varying_steps(prep: PreparedSite, v: int, tail: np.ndarray | None = None) ->
 
 
 def harm_cells(prep: PreparedSite, sets: list[np.ndarray]) -> int:
-    """The evaluation's work: sum over victims of sources x hop-set channels x varying steps (at least 1)."""
-    return int(sum(prep.n_systems * s.size * max(1, len(varying_steps(prep, v))) for v, s in enumerate(sets)))
+    """The evaluation's work: sum over victims of sources x hop-set channels x varying steps (at least 1), times
+    1 + the points of the joint law at Rician victims (`cohop.joint`)."""
+    from cohop import joint
+
+    return int(sum(prep.n_systems * s.size * max(1, len(varying_steps(prep, v))) * (1 + joint.points(prep, v))
+                   for v, s in enumerate(sets)))
 
 
 def check_harm_work(prep: PreparedSite, sets: list[np.ndarray]) -> None:
@@ -162,21 +179,33 @@ def check_harm_work(prep: PreparedSite, sets: list[np.ndarray]) -> None:
 def collisions_of(prep: PreparedSite, victims: list[int], channels: list[np.ndarray], occupancy: np.ndarray,
                   sizes: np.ndarray) -> list[np.ndarray]:
     """Standalone per-hop collision probability of each source system at each victim, (S, N_v) per victim, the
-    victims taken in chunks of at most _CHUNK_CELLS cells.
+    victims taken in chunks of at most _CHUNK_CELLS cells (`survivals_of`)."""
+    return [np.clip(1.0 - s, 0.0, 1.0)  # rounding can leave 1 - survival a few ulps below 0
+            for s in survivals_of(prep, victims, channels, occupancy, sizes)]
+
+
+def survivals_of(prep: PreparedSite, victims: list[int], channels: list[np.ndarray], occupancy: np.ndarray,
+                 sizes: np.ndarray, levels: np.ndarray | None = None) -> list[np.ndarray]:
+    """The chance that each source system's overlapped dwells spare each victim's hop, (S, N_v) per victim (1 for
+    the victim itself and for sources without harm).
 
     The K overlapped dwells of source a lie on K distinct channels of its hop set, a dwell on a channel at
     offset d being survived with 1 - alpha_a rho_va(d) (`cohop.harm`): E over K-subsets of the product
     (`stats.overlap.distinct_survival_weighted`). Channels within the offsets where a's harm varies are 'near';
-    the rest share the constant (tail) harm."""
-    reach, constant = prep.harm.varying_reach()
+    the rest share the constant (tail) harm. `levels` (S, S, L), complex allowed, replaces the harm tables'
+    values (not their shape: reach and steps stay): the joint law's transforms (`cohop.rician_joint`)."""
+    reach, _ = prep.harm.varying_reach()
+    tables = prep.harm if levels is None else replace(prep.harm, system_levels=levels)
+    constant = tables.tail()
     width = 2 * max(int(reach.max(initial=-1)), 0) + 1
     top = max(int(reach.max(initial=-1)), 0)
     if max(prep.n_systems * max((ch.size for ch in channels), default=0) * width,
            prep.n_systems * prep.n_systems * (top + 1)) > _CHUNK_CELLS:
         prefix = np.zeros((occupancy.shape[0], occupancy.shape[1] + 1), dtype=np.int64)
         np.cumsum(occupancy, axis=1, out=prefix[:, 1:])
-        return [_collisions_by_steps(prep, v, ch, prefix, sizes) for v, ch in zip(victims, channels)]
-    varying = prep.harm.offset_harm(top)
+        return [_survival_by_steps(prep, v, ch, prefix, sizes, tables.system_levels[v])
+                for v, ch in zip(victims, channels)]
+    varying = tables.offset_harm(top)
     out: list[np.ndarray] = []
     start = 0
     while start < len(victims):
@@ -185,14 +214,42 @@ def collisions_of(prep: PreparedSite, victims: list[int], channels: list[np.ndar
                                        <= _CHUNK_CELLS):
             cells += prep.n_systems * channels[stop].size * width
             stop += 1
-        out += _chunk_collisions(prep, victims[start:stop], channels[start:stop], occupancy, sizes, reach,
-                                 constant, varying)
+        vs = np.asarray(victims[start:stop])
+        out += _chunk_survivals(prep, victims[start:stop], channels[start:stop], occupancy, sizes, reach[vs],
+                                constant[vs], varying[vs])
         start = stop
     return out
 
 
-def _chunk_collisions(prep, victims, channels, occupancy, sizes, reach, constant, varying) -> list[np.ndarray]:
-    s_count, c = prep.n_systems, prep.n_channels
+def victim_survivals(prep: PreparedSite, v: int, channels: np.ndarray, occupancy: np.ndarray, sizes: np.ndarray,
+                     levels: np.ndarray) -> np.ndarray:
+    """`survivals_of` for victim v at several value tables at once: levels (P, S, L), complex allowed (the joint
+    law's transforms at P points, `cohop.joint`), in place of v's row of the harm tables; returns (P, S, N)."""
+    reach, _ = prep.harm.varying_reach()
+    top = max(int(reach.max(initial=-1)), 0)
+    width = 2 * top + 1
+    n_points = levels.shape[0]
+    if max(prep.n_systems * channels.size * width, prep.n_systems * prep.n_systems * (top + 1)) > _CHUNK_CELLS:
+        prefix = np.zeros((occupancy.shape[0], occupancy.shape[1] + 1), dtype=np.int64)
+        np.cumsum(occupancy, axis=1, out=prefix[:, 1:])
+        return np.stack([_survival_by_steps(prep, v, channels, prefix, sizes, row) for row in levels])
+    steps = prep.harm.steps[v]
+    varying = levels[:, :, steps[:top + 1]]  # (P, S, W + 1)
+    constant = levels[:, np.arange(prep.n_systems), steps[-1]]  # (P, S)
+    per_point = max(1, _CHUNK_CELLS // max(1, prep.n_systems * channels.size * width))
+    out = []
+    for start in range(0, n_points, per_point):
+        stop = min(n_points, start + per_point)
+        count = stop - start
+        out += _chunk_survivals(prep, [v] * count, [channels] * count, occupancy, sizes,
+                                np.repeat(reach[v][None, :], count, axis=0), constant[start:stop],
+                                varying[start:stop])
+    return np.stack(out)
+
+
+def _chunk_survivals(prep, victims, channels, occupancy, sizes, reach, constant, varying) -> list[np.ndarray]:
+    """`survivals_of` for a chunk of victims; reach, constant (V, S) and varying (V, S, W + 1) are theirs."""
+    c = prep.n_channels
     w = (varying.shape[2] - 1) if reach.max(initial=-1) >= 0 else 0
     d = np.arange(-w, w + 1)
     longest = max(ch.size for ch in channels)
@@ -202,14 +259,14 @@ def _chunk_collisions(prep, victims, channels, occupancy, sizes, reach, constant
     at = ch[:, :, None] + d  # (V, N, D)
     on_grid = (at >= 0) & (at < c)
     vs = np.asarray(victims)
-    near_offset = np.abs(d)[None, None, :] <= reach[vs][:, :, None]  # (V, S, D)
+    near_offset = np.abs(d)[None, None, :] <= reach[:, :, None]  # (V, S, D)
     present = occupancy[:, np.clip(at, 0, c - 1)] & on_grid  # (S, V, N, D)
     present = present.transpose(1, 0, 2, 3) & near_offset[:, :, None, :]  # (V, S, N, D)
     alpha = prep.activity[None, :, None]
-    keep = 1.0 - alpha * varying[vs][:, :, np.abs(d)]  # (V, S, D)
+    keep = 1.0 - alpha * varying[:, :, np.abs(d)]  # (V, S, D)
     near = present.sum(axis=3)
     far = sizes[None, :, None] - near
-    far_keep = (1.0 - prep.activity[None, :] * constant[vs])[:, :, None]
+    far_keep = (1.0 - prep.activity[None, :] * constant)[:, :, None]
     k0, r = prep.overlap_k0[vs][:, :, None], prep.overlap_r[vs][:, :, None]
     m_top = int(np.max(np.minimum(k0 + 1, sizes[None, :, None] - 1), initial=0))
     degree = max(0, min(m_top, int(near.max(initial=0))))
@@ -221,13 +278,12 @@ def _chunk_collisions(prep, victims, channels, occupancy, sizes, reach, constant
     n = sizes[None, :, None]
     survive = (1.0 - r) * distinct_survival_weighted(k0, e, near, product, far, far_keep, n) \
         + r * distinct_survival_weighted(k0 + 1, e, near, product, far, far_keep, n)
-    x = np.clip(1.0 - survive, 0.0, 1.0)  # rounding can leave 1 - survival a few ulps below 0
-    x[prep.harm.reach[vs] < 0] = 0.0
+    survive[prep.harm.reach[vs] < 0] = 1.0
     out = []
     for i, v in enumerate(victims):
-        xv = x[i][:, :channels[i].size].copy()
-        xv[v] = 0.0
-        out.append(xv)
+        sv = survive[i][:, :channels[i].size].copy()
+        sv[v] = 1.0
+        out.append(sv)
     return out
 
 
@@ -256,18 +312,20 @@ def _segments(steps: np.ndarray) -> list[tuple[int, int, int]]:
     return [(int(steps[a]), int(a), int(b)) for a, b in zip(starts, ends)]
 
 
-def _collisions_by_steps(prep: PreparedSite, v: int, channels: np.ndarray, prefix: np.ndarray,
-                         sizes: np.ndarray) -> np.ndarray:
-    """`collisions_of` for one victim, with a's near channels counted per step of v's rejection table (one harm
-    per step; prefix counts, so the work does not grow with the offsets a step spans)."""
+def _survival_by_steps(prep: PreparedSite, v: int, channels: np.ndarray, prefix: np.ndarray, sizes: np.ndarray,
+                       levels: np.ndarray) -> np.ndarray:
+    """`survivals_of` for one victim, with a's near channels counted per step of v's rejection table (one harm
+    per step; prefix counts, so the work does not grow with the offsets a step spans); `levels` (S, L) the
+    values by step (the harm tables' own, or the joint law's transforms)."""
     tables = prep.harm
-    levels = tables.system_levels[v]  # (S, L)
+    real = tables.system_levels[v]  # (S, L): which steps vary
     steps = tables.steps[v]
-    tail = levels[np.arange(prep.n_systems), steps[-1]]
+    tail = real[np.arange(prep.n_systems), steps[-1]]
+    tail_value = levels[np.arange(prep.n_systems), steps[-1]]
     alpha = prep.activity
     near_counts, near_keeps = [], []
     for t, lo, hi in varying_steps(prep, v, tail):
-        varies = levels[:, t] > tail  # this step is 'near' for source a
+        varies = real[:, t] > tail  # this step is 'near' for source a
         near_counts.append(_offset_counts(prefix, channels, lo, hi) * varies[:, None])
         near_keeps.append((1.0 - alpha * levels[:, t])[:, None])
     near = sum(near_counts) if near_counts else np.zeros((prep.n_systems, channels.size), dtype=int)
@@ -277,20 +335,19 @@ def _collisions_by_steps(prep: PreparedSite, v: int, channels: np.ndarray, prefi
     product = np.ones(near.shape)
     for n, y in zip(near_counts, near_keeps):
         product = product * y**n
-    far, far_keep = sizes[:, None] - near, (1.0 - alpha * tail)[:, None]
+    far, far_keep = sizes[:, None] - near, (1.0 - alpha * tail_value)[:, None]
     survive = (1.0 - r) * distinct_survival_weighted(k0, e, near, product, far, far_keep, sizes[:, None]) \
         + r * distinct_survival_weighted(k0 + 1, e, near, product, far, far_keep, sizes[:, None])
-    x = np.clip(1.0 - survive, 0.0, 1.0)
-    x[tables.reach[v] < 0] = 0.0
-    x[v] = 0.0
-    return x
+    survive[tables.reach[v] < 0] = 1.0
+    survive[v] = 1.0
+    return survive
 
 
 def _near_polynomials(present: np.ndarray, keep: np.ndarray, degree: int) -> np.ndarray:
     """e_j, j = 0 .. degree, of the near channels' survival factors (the elementary symmetric polynomials; e_1
     is their sum), (V, S, N, degree + 1); `present` (V, S, N, D) marks the near channels at each offset, whose
     factor is keep (V, S, D)."""
-    e = np.zeros(present.shape[:3] + (degree + 1,))
+    e = np.zeros(present.shape[:3] + (degree + 1,), dtype=keep.dtype)
     e[..., 0] = 1.0
     if degree == 1:
         e[..., 1] = np.einsum("vsnd,vsd->vsn", present, keep)
@@ -306,11 +363,14 @@ def interferer_spans(prep: PreparedSite) -> np.ndarray:
     return np.array([[i.low_hz, i.high_hz] for i in prep.site.interferers], dtype=float).reshape(-1, 2)
 
 
-def interferer_collisions(prep: PreparedSite, v: int, channels: np.ndarray) -> np.ndarray:
+def interferer_collisions(prep: PreparedSite, v: int, channels: np.ndarray,
+                          levels: np.ndarray | None = None) -> np.ndarray:
     """Standalone per-hop collision probability of each fixed interferer, (K, N_v): a continuous one hits with
-    alpha_k rho_vk(c), a bursty one with 1 - E[(1 - alpha_k rho_vk(c))^K] (its bursts on its own span)."""
-    rho = harm.interferer_harm(prep.harm, prep.site.systems[v], v, interferer_spans(prep), prep.centres_hz, channels)
-    x = np.zeros(rho.shape)
+    alpha_k rho_vk(c), a bursty one with 1 - E[(1 - alpha_k rho_vk(c))^K] (its bursts on its own span);
+    `levels` (K, L) as `harm.interferer_harm`."""
+    rho = harm.interferer_harm(prep.harm, prep.site.systems[v], v, interferer_spans(prep), prep.centres_hz, channels,
+                               levels)
+    x = np.zeros(rho.shape, dtype=rho.dtype)
     for k, link in enumerate(prep.interferer_links[v]):
         if link.overlap is None:
             x[k] = link.activity_fraction * rho[k]
@@ -396,15 +456,22 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
     """System v's figures; `compliance` False skips the profile checks (they do not depend on coupling: the
     per-position figures of systems that move, `cohop.mobility`). `x_sys` (`collisions_of`) and `kernel`
     (`HarmTables.varying_reach`): computed already for the whole site."""
+    from cohop import joint
+
     system = prep.site.systems[v]
     channels = hop_sets[v]
-    if x_sys is None:
-        x_sys = system_collisions(prep, v, channels, prefix, sizes)
-    x_sys = x_sys.copy()
-    _aligned_exact(prep, v, channels, x_sys, sequences)
-    x_itf = interferer_collisions(prep, v, channels)
-    x = np.vstack([np.delete(x_sys, v, axis=0), x_itf])
-    total = 1.0 - np.prod(1.0 - x, axis=0)  # combine independent sources (cohop.stats.retries)
+    together = joint.joint_figures(prep, v, channels, np.diff(prefix, axis=1).astype(bool), sizes, sequences)
+    if together is not None:  # a Rician wanted signal: every transmission together (cohop.joint)
+        x_sys, x_itf, total = together.systems, together.interferers, together.total
+        x = np.vstack([np.delete(x_sys, v, axis=0), x_itf])
+    else:
+        if x_sys is None:
+            x_sys = system_collisions(prep, v, channels, prefix, sizes)
+        x_sys = x_sys.copy()
+        _aligned_exact(prep, v, channels, x_sys, sequences)
+        x_itf = interferer_collisions(prep, v, channels)
+        x = np.vstack([np.delete(x_sys, v, axis=0), x_itf])
+        total = 1.0 - np.prod(1.0 - x, axis=0)  # combine independent sources (cohop.stats.retries)
     fade = float(prep.fade_probability[v])
     hop_loss = retries.combine_independent(total, fade)
     collision = float(total.mean())
@@ -427,7 +494,10 @@ def assess_system(prep: PreparedSite, v: int, hop_sets: list[np.ndarray], origin
         expected_attempts=float(retries.expected_attempts(attempt_loss, system.retry_limit)),
         sources=_source_figures(prep, v, x_sys, x_itf, kernel or prep.harm.varying_reach()),
         channels=_channel_figures(prep, channels, total, hop_loss, x, ids, detail),
-        compliance=tuple(findings), noise_floor_dbm=noise)
+        compliance=tuple(findings), noise_floor_dbm=noise, capture=CaptureFigures(
+            wanted_fading=system.fading.model, k_factor_db=system.fading.k_factor_db,
+            interference_fading=None if system.fading.model == "none" else system.fading.interference,
+            combination="product" if together is None else "joint"))
 
 
 def site_sequences(prep: PreparedSite) -> list | None:

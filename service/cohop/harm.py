@@ -39,6 +39,22 @@ class HarmTables:
     interferer_levels: np.ndarray  # (S, K, L) [v, k, t]: the same for fixed interferer k
     steps: np.ndarray  # (S, C) int [v, d]: the step of v's table that grid offset d falls in
     reach: np.ndarray  # (S, S) int [v, a]: largest offset with harm (-1 none; C: every offset on the grid)
+    system_excess: np.ndarray | None = None  # (S, S, L) [v, a, t]: the excess (dB) the levels come from (-inf none)
+    interferer_excess: np.ndarray | None = None  # (S, K, L): the same for fixed interferers
+
+    def transforms(self, victim: System, v: int, contour) -> tuple[np.ndarray, np.ndarray]:
+        """(systems (P, S, L), interferers (P, K, L)): 1 - ell(u) of victim v's sources by step at each point u of
+        a Rician victim's contour, the joint law's stand-in for rho (`capture.transmission_transform`); 0 where
+        rho is 0 (the same truncation)."""
+        link = victim.fading.interference
+        u = contour.points[:, None, None]
+        out = []
+        for levels, excess in ((self.system_levels[v], self.system_excess[v]),
+                               (self.interferer_levels[v], self.interferer_excess[v])):
+            with np.errstate(over="ignore", invalid="ignore"):
+                t = capture.transmission_transform(np.where(levels > 0, excess, -np.inf)[None], link, contour.gain, u)
+            out.append(np.where(levels[None] > 0, t, 0.0))
+        return out[0], out[1]
 
     def system_harm(self, v: int, offsets) -> np.ndarray:
         """rho[a, j] of every source system at offsets[j] (grid channels, >= 0) from victim v's channel."""
@@ -101,14 +117,20 @@ def harm_of_excess(victim: System, margin_db: float, excess_db) -> np.ndarray:
     return capture.truncated(rho)
 
 
+def step_excess(victim: System, excess_db: np.ndarray, width: int) -> np.ndarray:
+    """(n, width) excess (dB) of sources of the given co-channel excess (n,) in each step of the victim's table,
+    padded to `width` steps with the last."""
+    _, rejection = rejection_steps(victim)
+    out = np.asarray(excess_db, dtype=float)[:, None] - rejection[None, :]
+    if out.shape[1] < width:
+        out = np.concatenate([out, np.repeat(out[:, -1:], width - out.shape[1], axis=1)], axis=1)
+    return out
+
+
 def step_harm(victim: System, margin_db: float, excess_db: np.ndarray, width: int) -> np.ndarray:
     """(n, width) rho of sources of the given excess (n,) in each step of the victim's table, padded to
     `width` steps with the last."""
-    _, rejection = rejection_steps(victim)
-    rho = harm_of_excess(victim, margin_db, np.asarray(excess_db, dtype=float)[:, None] - rejection[None, :])
-    if rho.shape[1] < width:
-        rho = np.concatenate([rho, np.repeat(rho[:, -1:], width - rho.shape[1], axis=1)], axis=1)
-    return rho
+    return harm_of_excess(victim, margin_db, step_excess(victim, excess_db, width))
 
 
 def reach_of(levels: np.ndarray, steps: np.ndarray) -> np.ndarray:
@@ -121,15 +143,16 @@ def reach_of(levels: np.ndarray, steps: np.ndarray) -> np.ndarray:
 
 
 def interferer_harm(tables: HarmTables, victim: System, v: int, spans: np.ndarray, centres_hz: np.ndarray,
-                    channels) -> np.ndarray:
-    """rho[k, j] of every fixed interferer (spans (K, 2) [low, high] Hz) on victim v's channels[j]."""
+                    channels, levels: np.ndarray | None = None) -> np.ndarray:
+    """rho[k, j] of every fixed interferer (spans (K, 2) [low, high] Hz) on victim v's channels[j]; `levels`
+    (K, L), complex allowed, replaces the tables' values by step (the joint law's transforms)."""
     ch = np.asarray(channels, dtype=int)
     if spans.shape[0] == 0:
         return np.zeros((0, ch.size))
     f = centres_hz[ch]
     offsets = np.maximum(0.0, np.maximum(spans[:, :1] - f[None, :], f[None, :] - spans[:, 1:]))
     idx = step_of(victim, offsets)  # (K, n)
-    return np.take_along_axis(tables.interferer_levels[v], idx, axis=1)
+    return np.take_along_axis(tables.interferer_levels[v] if levels is None else levels, idx, axis=1)
 
 
 _CAPTURE_TEXT = {
@@ -138,14 +161,14 @@ _CAPTURE_TEXT = {
     ("rayleigh", "rayleigh"): "a Rayleigh-faded wanted signal and Rayleigh-faded interference: one overlapped "
                               "transmission at excess E dB destroys a hop with x / (1 + x), x = 10^(E/10) "
                               "(Linnartz 1993)",
-    ("rician", "steady"): "a Rician-faded wanted signal and steady interference: the harm of one transmission is "
-                          "exact; several are combined as a product, which for Rician signals understates the "
-                          "loss (Zorzi 1997; by up to 2 points of per-hop collision on generated sites against "
-                          "the Monte Carlo)",
-    ("rician", "rayleigh"): "a Rician-faded wanted signal and Rayleigh-faded interference: the harm of one "
-                            "transmission is exact; several are combined as a product, which for Rician signals "
-                            "understates the loss (Zorzi 1997; by up to 2 points of per-hop collision on "
-                            "generated sites against the Monte Carlo)",
+    ("rician", "steady"): "a Rician-faded wanted signal and steady interference: the overlapped transmissions' "
+                          "powers add before they meet the wanted signal, and a hop's survival is computed with "
+                          "all of them together (Zorzi 1997; cohop.joint), so a channel's collision is at least "
+                          "the product of its sources' standalone figures",
+    ("rician", "rayleigh"): "a Rician-faded wanted signal and Rayleigh-faded interference: the overlapped "
+                            "transmissions' powers add before they meet the wanted signal, and a hop's survival is "
+                            "computed with all of them together (Zorzi 1997; cohop.joint), so a channel's collision "
+                            "is at least the product of its sources' standalone figures",
 }
 
 
@@ -157,6 +180,7 @@ def capture_assumptions(systems) -> tuple[str, ...]:
         key = (s.fading.model, "-" if s.fading.model == "none" else s.fading.interference)
         groups.setdefault(key, []).append(s.id)
     out = []
+    product = [s.id for s in systems if s.fading.model == "rician" and not _joint_applies(s)]
     for key, ids in groups.items():
         names = ", ".join(repr(i) for i in ids)
         if key[0] == "none":
@@ -165,4 +189,14 @@ def capture_assumptions(systems) -> tuple[str, ...]:
         else:
             out.append(f"Capture at {names}: {_CAPTURE_TEXT[key]}; the noise enters as the fade probability; "
                        f"a harm below {capture.HARM_FLOOR:g} per transmission is taken as 0.")
+    if product:
+        out.append(f"Capture at {', '.join(repr(i) for i in product)}: the K-factor is above about 20 dB, so "
+                   "several transmissions are combined as a product over them (their link.capture.combination "
+                   "says so), which understates the loss of a Rician-faded signal.")
     return tuple(out)
+
+
+def _joint_applies(system) -> bool:
+    """Whether the joint law's series is short enough for this Rician system (`capture.JOINT_MAX_TERMS`; the
+    noise-only limit is per margin and shows in link.capture.combination)."""
+    return capture.joint_terms(system.fading.k_factor_db) <= capture.JOINT_MAX_TERMS

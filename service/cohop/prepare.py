@@ -256,31 +256,49 @@ def _harm_tables(site: Site, centres: np.ndarray, margin: np.ndarray, links, ili
     offsets = site.grid.spacing_hz * np.arange(c)
     n, k_count = len(systems), len(site.interferers)
     sys_levels, itf_levels = np.zeros((n, n, width)), np.zeros((n, k_count, width))
+    sys_excess, itf_excess = np.full((n, n, width), -np.inf), np.full((n, k_count, width), -np.inf)
     steps, reach = np.zeros((n, c), dtype=np.int64), np.full((n, n), -1, dtype=np.int64)
     ranges = np.zeros((n, k_count, 2), dtype=int)
     for v, victim in enumerate(systems):
-        steps[v], sys_levels[v], itf_levels[v], reach[v], ranges[v] = _victim_harm(
-            site, victim, v, offsets, centres, margin[v], links[v], ilinks[v], width)
-    return harm.HarmTables(system_levels=sys_levels, interferer_levels=itf_levels, steps=steps, reach=reach), ranges
+        row = _victim_harm(site, victim, v, offsets, centres, margin[v], links[v], ilinks[v], width)
+        steps[v], sys_levels[v], itf_levels[v], reach[v], ranges[v] = row.steps, row.system, row.interferer, \
+            row.reach, row.ranges
+        sys_excess[v], itf_excess[v] = row.system_excess, row.interferer_excess
+    return harm.HarmTables(system_levels=sys_levels, interferer_levels=itf_levels, steps=steps, reach=reach,
+                           system_excess=sys_excess, interferer_excess=itf_excess), ranges
+
+
+@dataclass(frozen=True)
+class _VictimRow:
+    steps: np.ndarray  # (C,)
+    system: np.ndarray  # (S, L) rho
+    interferer: np.ndarray  # (K, L) rho
+    reach: np.ndarray  # (S,)
+    ranges: np.ndarray  # (K, 2)
+    system_excess: np.ndarray  # (S, L) dB
+    interferer_excess: np.ndarray  # (K, L) dB
 
 
 def _victim_harm(site: Site, victim: System, v: int, offsets: np.ndarray, centres: np.ndarray, margin_db: float,
-                 links, ilinks, width: int):
-    """One victim's row of the harm tables: steps, system levels, interferer levels, reach, interferer ranges."""
+                 links, ilinks, width: int) -> _VictimRow:
+    """One victim's row of the harm tables: steps, levels and excess by step, reach, interferer ranges."""
     steps = harm.step_of(victim, offsets)
     excess = np.array([-np.inf if link is None else link.excess_db for link in links])
-    sys_levels = harm.step_harm(victim, margin_db, excess, width)
+    sys_excess = harm.step_excess(victim, excess, width)
+    sys_excess[v] = -np.inf
+    sys_levels = harm.harm_of_excess(victim, margin_db, sys_excess)
     sys_levels[v] = 0.0
     reach = harm.reach_of(sys_levels, steps)
     itf_excess = np.array([link.excess_db for link in ilinks])
-    itf_levels = harm.step_harm(victim, margin_db, itf_excess, width) if ilinks else np.zeros((0, width))
+    itf_excess = harm.step_excess(victim, itf_excess, width) if ilinks else np.zeros((0, width))
+    itf_levels = harm.harm_of_excess(victim, margin_db, itf_excess) if ilinks else np.zeros((0, width))
     table, _ = harm.rejection_steps(victim)
     ranges = np.zeros((len(ilinks), 2), dtype=int)
     for k, itf in enumerate(site.interferers):
         last = np.flatnonzero(itf_levels[k] > 0)  # harm falls with the step: the last step with harm
         bound = 0.0 if last.size == 0 else (math.inf if last[-1] >= table.size else float(table[last[-1]]))
         ranges[k] = _span_range(centres, itf.low_hz, itf.high_hz, bound)
-    return steps, sys_levels, itf_levels, reach, ranges
+    return _VictimRow(steps, sys_levels, itf_levels, reach, ranges, sys_excess, itf_excess)
 
 
 def _span_range(centres: np.ndarray, low_hz: float, high_hz: float, bound_hz: float) -> tuple[int, int]:
@@ -401,10 +419,13 @@ def victim_at(prep: PreparedSite, v: int, loss_db: np.ndarray, interferer_dbm: n
     all_ilinks = prep.interferer_links[:v] + (tuple(ilinks),) + prep.interferer_links[v + 1:]
     tables = prep.harm
     sys_levels, itf_levels, reach = tables.system_levels.copy(), tables.interferer_levels.copy(), tables.reach.copy()
+    sys_excess, itf_excess = tables.system_excess.copy(), tables.interferer_excess.copy()
     offsets = site.grid.spacing_hz * np.arange(prep.n_channels)
-    _, sys_levels[v], itf_levels[v], reach[v], iranges[v] = _victim_harm(
-        site, victim, v, offsets, prep.centres_hz, float(prep.fade_margin_db[v]), links, ilinks,
-        sys_levels.shape[2])
-    tables = replace(tables, system_levels=sys_levels, interferer_levels=itf_levels, reach=reach)
+    row = _victim_harm(site, victim, v, offsets, prep.centres_hz, float(prep.fade_margin_db[v]), links, ilinks,
+                       sys_levels.shape[2])
+    sys_levels[v], itf_levels[v], reach[v], iranges[v] = row.system, row.interferer, row.reach, row.ranges
+    sys_excess[v], itf_excess[v] = row.system_excess, row.interferer_excess
+    tables = replace(tables, system_levels=sys_levels, interferer_levels=itf_levels, reach=reach,
+                     system_excess=sys_excess, interferer_excess=itf_excess)
     return replace(prep, coupling_loss_db=loss, links=all_links, window=window, interferer_links=all_ilinks,
                    interferer_range=iranges, harm=tables)

@@ -46,8 +46,7 @@ def test_the_issue_site_simulates_through_the_api(client):
 
 @pytest.mark.parametrize("seed", [1, 2])
 def test_the_simulation_agrees_with_the_model_on_the_issue_site(seed):
-    # within the interval where the evaluator is exact; for the Rician systems of the sample with several
-    # overlapped transmissions its product is an approximation that must not exceed the simulated interval
+    # every figure within the simulation's interval, the Rician systems' joint figures included
     # (tests/model/test_montecarlo_fading.py)
     prep = prepare_site(load(_long_packet_site()["site"]))
     compare(prep, 100_000, seed)

@@ -119,3 +119,71 @@ def test_steady_link_is_the_conservative_default():
 def test_truncation_below_the_floor():
     rho = np.array([0.0, capture.HARM_FLOOR / 2, capture.HARM_FLOOR, 0.5])
     assert capture.truncated(rho).tolist() == [0.0, 0.0, capture.HARM_FLOOR, 0.5]
+
+
+# --- the joint law: several transmissions at a Rician victim (capture.joint_contour) ---------------------------
+
+def _joint_collision(k_db, margin_db, transmissions):
+    """1 - P(s > m + sum) / P(s > m) through the contour; transmissions: (excess dB, link, activity)."""
+    c = capture.joint_contour(k_db, margin_db)
+    g = np.ones(c.points.size, dtype=complex)
+    for e, link, alpha in transmissions:
+        g = g * (1 - alpha * capture.transmission_transform(e, link, c.gain, c.points))
+    return 1 - c.success(g) / c.base
+
+
+@pytest.mark.parametrize("k_db", [-30.0, 0.0, 6.0, 12.0, 20.0])
+@pytest.mark.parametrize("margin_db", [6.0, 15.0, 30.0])
+@pytest.mark.parametrize("link", ["steady", "rayleigh"])
+def test_joint_law_with_one_transmission_is_its_harm(k_db, margin_db, link):
+    # one transmission: the joint law is the single-transmission harm (ncx2 and its tilted closed form, above)
+    for e in (-20.0, -6.0, 0.0, 4.0, 12.0):
+        want = float(capture.harm_probability(e, "rician", link, margin_db, k_db))
+        assert _joint_collision(k_db, margin_db, [(e, link, 1.0)]) == pytest.approx(want, rel=1e-8, abs=1e-10)
+
+
+@pytest.mark.parametrize("k_db", [0.0, 6.0, 15.0])
+def test_joint_law_adds_steady_powers(k_db):
+    # Goldsmith ch. 3 (scipy.stats.rice, as _rician_sf): steady powers add, P(s > m + x1 + x2 + x3)
+    m_db, es = 12.0, (-9.0, -7.0, -5.0)
+    m, xs = 10 ** (-m_db / 10), [10 ** (e / 10) for e in es]
+    want = 1 - _rician_sf(m + sum(xs), k_db) / _rician_sf(m, k_db)
+    got = _joint_collision(k_db, m_db, [(e, "steady", 1.0) for e in es])
+    assert got == pytest.approx(want, rel=1e-8)
+    product = 1 - math.prod(1 - float(capture.harm_probability(e, "rician", "steady", m_db, k_db)) for e in es)
+    assert got > product + 0.02  # the product understates it (log-concave survival): 0.11 against 0.001 at 15 dB
+
+
+def test_joint_law_with_two_rayleigh_faded_transmissions():
+    # E over two unit exponentials of P(s > m + g1 x1 + g2 x2), by scipy.integrate.dblquad
+    k_db, m_db, e1, e2 = 6.0, 10.0, -2.0, 1.0
+    m, x1, x2 = 10 ** (-m_db / 10), 10 ** (e1 / 10), 10 ** (e2 / 10)
+    kept, _ = integrate.dblquad(lambda g2, g1: math.exp(-g1 - g2) * _rician_sf(m + g1 * x1 + g2 * x2, k_db),
+                                0, 60, 0, 60, epsabs=1e-12, epsrel=1e-10)
+    want = 1 - kept / _rician_sf(m, k_db)
+    got = _joint_collision(k_db, m_db, [(e1, "rayleigh", 1.0), (e2, "rayleigh", 1.0)])
+    assert got == pytest.approx(want, rel=1e-7)
+
+
+def test_joint_law_is_linear_in_activity():
+    # a transmission present with probability alpha: (1 - alpha) S(m + x1) + alpha S(m + x1 + x2)
+    k_db, m_db, e1, e2, alpha = 9.0, 12.0, -3.0, 0.0, 0.3
+    m, x1, x2 = 10 ** (-m_db / 10), 10 ** (e1 / 10), 10 ** (e2 / 10)
+    kept = (1 - alpha) * _rician_sf(m + x1, k_db) + alpha * _rician_sf(m + x1 + x2, k_db)
+    got = _joint_collision(k_db, m_db, [(e1, "steady", 1.0), (e2, "steady", alpha)])
+    assert got == pytest.approx(1 - kept / _rician_sf(m, k_db), rel=1e-8)
+
+
+def test_joint_law_near_rayleigh_is_the_product():
+    # K -> 0 is Rayleigh, where the product is exact (Kahlon et al. 2012): exp(-x1) exp(-x2)
+    got = _joint_collision(-30.0, 10.0, [(-2.0, "steady", 1.0), (1.0, "steady", 1.0)])
+    want = 1 - math.exp(-10 ** -0.2) * math.exp(-10 ** 0.1)
+    assert got == pytest.approx(want, rel=5e-3)
+
+
+def test_joint_law_limits():
+    assert capture.joint_contour(25.0, 12.0) is None  # more than JOINT_MAX_TERMS terms: the product, said so
+    assert capture.joint_contour(10.0, -10.0) is None  # the noise alone loses nearly every hop
+    c = capture.joint_contour(6.0, 12.0)
+    assert c.points.size == capture.joint_terms(6.0) + 2
+    assert c.base == pytest.approx(_rician_sf(10 ** -1.2, 6.0), rel=1e-10)

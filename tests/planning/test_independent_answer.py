@@ -33,7 +33,11 @@ def water_works(client):
 def _collision(victim: dict, hop_sets: dict[str, list[int]]) -> float:
     """The victim's per-hop collision with every system on `hop_sets`, from the answer's source inputs."""
     others = {sid: {"hop_set": hs} for sid, hs in hop_sets.items()}
-    rows = recompute.channel_figures({**victim, "hop_set": hop_sets[victim["id"]]}, others)
+    victim = {**victim, "hop_set": hop_sets[victim["id"]]}
+    if victim["link"]["capture"]["combination"] == "joint":  # a Rician victim: every transmission together
+        _, totals = recompute.RicianJoint(victim).channel_figures(others)
+        return sum(totals) / len(totals)
+    rows = recompute.channel_figures(victim, others)
     return sum(recompute.combine(r.values()) for r in rows) / len(rows)
 
 

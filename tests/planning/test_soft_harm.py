@@ -19,6 +19,7 @@ import pytest
 from ortools.sat.python import cp_model
 
 from cohop.assess import assess_site
+from cohop.physics import capture
 from cohop.planning import bound, lagrange, model
 from cohop.planning.linear import MarginalTable, hop_sets_of, marginal_costs, occupancy, system_estimates
 from cohop.planning.search import greedy
@@ -248,9 +249,13 @@ FADINGS = [{"model": "rayleigh"}, {"model": "rayleigh", "interference": "rayleig
 
 @pytest.mark.parametrize("fading", FADINGS, ids=lambda f: "-".join(str(v) for v in f.values()))
 @pytest.mark.parametrize("seed", range(3))
-def test_linear_estimate_is_above_the_evaluated_figure_on_soft_harm(seed, fading):
+def test_linear_estimate_is_above_the_evaluated_figure_on_soft_harm(seed, fading, monkeypatch):
     # 1 - E[prod (1 - alpha rho)] <= sum E[K] alpha rho / N and 1 - prod(1 - x) <= sum x (union bound): the
-    # planner's estimate bounds the evaluation model's per-hop collision from above whatever the harm.
+    # planner's estimate bounds the product law's per-hop collision from above whatever the harm. A Rician victim's
+    # evaluated figure combines its transmissions jointly (cohop.joint), which can exceed the sum of their
+    # harms (powers add); the planner keeps the per-transmission harm, so the bound is checked on the product
+    # law there (the joint law switched off), and the validator judges ceilings on the joint figures.
+    monkeypatch.setattr(capture, "JOINT_MAX_TERMS", 0)
     rng = np.random.default_rng(50 + seed)
     losses = {(i, j): float(rng.uniform(30, 70)) for i in range(4) for j in range(i + 1, 4)}
     inst = instance(tiny_site(4, 20, losses, fading=fading), [int(k) for k in rng.integers(3, 10, 4)])

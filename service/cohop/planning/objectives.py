@@ -290,7 +290,7 @@ def round_overhead_s(inst) -> float:
     """What a round costs besides its search work (calibrated seconds): the planner's set-up and greedy start
     (`costs.before_search_s`), and two assessments with validation (the round's own and the evaluation here).
     The rounds after the first are reserved like the closing phases."""
-    return costs.before_search_s(inst) + costs.SAFETY * 2 * costs.assessment_s(inst.n_systems, int(inst.sizes.sum()))
+    return costs.before_search_s(inst) + costs.SAFETY * 2 * costs.assessment_s(inst.n_systems, int(inst.sizes.sum()), costs.joint_cells(inst))
 
 
 def _round_progress(progress, r: int):

@@ -480,28 +480,33 @@ def _aligned_counts(x: np.ndarray, y: np.ndarray, width: int) -> np.ndarray:
     return np.searchsorted(keys, base + width, side="right") - np.searchsorted(keys, base - width, side="left")
 
 
-def _aligned_harm(prep: PreparedSite, v: int, a: int, x: np.ndarray, y: np.ndarray) -> np.ndarray:
+def _aligned_harm(prep: PreparedSite, v: int, a: int, x: np.ndarray, y: np.ndarray,
+                  values: np.ndarray | None = None) -> np.ndarray:
     """For each position i of x: sum of rho(|x_i - y_j|) over the positions j = i (mod g) of y it meets (once
-    per common period each), from the counts within each band's width (`cohop.sequences.bands`)."""
+    per common period each), from the counts within each band's width (`cohop.sequences.bands`). `values`
+    (C,), complex allowed, replaces rho by offset (the joint law's transforms, equal wherever rho is)."""
     bands_ = bands.system_bands(prep, v, [a])
+    harm = bands_.harm[0] if values is None else np.asarray(values)[bands_.widths[0]]
     within = np.stack([_aligned_counts(x, y, int(w)) for w in bands_.widths[0]])
     counts = bands.per_band(within)
-    out = bands_.harm[0, 0] * counts[0]
+    out = harm[0] * counts[0]
     for g in range(1, bands_.count):
-        out = out + bands_.harm[0, g] * counts[g]
+        out = out + harm[g] * counts[g]
     return out
 
 
 def aligned_channel_hits(prep: PreparedSite, v: int, a: int, x: np.ndarray, y: np.ndarray,
-                         channels: np.ndarray) -> np.ndarray:
+                         channels: np.ndarray, values: np.ndarray | None = None) -> np.ndarray:
     """Slot-aligned sequences: a's per-hop hit probability on each of v's `channels`, exactly, over the
     common period (slot t: v on x[t mod Lx], a on y[t mod Ly]; a transmits in a share alpha_a of slots and
-    then destroys v's hop with rho(|x - y|), `cohop.harm`)."""
+    then destroys v's hop with rho(|x - y|), `cohop.harm`); `values` as `_aligned_harm`."""
     x, y = np.asarray(x), np.asarray(y)
-    hits = _aligned_harm(prep, v, a, x, y)
+    hits = _aligned_harm(prep, v, a, x, y, values)
     channels = np.asarray(channels)
     grid = int(max(x.max(), channels.max(initial=0))) + 1
-    total = np.bincount(x, weights=hits, minlength=grid)[channels]
+    total = np.bincount(x, weights=np.real(hits), minlength=grid)[channels]
+    if np.iscomplexobj(hits):
+        total = total + 1j * np.bincount(x, weights=np.imag(hits), minlength=grid)[channels]
     slots = np.bincount(x, minlength=grid)[channels] * (y.size // math.gcd(x.size, y.size))
     alpha = prep.site.systems[a].activity_fraction
     return np.where(slots > 0, alpha * total / np.maximum(slots, 1), 0.0)

@@ -164,15 +164,16 @@ def survival_distinct(k0, r, harmful, size, activity):
 # --- soft harm: each channel of the source hurts with its own probability ------------------------------------
 
 def near_symmetric(counts, keeps, degree: int):
-    """e_j, j = 0 .. degree, of the multiset holding keeps[t] counts[t] times (the elementary symmetric polynomials
+    """e_j, j = 0 .. degree, of the multiset holding keeps[t] (real or complex) counts[t] times (the elementary symmetric polynomials
     [der: prod_t (1 + y_t z)^(n_t) expanded]), over leading axes: counts and keeps are sequences of arrays of one
     shape; returns (..., degree + 1)."""
     shape = np.shape(counts[0]) if counts else ()
-    e = np.zeros(shape + (degree + 1,))
+    dtype = np.result_type(float, *[np.asarray(y).dtype for y in keeps])  # complex keeps: the joint law's points
+    e = np.zeros(shape + (degree + 1,), dtype=dtype)
     e[..., 0] = 1.0
     for n, y in zip(counts, keeps):
         n = np.asarray(n, dtype=float)
-        y = np.broadcast_to(np.asarray(y, dtype=float), shape)
+        y = np.broadcast_to(np.asarray(y, dtype=dtype), shape)
         out = e.copy()
         binom, power = np.ones(shape), np.ones(shape)
         for i in range(1, degree + 1):  # C(n, i) y^i e_{j - i}
@@ -196,7 +197,8 @@ def distinct_survival_weighted(k, near_e, near_count, near_product, far_count, f
     n = np.maximum(np.asarray(size, dtype=np.int64), 1)
     q, m = np.divmod(k, n)
     far = np.asarray(far_count, dtype=float)
-    y_far = np.asarray(far_keep, dtype=float)
+    y_far = np.asarray(far_keep)
+    y_far = y_far.astype(np.result_type(float, y_far.dtype, near_e.dtype), copy=False)  # complex: the joint law
     full = near_product * y_far ** far  # prod of y over every channel
     shape = np.broadcast_shapes(np.shape(m), np.shape(far), np.shape(y_far), np.shape(n), np.shape(q),
                                 np.shape(near_product), near_e.shape[:-1])
@@ -211,7 +213,7 @@ def distinct_survival_weighted(k, near_e, near_count, near_product, far_count, f
         near = np.broadcast_to(np.asarray(near_count), shape)[several]
         ms, fs, ys = m[several], far[several], y_far[several]
         ln_all = _log_choose(n[several], ms)
-        part = np.zeros(ms.shape)
+        part = np.zeros(ms.shape, dtype=np.result_type(e.dtype, ys.dtype))
         for j in range(e.shape[-1]):
             with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
                 w = np.exp(_log_choose(fs, ms - j) - ln_all) * np.where(ms >= j, ys ** np.maximum(ms - j, 0), 0.0)

@@ -105,14 +105,28 @@ class ChannelSchema(Bulk, StrictSchema):  # cohop.assess.ChannelFigures
         "description": "detail=source only: nonzero standalone probabilities"})
 
 
+class CaptureSchema(StrictSchema):  # cohop.assess.CaptureFigures
+    wanted_fading = fields.String(metadata={"description": "rayleigh, rician or none (the site's fading.model)"})
+    k_factor_db = fields.Float(allow_none=True)
+    interference_fading = fields.String(allow_none=True, metadata={
+        "description": "steady or rayleigh (the site's fading.interference); null at fading none"})
+    combination = fields.String(metadata={
+        "description": "product: a hop survives its sources with the product of one factor per overlapped "
+                       "transmission (exact for a Rayleigh-faded wanted signal; the threshold at fading none); "
+                       "joint: a Rician-faded wanted signal, the transmissions' powers added before they meet it, "
+                       "so a channel's collision is at least 1 - prod(1 - by_source)"})
+
+
 class LinkSchema(StrictSchema):  # cohop.assess.SystemFigures
     wanted_signal_dbm = _p(attribute="wanted_dbm")
     fade_margin_db = _p()
     noise_floor_dbm = fields.Float(allow_none=True)
+    capture = fields.Nested(CaptureSchema)
 
 
 class PerHopSchema(StrictSchema):  # cohop.assess.SystemFigures
-    collision_probability = _p("Mean over the hop set of 1 - prod(1 - source probabilities)")
+    collision_probability = _p("Mean over the hop set of the channels' collision (1 - prod(1 - source "
+                               "probabilities), or joint: link.capture.combination)")
     fade_probability = _p()
 
 
