@@ -81,7 +81,10 @@ CAUTION = ("planning estimate, not a safety figure: the machine's safety assessm
 ASSUMPTIONS = ("independent given the phases: interference hits on different hops, interference and fading",
                "a neighbour's activity is drawn per hop of the victim, even when one of its dwells spans several",
                f"fades more than {GAP_HOPS} idle hops apart are independent; the fade chain is of first order",
-               "continuous fixed interferers are on or off for whole stretches; bursty ones hit per hop")
+               "continuous fixed interferers are on or off for whole stretches; bursty ones hit per hop",
+               "at a Rician-faded victim the overlapped transmissions are combined one by one (a product), which "
+               "understates the loss where several overlap; the assessment's per-hop figures combine them "
+               "together (link.capture)")
 
 
 @dataclass(frozen=True)
