@@ -161,19 +161,35 @@ def varying_steps(prep: PreparedSite, v: int, tail: np.ndarray | None = None) ->
 def harm_cells(prep: PreparedSite, sets: list[np.ndarray]) -> int:
     """The evaluation's work: sum over victims of sources x hop-set channels x varying steps (at least 1), times
     1 + the points of the joint law at Rician victims (`cohop.joint`)."""
+    return sum(cells for cells, _ in _harm_cells_by_victim(prep, sets))
+
+
+def _harm_cells_by_victim(prep: PreparedSite, sets: list[np.ndarray]) -> list[tuple[int, int]]:
+    """(cells, of which the joint law's) per victim (`harm_cells`)."""
     from cohop import joint
 
-    return int(sum(prep.n_systems * s.size * max(1, len(varying_steps(prep, v))) * (1 + joint.points(prep, v))
-                   for v, s in enumerate(sets)))
+    out = []
+    for v, s in enumerate(sets):
+        plain = prep.n_systems * s.size * max(1, len(varying_steps(prep, v)))
+        out.append((plain * (1 + joint.points(prep, v)), plain * joint.points(prep, v)))
+    return out
 
 
 def check_harm_work(prep: PreparedSite, sets: list[np.ndarray]) -> None:
     """SiteError when the evaluation's work passes `limits.MAX_HARM_CELLS`."""
-    cells = harm_cells(prep, sets)
+    per_victim = _harm_cells_by_victim(prep, sets)
+    cells = sum(c for c, _ in per_victim)
     if cells > limits.MAX_HARM_CELLS:
+        joint_cells = sum(j for _, j in per_victim)
+        remedy = "use fewer rejection rows, channels or systems"
+        if joint_cells:
+            remedy += (f", or give fewer systems a Rician wanted signal or a lower k_factor_db ({joint_cells} of "
+                       f"the cells are the joint law's points at Rician victims, more points the higher the "
+                       f"K-factor)")
         raise SiteError([("/systems", f"evaluating this site would take {cells} cells of harm (systems x hop-set "
-                                      f"channels x rejection-table steps where the harm varies), above the cap of "
-                                      f"{limits.MAX_HARM_CELLS}; use fewer rejection rows, channels or systems")])
+                                      f"channels x rejection-table steps where the harm varies, times 1 + the "
+                                      f"joint law's points at Rician victims), above the cap of "
+                                      f"{limits.MAX_HARM_CELLS}; {remedy}")])
 
 
 def collisions_of(prep: PreparedSite, victims: list[int], channels: list[np.ndarray], occupancy: np.ndarray,
@@ -248,26 +264,44 @@ def victim_survivals(prep: PreparedSite, v: int, channels: np.ndarray, occupancy
 
 
 def _chunk_survivals(prep, victims, channels, occupancy, sizes, reach, constant, varying) -> list[np.ndarray]:
-    """`survivals_of` for a chunk of victims; reach, constant (V, S) and varying (V, S, W + 1) are theirs."""
+    """`survivals_of` for a chunk of victims; reach, constant (V, S) and varying (V, S, W + 1) are theirs. Only
+    the sources that harm some victim of the chunk are computed (the rest spare every hop: survival 1), which
+    on a wide site (sources out of reach of most victims) is most of the work saved."""
+    vs = np.asarray(victims)
+    harms = (prep.harm.reach[vs] >= 0)
+    harms[np.arange(vs.size), vs] = False
+    src = np.flatnonzero(harms.any(axis=0))
+    out = [np.ones((prep.n_systems, chans.size), dtype=np.result_type(float, varying.dtype)) for chans in channels]
+    if src.size:
+        part = _source_survivals(prep, vs, src, channels, occupancy[src], sizes[src], reach[:, src],
+                                 constant[:, src], varying[:, src])
+        for i, v in enumerate(victims):
+            out[i][src] = part[i][:, :channels[i].size]
+            out[i][v] = 1.0
+    return out
+
+
+def _source_survivals(prep, vs, src, channels, occupancy, sizes, reach, constant, varying) -> np.ndarray:
+    """(V, S', N) survivals of the chunk's victims vs against the sources src (per-source arrays already taken
+    at src); padded channels hold junk."""
     c = prep.n_channels
     w = (varying.shape[2] - 1) if reach.max(initial=-1) >= 0 else 0
     d = np.arange(-w, w + 1)
     longest = max(ch.size for ch in channels)
-    ch = np.full((len(victims), longest), -10 * (w + 1) - c)  # padding: off the grid, finds nothing
+    ch = np.full((len(vs), longest), -10 * (w + 1) - c)  # padding: off the grid, finds nothing
     for i, chans in enumerate(channels):
         ch[i, :chans.size] = chans
     at = ch[:, :, None] + d  # (V, N, D)
     on_grid = (at >= 0) & (at < c)
-    vs = np.asarray(victims)
     near_offset = np.abs(d)[None, None, :] <= reach[:, :, None]  # (V, S, D)
     present = occupancy[:, np.clip(at, 0, c - 1)] & on_grid  # (S, V, N, D)
     present = present.transpose(1, 0, 2, 3) & near_offset[:, :, None, :]  # (V, S, N, D)
-    alpha = prep.activity[None, :, None]
-    keep = 1.0 - alpha * varying[:, :, np.abs(d)]  # (V, S, D)
+    activity = prep.activity[src]
+    keep = 1.0 - activity[None, :, None] * varying[:, :, np.abs(d)]  # (V, S', D)
     near = present.sum(axis=3)
     far = sizes[None, :, None] - near
-    far_keep = (1.0 - prep.activity[None, :] * constant)[:, :, None]
-    k0, r = prep.overlap_k0[vs][:, :, None], prep.overlap_r[vs][:, :, None]
+    far_keep = (1.0 - activity[None, :] * constant)[:, :, None]
+    k0, r = prep.overlap_k0[vs][:, src, None], prep.overlap_r[vs][:, src, None]
     m_top = int(np.max(np.minimum(k0 + 1, sizes[None, :, None] - 1), initial=0))
     degree = max(0, min(m_top, int(near.max(initial=0))))
     if np.any(k0 + 1 >= sizes[None, :, None]):  # a whole pass over the hop set: the product of every factor
@@ -278,13 +312,8 @@ def _chunk_survivals(prep, victims, channels, occupancy, sizes, reach, constant,
     n = sizes[None, :, None]
     survive = (1.0 - r) * distinct_survival_weighted(k0, e, near, product, far, far_keep, n) \
         + r * distinct_survival_weighted(k0 + 1, e, near, product, far, far_keep, n)
-    survive[prep.harm.reach[vs] < 0] = 1.0
-    out = []
-    for i, v in enumerate(victims):
-        sv = survive[i][:, :channels[i].size].copy()
-        sv[v] = 1.0
-        out.append(sv)
-    return out
+    survive[prep.harm.reach[vs][:, src] < 0] = 1.0
+    return survive
 
 
 def _offset_counts(prefix: np.ndarray, channels: np.ndarray, lo, hi) -> np.ndarray:

@@ -23,6 +23,7 @@ Index conventions as `cohop.prepare`: [victim, source], offsets in grid channels
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -83,7 +84,12 @@ class HarmTables:
         return reach, constant, self.offset_harm(max(int(reach.max(initial=-1)), 0))
 
     def varying_reach(self) -> tuple[np.ndarray, np.ndarray]:
-        """(reach, constant) of `varying`, without the (S, S, W + 1) table."""
+        """(reach, constant) of `varying`, without the (S, S, W + 1) table; computed once per tables (read-only
+        arrays: every evaluation of the site asks for them)."""
+        return self._reach_and_constant
+
+    @cached_property
+    def _reach_and_constant(self) -> tuple[np.ndarray, np.ndarray]:
         constant = self.tail()
         n = self.system_levels.shape[0]
         last = self.steps[:, -1]
@@ -91,6 +97,8 @@ class HarmTables:
         is_const = (self.system_levels <= constant[:, :, None]) | (step_no > last[:, None, None])
         first_const = np.argmax(is_const, axis=2)  # the first step at the constant harm (found by step `last`)
         reach = np.stack([np.searchsorted(self.steps[v], first_const[v], side="left") for v in range(n)]) - 1
+        reach.flags.writeable = False
+        constant.flags.writeable = False
         return reach, constant
 
 

@@ -140,7 +140,8 @@ MAX_TRAFFIC_CELLS_TOTAL = 20_000_000
 #: Per-channel, per-source entries a "source" detail response may carry.
 MAX_SOURCE_DETAIL_ENTRIES = 500_000
 #: Cells of one evaluation's harm (`cohop.assess.harm_cells`): sum over victims of sources x hop-set channels x
-#: the steps of the victim's rejection table where some source's harm varies.
+#: the steps of the victim's rejection table where some source's harm varies, times 1 + the joint law's contour
+#: points at a Rician victim (`cohop.joint`; a joint cell costs 1 to 2 plain ones, measured).
 MAX_HARM_CELLS = 50_000_000
 # --- systems that move (positions, area) ---
 #: Positions listed for one moving system.
@@ -181,7 +182,9 @@ CAPS = (
                                                              "system's cap"),
     ("source-detail entries", MAX_SOURCE_DETAIL_ENTRIES, "per-channel breakdown by source (detail=source)"),
     ("harm evaluation cells", MAX_HARM_CELLS, "sum over victims of systems x hop-set channels x rejection-table "
-                                              "steps where the harm varies (fading-aware capture): about 2 s"),
+                                              "steps where the harm varies (fading-aware capture), times 1 + the "
+                                              "joint law's points at Rician victims (about 28 at K = 6 dB, 180 "
+                                              "at 20 dB): 2 to 5 s"),
     ("positions of one system", MAX_POSITIONS, "a rail or route given point by point; use area for more"),
     ("area grid points of one system", MAX_AREA_POINTS, "x samples x y samples (16 x 16): coarsen step_m"),
     ("sampled positions in all", MAX_SAMPLED_POSITIONS, "each is one more evaluation of its system as a victim "

@@ -70,6 +70,14 @@ def many_systems(n: int) -> dict:
     return {"site": body, "detail": "system"}
 
 
+def rician_systems(n: int, k_factor_db: float) -> dict:
+    """`many_systems` with every wanted signal Rician-faded: the joint law at every victim (`cohop.joint`)."""
+    body = many_systems(n)
+    for system in body["site"]["systems"]:
+        system["fading"] = {"model": "rician", "k_factor_db": k_factor_db}
+    return body
+
+
 def interferers(n: int) -> dict:
     site = small_site()
     site["interferers"] = [{"id": f"i{k}", "low_hz": 2402e6 + k * 1e5, "high_hz": 2402.1e6 + k * 1e5,

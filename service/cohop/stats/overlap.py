@@ -87,12 +87,29 @@ def survival(overlap: OverlapCount, hit_probability):
 
 
 def _log_choose(a, b):
-    """ln C(a, b) for 0 <= b <= a, -inf elsewhere; broadcasts (scipy.special.gammaln)."""
-    a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
+    """ln C(a, b) for 0 <= b <= a, -inf elsewhere, a and b whole numbers; broadcasts. ln k! comes from a table
+    of scipy.special.gammaln(k + 1) (looked up, not recomputed per element: this sits in the evaluation's
+    innermost loop)."""
+    a = np.asarray(a).astype(np.int64, copy=False)
+    b = np.asarray(b).astype(np.int64, copy=False)
     ok = (b >= 0) & (b <= a)
-    with np.errstate(invalid="ignore"):
-        out = gammaln(a + 1) - gammaln(b + 1) - gammaln(a - b + 1)
+    table = _log_factorials(int(a.max(initial=0)))
+    out = table[np.clip(a, 0, None)] - table[np.clip(b, 0, None)] - table[np.clip(a - b, 0, None)]
     return np.where(ok, out, -np.inf)
+
+
+_LOG_FACTORIALS = gammaln(np.arange(1, 4098, dtype=float))
+_LOG_FACTORIALS.flags.writeable = False
+
+
+def _log_factorials(top: int) -> np.ndarray:
+    """ln k! for k = 0 .. top (at least), read-only."""
+    global _LOG_FACTORIALS
+    if top >= _LOG_FACTORIALS.size:
+        table = gammaln(np.arange(1, 2 * top + 2, dtype=float))
+        table.flags.writeable = False
+        _LOG_FACTORIALS = table
+    return _LOG_FACTORIALS
 
 
 def distinct_survival_at(overlaps, harmful, size, activity):
@@ -199,7 +216,8 @@ def distinct_survival_weighted(k, near_e, near_count, near_product, far_count, f
     far = np.asarray(far_count, dtype=float)
     y_far = np.asarray(far_keep)
     y_far = y_far.astype(np.result_type(float, y_far.dtype, near_e.dtype), copy=False)  # complex: the joint law
-    full = near_product * y_far ** far  # prod of y over every channel
+    whole = bool(np.any(q > 0))  # some K covers the hop set at least once: the product over every channel counts
+    full = near_product * y_far ** far if whole else None  # prod of y over every channel
     shape = np.broadcast_shapes(np.shape(m), np.shape(far), np.shape(y_far), np.shape(n), np.shape(q),
                                 np.shape(near_product), near_e.shape[:-1])
     m, far, y_far, n = (np.broadcast_to(a, shape) for a in (m, far, y_far, n))
@@ -214,9 +232,13 @@ def distinct_survival_weighted(k, near_e, near_count, near_product, far_count, f
         ms, fs, ys = m[several], far[several], y_far[several]
         ln_all = _log_choose(n[several], ms)
         part = np.zeros(ms.shape, dtype=np.result_type(e.dtype, ys.dtype))
-        for j in range(e.shape[-1]):
+        top = e.shape[-1] - 1
+        power = ys ** np.maximum(ms - top, 0)  # y^max(m - j, 0), j from top down: one power, then products
+        for j in range(top, -1, -1):
             with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-                w = np.exp(_log_choose(fs, ms - j) - ln_all) * np.where(ms >= j, ys ** np.maximum(ms - j, 0), 0.0)
+                w = np.exp(_log_choose(fs, ms - j) - ln_all) * power
             part += np.where((ms >= j) & (j <= near), e[:, j] * w, 0.0)
+            if j:
+                power = np.where(ms >= j, power * ys, power)
         acc[several] = part
-    return full**q * acc
+    return full**q * acc if whole else acc
