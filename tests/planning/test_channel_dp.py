@@ -5,8 +5,9 @@ varying harm, the DP module's text): for every channel c a set t_c of systems, c
     sum_c sum_{v in t_c} (w_v q_v(c) / N_v - lambda_v)
   + sum over ordered pairs (v, a), v != a, at offset d in {0, 1}: w_v beta_va / (N_v N_a) offset_harm[v, a, d],
 and the kept constraints (allowed channels or pins, pins held, separation 2 between consecutive channels,
-guards of width 0 and 1). Every path over the channels is enumerated (common practice: exhaustive search as
-the reference for a dynamic programme).
+guards of width 0 and 1). With a history of two channels (`channel_dp.history_for`) offset 2 is kept as well:
+its pair costs, separation 3 and guards of width 2 between channels two apart. Every path over the channels
+is enumerated (common practice: exhaustive search as the reference for a dynamic programme).
 """
 
 from __future__ import annotations
@@ -31,8 +32,9 @@ def _instance(loss=30.0, sizes=(2, 2, 2), n_channels=5, seed=0, system=None, **r
     return inst
 
 
-def _relaxed_cost(inst, sets, lam, w) -> float | None:
-    """Cost of one path (a tuple of sets of systems, one per channel), None where a kept constraint fails."""
+def _relaxed_cost(inst, sets, lam, w, history: int = 1) -> float | None:
+    """Cost of one path (a tuple of sets of systems, one per channel), None where a kept constraint fails;
+    offsets 1 .. history between channels are kept."""
     s = inst.n_systems
     total = 0.0
     for k, t in enumerate(sets):
@@ -48,20 +50,21 @@ def _relaxed_cost(inst, sets, lam, w) -> float | None:
         for v, a, g in inst.guards:
             if v in t and a in t:
                 return None
-        if k == 0:
-            continue
-        prev = sets[k - 1]
-        for v in prev:
-            if v in t and inst.separation[v] >= 2:
-                return None
-        for v, a, g in inst.guards:
-            if g >= 1 and ((v in prev and a in t) or (a in prev and v in t)):
-                return None
-        for v in prev:
-            for a in t:
-                if v == a:
-                    continue
-                total += w[v] * _pair(inst, v, a, 1) + w[a] * _pair(inst, a, v, 1)
+        for d in range(1, history + 1):
+            if k < d:
+                continue
+            prev = sets[k - d]
+            for v in prev:
+                if v in t and inst.separation[v] >= d + 1:
+                    return None
+            for v, a, g in inst.guards:
+                if g >= d and ((v in prev and a in t) or (a in prev and v in t)):
+                    return None
+            for v in prev:
+                for a in t:
+                    if v == a:
+                        continue
+                    total += w[v] * _pair(inst, v, a, d) + w[a] * _pair(inst, a, v, d)
     return total
 
 
@@ -71,48 +74,67 @@ def _pair(inst, v: int, a: int, d: int) -> float:
     return float(inst.beta[v, a] / (inst.sizes[v] * inst.sizes[a]) * harm)
 
 
-def _enumerate(inst, lams, w) -> np.ndarray:
+def _enumerate(inst, lams, w, history: int = 1) -> np.ndarray:
     """The least relaxed cost over every path, for each row of multipliers `lams` (cost is linear in them)."""
     s = inst.n_systems
     subsets = [frozenset(t) for r in range(s + 1) for t in itertools.combinations(range(s), r)]
     zero = np.zeros(s)
     base, counts = [], []
     for sets in itertools.product(subsets, repeat=inst.n_channels):
-        cost = _relaxed_cost(inst, sets, zero, w)
+        cost = _relaxed_cost(inst, sets, zero, w, history)
         if cost is not None:
             base.append(cost)
             counts.append([sum(v in t for t in sets) for v in range(s)])
     return (np.array(base)[None, :] - np.asarray(lams) @ np.array(counts, float).T).min(axis=1)
 
 
-def _check(inst, lams, w) -> None:
-    rel = channel_dp.relax(inst)
-    expected = _enumerate(inst, lams, w)
+def _check(inst, lams, w, history: int = 1) -> None:
+    rel = channel_dp.relax(inst, history)
+    expected = _enumerate(inst, lams, w, history)
     for lam, value in zip(lams, expected):
         sol = channel_dp.solve(rel, lam, w)
         assert sol.value == pytest.approx(value, abs=1e-12)
         sets = [frozenset(np.flatnonzero(sol.x[:, k]).tolist()) for k in range(inst.n_channels)]
-        assert _relaxed_cost(inst, sets, lam, w) == pytest.approx(sol.value, abs=1e-12)  # the path is as claimed
+        assert _relaxed_cost(inst, sets, lam, w, history) == pytest.approx(sol.value, abs=1e-12)  # as claimed
 
 
+@pytest.mark.parametrize("history", [1, 2])
 @pytest.mark.parametrize("loss", [30.0, 40.0, 50.0, 60.0, 20.0])
-def test_dp_matches_enumeration_on_random_multipliers(loss):
+def test_dp_matches_enumeration_on_random_multipliers(loss, history):
     inst = _instance(loss=loss, seed=int(loss))
     rng = np.random.default_rng(int(loss))
-    _check(inst, rng.uniform(-0.05, 0.4, (6, inst.n_systems)), inst.weights.astype(float))
+    _check(inst, rng.uniform(-0.05, 0.4, (6, inst.n_systems)), inst.weights.astype(float), history)
 
 
-def test_dp_keeps_pins_exclusions_separation_and_guards():
+@pytest.mark.parametrize("history", [1, 2])
+def test_dp_keeps_pins_exclusions_separation_and_guards(history):
     inst = _instance(loss=40.0, seed=3, r0={"pinned_channels": (1,)}, r2={"excluded_channels": (0, 4)})
-    inst.separation = np.array([1, 2, 2])
-    inst.guards = [(0, 2, 1)]
+    inst.separation = np.array([1, 2, 3])
+    inst.guards = [(0, 2, 1), (0, 1, 2)]
     rng = np.random.default_rng(5)
-    _check(inst, rng.uniform(0.0, 0.5, (6, 3)), np.array([1.0, 2.0, 0.5]))
+    _check(inst, rng.uniform(0.0, 0.5, (6, 3)), np.array([1.0, 2.0, 0.5]), history)
+
+
+def test_history_two_is_chosen_where_affordable_and_bounds_higher():
+    # Few systems: the pair DP; its optimum is at least the single-channel DP's at every multiplier (it keeps
+    # offset-2 costs, >= 0, that the other drops), and the dropped list starts at offset 3.
+    inst = _instance(loss=30.0, seed=11)
+    assert channel_dp.history_for(inst) == 2
+    two, one = channel_dp.relax(inst), channel_dp.relax(inst, 1)
+    assert two.history == 2 and two.dropped.offsets_from == 3 and one.dropped.offsets_from == 2
+    w = inst.weights.astype(float)
+    rng = np.random.default_rng(11)
+    gains = []
+    for lam in rng.uniform(0.0, 0.4, (8, 3)):
+        a, b = channel_dp.solve(two, lam, w), channel_dp.solve(one, lam, w)
+        assert a.value >= b.value - 1e-12
+        gains.append(a.value - b.value)
+    assert max(gains) > 0  # soft harm at offset 2: some multipliers see it
 
 
 def test_dense_and_compiled_scans_agree(monkeypatch):
     inst = _instance(loss=40.0, sizes=(3, 2, 3), n_channels=8, seed=7)
-    rel = channel_dp.relax(inst)
+    rel = channel_dp.relax(inst, 1)
     lam = np.array([0.3, 0.2, 0.35])
     dense = channel_dp.solve(rel, lam, inst.weights.astype(float))
     monkeypatch.setattr(channel_dp, "DENSE_PAIRS", -1)
@@ -131,7 +153,7 @@ def test_relaxed_cost_is_the_objective_when_nothing_is_dropped():
     (`planning.linear`)."""
     inst = _instance(loss=40.0, sizes=(2, 2, 2), n_channels=6, system=SHALLOW)
     assert inst.window.max() == 1 and (inst.constant_harm[~np.eye(3, dtype=bool)] > 0).all()
-    rel = channel_dp.relax(inst)
+    rel = channel_dp.relax(inst, 1)
     assert not rel.dropped.pairs
     x = occupancy([[0, 3], [1, 3], [2, 5]], 3, 6)
     np.testing.assert_allclose(rel.per_victim(x), system_estimates(inst, x), rtol=1e-12)
@@ -140,7 +162,7 @@ def test_relaxed_cost_is_the_objective_when_nothing_is_dropped():
 def test_wider_windows_are_dropped_and_listed():
     """Unfaded (harm 1 inside the threshold window), only the strongest pair's window reaches offset 2."""
     inst = _instance(loss=30.0, system={"fading": "none"})
-    dropped = channel_dp.relax(inst).dropped
+    dropped = channel_dp.relax(inst, 1).dropped
     assert {(v, a, d) for v, a, d, _ in dropped.pairs} == {(0, 2, 2), (2, 0, 2)}
     assert "offsets >= 2" in dropped.describe(inst.ids)
 
@@ -149,7 +171,7 @@ def test_soft_harm_beyond_offset_1_is_dropped_at_its_cost():
     """Faded, every pair's harm varies beyond offset 1: each dropped pair is listed with its varying cost
     beta_va / (N_v N_a) x offset_harm[v, a, d]."""
     inst = _instance(loss=30.0)
-    dropped = channel_dp.relax(inst).dropped
+    dropped = channel_dp.relax(inst, 1).dropped
     expected = {(v, a, d) for v in range(3) for a in range(3) for d in range(2, int(inst.window[v, a]) + 1)}
     assert {(v, a, d) for v, a, d, _ in dropped.pairs} == expected and expected
     for v, a, d, cost in dropped.pairs:
@@ -173,7 +195,7 @@ def test_the_compiled_scan_gives_up_past_its_work(monkeypatch):
     # The scan counts the pairs it evaluates; past the work the solve has left it gives up (no bound from it,
     # over_budget), where a count says, so a budget repeats exactly; with room it finds the same optimum.
     inst = _instance(loss=40.0, sizes=(3, 2, 3), n_channels=8, seed=7)
-    rel = channel_dp.relax(inst)
+    rel = channel_dp.relax(inst, 1)
     lam = np.array([0.3, 0.2, 0.35])
     w = inst.weights.astype(float)
     monkeypatch.setattr(channel_dp, "DENSE_PAIRS", -1)

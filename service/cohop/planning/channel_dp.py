@@ -11,6 +11,12 @@ cost of the pairs inside t and P1(s, t) the offset-1 cost of the pairs across
 two consecutive channels (both directions; `pair_offset_costs`). The minimum
 over such paths is found exactly by a DP whose states are the sets.
 
+With few systems (`history_for`) the states are the sets of two consecutive
+channels instead (`_forward_pairs`), which adds P2(t_{c-2}, t_c), the offset-2
+cost, to the sum: offsets 0 to 2 are kept and only offsets >= 3 dropped
+(separation 3 and guards of width 2 are kept at offset 2 as well). The text
+below describes the one-channel form; the pruning is the same in both.
+
 What the relaxed problem keeps and what it drops (so every bound stays valid):
 
 - kept exactly: allowed channels, pins, pair costs at offsets 0 and 1,
@@ -54,8 +60,20 @@ from cohop.planning.instance import PlanningInstance
 from cohop.planning.jit import njit
 from cohop.planning.linear import varying_harm
 
-#: Offsets the DP carries: 0 (co-channel) and 1 (consecutive channels).
+#: Offsets the DP over single channels' sets carries: 0 (co-channel) and 1 (consecutive channels).
 KEPT_OFFSETS = 2
+#: The DP over the sets of two consecutive channels (`_forward_pairs`: offsets 0, 1 and 2 kept) is used when its
+#: worst case, (2^S)^3 triples of states per channel times the channels, stays within this many (S <= 5 on up to
+#: 900 channels, S = 6 on up to 110): the sites with few systems, where offset 2 is a large share of the
+#: objective under soft harm (9 % of the small bench site's plan, 7 % of the water-works sample's).
+PAIR_DP_TRIPLES = 30_000_000
+
+
+def history_for(inst: PlanningInstance) -> int:
+    """Channels of history the DP's states hold: 2 (offsets 0 to 2 kept) when affordable, else 1."""
+    if inst.n_systems <= 20 and (2 ** inst.n_systems) ** 3 * inst.n_channels <= PAIR_DP_TRIPLES:
+        return 2
+    return 1
 #: At most this many systems: states are bit masks in 64-bit integers.
 MAX_SYSTEMS = 62
 
@@ -171,7 +189,7 @@ class Relaxation:
 
     inst: PlanningInstance
     node: np.ndarray  # (S, C) q_v(c) / N_v, unweighted
-    u: np.ndarray  # (2, S, S) unweighted per-victim cost at offsets 0 and 1
+    u: np.ndarray  # (history + 1, S, S) unweighted per-victim cost at offsets 0 .. history
     constant: np.ndarray  # (S,) per-victim constant (the constant part of the harm)
     channel_class: np.ndarray  # (C,) class of each channel
     class_allowed: np.ndarray  # (K,) int64 masks of systems allowed (or pinned) on the class's channels
@@ -183,6 +201,9 @@ class Relaxation:
     dropped: Dropped
     feasible: bool = True  # False when the kept constraints alone leave no plan (pins that clash)
     notes: list[str] = field(default_factory=list)
+    history: int = 1  # channels of history in a state: 2 keeps offset 2 too (`_forward_pairs`)
+    sep3_mask: int = 0  # systems that may not hold two channels two apart (separation >= 3; history 2 only)
+    g2: np.ndarray | None = None  # (S,) int64: guards of width >= 2, enforced at offset 2 (history 2 only)
 
     @property
     def n_systems(self) -> int:
@@ -192,26 +213,31 @@ class Relaxation:
     def n_channels(self) -> int:
         return self.node.shape[1]
 
-    def weighted(self, weights: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """(P0, P1): symmetric weighted pair costs at offsets 0 and 1."""
-        return symmetric(self.u[0], weights), symmetric(self.u[1], weights)
+    def weighted(self, weights: np.ndarray) -> tuple[np.ndarray, ...]:
+        """(P0, P1[, P2]): symmetric weighted pair costs at the kept offsets."""
+        return tuple(symmetric(u, weights) for u in self.u)
 
     def per_victim(self, x: np.ndarray) -> np.ndarray:
-        """Each victim's relaxed cost on an occupancy x (any counts): node, offsets 0 and 1, constant."""
+        """Each victim's relaxed cost on an occupancy x (any counts): node, the kept offsets, constant."""
         xf = x.astype(float)
         co = xf @ xf.T
-        adj = xf[:, :-1] @ xf[:, 1:].T
-        adj = adj + adj.T
         np.fill_diagonal(co, 0.0)
-        return (self.node * xf).sum(axis=1) + (self.u[0] * co).sum(axis=1) + (self.u[1] * adj).sum(axis=1) \
-            + self.constant
+        out = (self.node * xf).sum(axis=1) + (self.u[0] * co).sum(axis=1) + self.constant
+        for d in range(1, self.u.shape[0]):
+            near = xf[:, :-d] @ xf[:, d:].T
+            out = out + (self.u[d] * (near + near.T)).sum(axis=1)
+        return out
 
 
-def relax(inst: PlanningInstance) -> Relaxation:
+def relax(inst: PlanningInstance, history: int | None = None) -> Relaxation:
+    """The relaxed problem; `history` (1 or 2, default `history_for`) the channels a DP state holds."""
     s, c = inst.n_systems, inst.n_channels
     if s > MAX_SYSTEMS:
         raise ValueError(f"the channel DP takes at most {MAX_SYSTEMS} systems")
-    u = pair_offset_costs(inst, KEPT_OFFSETS - 1)
+    history = history_for(inst) if history is None else int(history)
+    if history not in (1, 2):
+        raise ValueError("history must be 1 or 2")
+    u = pair_offset_costs(inst, history)
     pool = inst.allowed | inst.pinned
     node = np.where(pool, inst.node_coef(), 0.0)
     keys: dict[tuple, int] = {}
@@ -220,25 +246,29 @@ def relax(inst: PlanningInstance) -> Relaxation:
         key = (pool[:, k].tobytes(), inst.pinned[:, k].tobytes(), np.round(node[:, k], 15).tobytes())
         channel_class[k] = keys.setdefault(key, len(keys))
     first = np.array([int(np.flatnonzero(channel_class == k)[0]) for k in range(len(keys))], dtype=int)
-    g0 = np.zeros(s, dtype=np.int64)
-    g1 = np.zeros(s, dtype=np.int64)
-    for v, a, w in inst.guards:
-        if w >= 0:
-            g0[v] |= np.int64(1) << a
-            g0[a] |= np.int64(1) << v
-        if w >= 1:
-            g1[v] |= np.int64(1) << a
-            g1[a] |= np.int64(1) << v
+    g0, g1, g2 = (_guard_masks(inst, width) for width in (0, 1, 2))
     sep_mask = int(_masks((inst.separation >= 2)[:, None])[0])
+    sep3_mask = int(_masks((inst.separation >= 3)[:, None])[0]) if history == 2 else 0
     out = Relaxation(inst=inst, node=node, u=u, constant=constant_per_victim(inst), channel_class=channel_class,
                      class_allowed=_masks(pool[:, first]), class_pinned=_masks(inst.pinned[:, first]),
                      class_node=node[:, first].T.copy(), sep_mask=sep_mask, g0=g0, g1=g1,
-                     dropped=dropped_terms(inst))
+                     dropped=dropped_terms(inst, history + 1), history=history, sep3_mask=sep3_mask,
+                     g2=g2 if history == 2 else None)
     for k in range(len(keys)):
         pins = inst.pinned[:, first[k]]
         if any(g0[v] & out.class_pinned[k] for v in np.flatnonzero(pins)):
             out.feasible = False
             out.notes.append("pins on one channel clash with a guard")
+    return out
+
+
+def _guard_masks(inst: PlanningInstance, width: int) -> np.ndarray:
+    """(S,) int64: the systems each system may not meet at offset `width` (guards at least that wide)."""
+    out = np.zeros(inst.n_systems, dtype=np.int64)
+    for v, a, w in inst.guards:
+        if w >= width:
+            out[v] |= np.int64(1) << a
+            out[a] |= np.int64(1) << v
     return out
 
 
@@ -447,6 +477,66 @@ def _forward_dense(rel: "Relaxation", lo, hi, mask, cost, member, p1, g1):
     return best, path, work
 
 
+def _forward_pairs(rel: "Relaxation", lo, hi, mask, cost, member, p1, p2, g1, g2):
+    """The DP with history 2: V_c[i, j] is the least cost of a path whose sets on channels c - 1 and c are
+    states i and j, so the offset-2 cost between channels c - 2 and c is exact:
+
+        V_c[i, j] = cost[j] + T1(i, j) + min_h (V_{c-1}[h, i] + T2(h, j))
+
+    T1 and T2 the offset-1 and offset-2 costs between two states (inf where separation or a guard forbids:
+    separation >= 2 at offset 1, >= 3 at offset 2; guards of width >= 1 and >= 2), each built once per pair of
+    channel classes. Dense numpy: the work is the (h, i, j) triples, sum over channels of the three classes'
+    state counts. Returns (value, path of global state indices, triples)."""
+    classes = rel.channel_class
+    n_ch = classes.size
+    memf = member.astype(float)
+    cache: dict[tuple, np.ndarray] = {}
+
+    def between(kp: int, k: int, d: int) -> np.ndarray:  # [state on c - d, state on c]
+        key = (kp, k, d)
+        if key not in cache:
+            a, b = slice(lo[kp], hi[kp]), slice(lo[k], hi[k])
+            t = memf[a] @ (p1 if d == 1 else p2) @ memf[b].T
+            sep = np.int64(rel.sep_mask if d == 1 else rel.sep3_mask)
+            if sep != 0:
+                t[(mask[a][:, None] & mask[b][None, :] & sep) != 0] = np.inf
+            guard = (g1 if d == 1 else g2)[a]
+            if guard.any():
+                t[(guard[:, None] & mask[b][None, :]) != 0] = np.inf
+            cache[key] = t
+        return cache[key]
+
+    path = np.full(n_ch, -1, np.int64)
+    k0 = classes[0]
+    first = cost[lo[k0]:hi[k0]]
+    if n_ch == 1:
+        j = int(np.argmin(first))
+        path[0] = lo[k0] + j
+        return float(first[j]), path, first.size
+    k1 = classes[1]
+    value = first[:, None] + between(k0, k1, 1) + cost[lo[k1]:hi[k1]][None, :]
+    work = value.size
+    args = []
+    for c in range(2, n_ch):
+        kpp, kp, k = classes[c - 2], classes[c - 1], classes[c]
+        triples = value[:, :, None] + between(kpp, k, 2)[:, None, :]  # [h, i, j]
+        arg = np.argmin(triples, axis=0)
+        best = np.take_along_axis(triples, arg[None], axis=0)[0]
+        value = best + between(kp, k, 1) + cost[lo[k]:hi[k]][None, :]
+        args.append(arg)
+        work += triples.size
+    i, j = np.unravel_index(int(np.argmin(value)), value.shape)
+    total = float(value[i, j])
+    if not np.isfinite(total):
+        return np.inf, path, work
+    path[n_ch - 1], path[n_ch - 2] = lo[classes[n_ch - 1]] + j, lo[classes[n_ch - 2]] + i
+    for c in range(n_ch - 1, 1, -1):
+        h = int(args[c - 2][i, j])
+        path[c - 2] = lo[classes[c - 2]] + h
+        i, j = h, i
+    return total, path, work
+
+
 #: Above this many (previous state, next state) pairs in a class transition, the compiled scan (`_forward`)
 #: replaces the dense min-plus products.
 DENSE_PAIRS = 16_000_000
@@ -473,6 +563,9 @@ def transition_estimate(rel: Relaxation, class_sizes: np.ndarray) -> float:
     compiled scan: SCAN_SHARE of those pairs (the scans by increasing value stop early; the shares are rounded
     up from what they scanned on the medium bench site, 1.2 % of 11 billion pairs at 24 687 states)."""
     sizes = class_sizes[rel.channel_class].astype(float)
+    if rel.history == 2:  # `_forward_pairs`: exactly its triples
+        return float(sizes[0] * sizes[1] + (sizes[:-2] * sizes[1:-1] * sizes[2:]).sum()) if sizes.size > 1 \
+            else float(sizes.sum())
     pairs = float(sizes[:-1] @ sizes[1:])
     if float(class_sizes.max(initial=0)) ** 2 > DENSE_PAIRS:
         return SCAN_SHARE * pairs
@@ -497,7 +590,8 @@ def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STAT
     s = rel.n_systems
     if not rel.feasible:
         return PathSolution(np.inf, None, 0, 0, 0)
-    p0, p1 = rel.weighted(weights)
+    p = rel.weighted(weights)
+    p0, p1 = p[0], p[1]
     n_classes = rel.class_allowed.size
     masks, costs, lo, hi = [], [], np.zeros(n_classes, np.int64), np.zeros(n_classes, np.int64)
     total = 0
@@ -537,7 +631,12 @@ def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STAT
     rank = np.arange(rows.size) - np.searchsorted(rows, rows)
     members[rows, rank] = cols
     widest = int((hi - lo).max(initial=0))
-    if widest * widest <= DENSE_PAIRS:
+    if rel.history == 2:
+        g2 = np.bitwise_or.reduce(np.where(member, rel.g2[None, :], 0), axis=1) if s else np.zeros(mask.size,
+                                                                                                  np.int64)
+        value, path, scanned = _forward_pairs(rel, lo, hi, mask, cost, member, p1, p[2], g1.astype(np.int64),
+                                              g2.astype(np.int64))
+    elif widest * widest <= DENSE_PAIRS:
         value, path, scanned = _forward_dense(rel, lo, hi, mask, cost, member, p1, g1.astype(np.int64))
     else:
         sizes = (hi - lo)[rel.channel_class]
