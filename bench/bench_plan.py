@@ -3,7 +3,7 @@
 Each instance runs in a child process so that its peak memory (max RSS) is
 its own. Prints tables; asserts nothing. Usage:
 
-    python bench/bench_plan.py            # the full table and medium's convergence (about 5 minutes on 2 cores)
+    python bench/bench_plan.py            # the full table, medium's convergence and its 100 s plan (about 8 minutes)
     python bench/bench_plan.py --quick    # small, sample and medium, and medium's convergence
 
 Targets (issue "The planner engine", 2 cores): proven gap on medium <= 3 % in 10 s, on the sample <= 2 %, on
@@ -160,6 +160,11 @@ def main(quick: bool) -> None:
               + ", ".join(f"{k} {v:.4f}" for k, v in r["bounds"].items()))
     if quick:
         return
+    print("\n== medium's 10 s plan against its own 100 s plan (target: within 0.5 %) ==")
+    ten, hundred = _child("size", "medium", 1, 10.0), _child("size", "medium", 1, 100.0)
+    print(f"  10 s: objective {ten['objective']:.5f}, bound {ten['bound']:.5f}; 100 s: objective "
+          f"{hundred['objective']:.5f}, bound {hundred['bound']:.5f}, wall {hundred['wall_s']:.1f} s; "
+          f"10 s / 100 s objective {ten['objective'] / hundred['objective']:.4f}; gap at 100 s {_pct(hundred['gap'])}")
     print("\n== scaling (limit 5 s; each system takes a fifth of the channels) ==")
     for arg in ("5x260", "10x260", "20x260", "40x260", "15x130", "15x520", "15x1040"):
         r = _child("scale", arg, 0, 5.0)

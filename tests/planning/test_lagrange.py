@@ -74,3 +74,15 @@ def test_bound_below_best_plan_on_random_sites(losses, n, per, seed):
     best = objective_value(inst, system_estimates(inst, x))
     result = lagrange.lagrangian_bound(inst, best, max_iterations=60)
     assert result.bound <= best + 1e-12
+
+
+def test_a_solve_that_would_pass_the_wall_clock_window_is_not_started():
+    # One DP solve cannot be interrupted: with no wall-clock time left in the phase's window none starts (the
+    # result says the window stopped it); with ample time the window changes nothing (same bound, same work).
+    inst = _inst(40.0, (2, 3, 2), 7)
+    upper = objective_value(inst, system_estimates(inst, search.improve(inst, search.greedy(inst))))
+    capped = lagrange.lagrangian_bound(inst, upper, max_iterations=50, seconds_left=lambda: 0.0)
+    assert capped.wall_capped and capped.bound == 0.0 and "wall-clock window" in capped.notes[0]
+    free = lagrange.lagrangian_bound(inst, upper, max_iterations=50)
+    roomy = lagrange.lagrangian_bound(inst, upper, max_iterations=50, seconds_left=lambda: 1e6)
+    assert not roomy.wall_capped and roomy.bound == free.bound and roomy.work == free.work

@@ -300,10 +300,18 @@ class _Windows:
         self.start = time.monotonic()
         self.window = budget.left()
 
-    def stopper(self, phase: str, shares: dict, name: str) -> Callable[[], bool]:
+    def _end(self, shares: dict, name: str) -> float:
         names = list(shares)
-        cumulative = sum(shares[k] for k in names[:names.index(name) + 1])
-        end = self.start + cumulative * self.window
+        return self.start + sum(shares[k] for k in names[:names.index(name) + 1]) * self.window
+
+    def seconds_left(self, shares: dict, name: str) -> Callable[[], float]:
+        """Wall-clock seconds left in the phase's window (and the search's): what an uninterruptible step
+        may still take."""
+        end = self._end(shares, name)
+        return lambda: max(0.0, min(end - time.monotonic(), self.budget.left()))
+
+    def stopper(self, phase: str, shares: dict, name: str) -> Callable[[], bool]:
+        end = self._end(shares, name)
 
         def stop() -> bool:
             if time.monotonic() >= end:
@@ -325,7 +333,8 @@ class _Renamed:
 
 
 def _lagrange_phase(inst: PlanningInstance, x: np.ndarray, quick: bound.BoundResult | None, budget: Budget,
-                    shares: dict, clock: _Clock, notes: list[str], gap: float, stop: Callable[[], bool]):
+                    shares: dict, clock: _Clock, notes: list[str], gap: float, stop: Callable[[], bool],
+                    seconds_left: Callable[[], float] | None = None):
     """The Lagrangian bound from the column generation's duals (`warm`), then local search from its DP plans (repaired to the
     counts). Returns (bound or None, the best plan, whether a plan from the bound won)."""
     deadline = budget.deadline
@@ -337,7 +346,7 @@ def _lagrange_phase(inst: PlanningInstance, x: np.ndarray, quick: bound.BoundRes
     relaxation.hint(x)
     out = relaxation.solve(formulation.SolveLimits(budget, budget.work(shares["lagrange"]), max(gap, OPTIMAL_GAP),
                                                    on_bound=lambda b: clock.tell("lagrangian bound", bound=b),
-                                                   stop=stop))
+                                                   stop=stop, seconds_left=seconds_left))
     deadline.count("dp_operations", out.work)
     notes.extend(out.notes)
     if out.bound is None or out.x is None or _proven(value, out.bound, gap):
@@ -437,7 +446,8 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
         notes.append("Lagrangian bound skipped: its share of this time limit is below one uninterruptible DP solve")
     elif shares["lagrange"] > 0 and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
         lb, x, won = _lagrange_phase(inst, x, warm, budget, shares, clock, notes, gap,
-                                     windows.stopper("lagrangian bound", shares, "lagrange"))
+                                     windows.stopper("lagrangian bound", shares, "lagrange"),
+                                     windows.seconds_left(shares, "lagrange"))
         if lb is not None:
             bounds["lagrangian"] = lb
         if won:

@@ -49,6 +49,7 @@ class SolveLimits:
     on_solution: Callable[[float], None] | None = None
     on_bound: Callable[[float], None] | None = None
     stop: Callable[[], bool] | None = None  # an earlier wall-clock stop than the budget's (a phase's window)
+    seconds_left: Callable[[], float] | None = None  # wall-clock seconds left in the phase's window
 
 
 class Formulation(Protocol):
@@ -123,7 +124,10 @@ class LagrangianBound:
                                            dual_weights=self.dual_weights, seconds=limits.work_s,
                                            stop=lambda: any(s() for s in stops),
                                            target=upper * (1.0 - limits.gap) if math.isfinite(upper) else None,
-                                           on_bound=limits.on_bound, theta=self.theta)
+                                           on_bound=limits.on_bound, theta=self.theta,
+                                           seconds_left=limits.seconds_left)
+        if result.wall_capped:
+            limits.budget.deadline.record_stop("Lagrangian bound")
         if not result.solved:
             return Outcome(None, None, "out of reach", work=result.work, notes=result.notes)
         notes = result.notes + [f"Lagrangian bound: {result.iterations} DP solve(s), "

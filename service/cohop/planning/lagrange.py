@@ -26,6 +26,7 @@ transition pairs (`channel_dp.PathSolution.work`), so a budget repeats exactly.
 from __future__ import annotations
 
 import math
+import time
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -46,6 +47,11 @@ THETA0 = 1.0
 THETA_NEAR = 0.2
 #: Deflected subgradient: each step follows g + DEFLECTION times the previous direction (damps the zigzag).
 DEFLECTION = 0.0
+#: DP operations per wall second assumed for a call's first solve when the phase's wall-clock window caps it
+#: (`seconds_left`): half of WORK_PER_SECOND, since one solve cannot be interrupted and the DP's rate varies
+#: (0.8 to 1.6 x 10^8 per second measured on one slow shared machine, medium site); later solves use the rate
+#: the previous solve reached.
+FIRST_SOLVE_RATE = 0.5 * WORK_PER_SECOND
 #: Keep the DP plans of this many multipliers (those whose counts lie closest to the requirement) as starts.
 KEEP_PLANS = 3
 
@@ -61,6 +67,7 @@ class LagrangeResult:
     dropped: channel_dp.Dropped | None = None
     plans: list[np.ndarray] = field(default_factory=list)  # DP paths (wrong counts) to repair into starts
     notes: list[str] = field(default_factory=list)
+    wall_capped: bool = False  # a solve was refused because it would have passed the phase's wall-clock window
 
 
 def victim_weights(inst: PlanningInstance, dual_weights: np.ndarray | None) -> np.ndarray:
@@ -88,13 +95,16 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
                      dual_weights: np.ndarray | None = None, seconds: float | None = None,
                      max_iterations: int = 10_000, stop: Callable[[], bool] | None = None,
                      target: float | None = None, on_bound: Callable[[float], None] | None = None,
-                     theta: float = THETA0) -> LagrangeResult:
+                     theta: float = THETA0, seconds_left: Callable[[], float] | None = None) -> LagrangeResult:
     """Maximise L(lambda) from `start` (the column generation's multipliers; zeros if None).
 
     `upper` is the best plan's objective (Polyak's target). It stops after `max_iterations`, when one more DP
     solve as costly as the last would take its work past `seconds` worth of WORK_PER_SECOND, when `stop()` (the wall clock) says so, or as soon as the bound
     reaches `target` (the plan is then proven within the requested gap). `theta` is the first step factor:
-    smaller when the start is near the optimum (the duals of a converged or nearly converged windowed LP)."""
+    smaller when the start is near the optimum (the duals of a converged or nearly converged windowed LP).
+    `seconds_left` (wall-clock seconds left in the phase's window) caps each solve's work too, at the rate the
+    previous solve reached (FIRST_SOLVE_RATE for the first): a solve cannot be interrupted, so on a machine
+    slower than the calibration one that would overrun the window is not started (`wall_capped`)."""
     s = inst.n_systems
     if s > channel_dp.MAX_SYSTEMS:
         return LagrangeResult(0.0, None, 0, 0.0, False, False,
@@ -108,9 +118,20 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
     plans: list[tuple[float, int, np.ndarray]] = []
     converged, it = False, 0
     direction = None
+    rate = FIRST_SOLVE_RATE
     for it in range(1, max_iterations + 1):
-        value, sol = value_at(rel, lam, weights, max_work=budget - work)
+        by_wall = math.inf if seconds_left is None else seconds_left() * rate
+        started = time.monotonic()
+        value, sol = value_at(rel, lam, weights, max_work=min(budget - work, by_wall))
+        elapsed = time.monotonic() - started
         work += sol.work
+        if sol.over_budget and by_wall < budget - work + sol.work:  # the window, not the work budget, refused it
+            return LagrangeResult(max(best, 0.0), best_lam if math.isfinite(best) else None, it, work,
+                                  math.isfinite(best), False, rel.dropped, [p for _, _, p in plans],
+                                  notes=["Lagrangian bound stopped: the next DP solve would have passed its "
+                                         "wall-clock window (a machine slower than calibrated)"], wall_capped=True)
+        if sol.complete and sol.work >= 1e6 and elapsed > 0:
+            rate = sol.work / elapsed
         if sol.over_budget and math.isfinite(best) and theta >= MIN_THETA:
             # the step overshot into a costly region (many states): halve it back towards the best multipliers
             lam, theta = 0.5 * (lam + best_lam), theta / 2.0
