@@ -48,9 +48,14 @@ def packets_for(prep: PreparedSite, requested: int) -> int:
 #: prints them measured beside these estimates): the construction per channel held; the analysis besides
 #: the longest-run search (a base, per system, per ordered pair of systems); that search per (time offset
 #: x hop) cell (at most `analysis.RUN_CELLS` in all) and per cell inside the window of the exact search of
-#: equal-dwell pairs (at most `analysis.DIAGONAL_WORK`); and one retry simulation per system, per packet and
-#: system, and per packet, system and other system. Three simulations run (planned order, ascending
-#: order, common pattern).
+#: equal-dwell pairs (at most `analysis.DIAGONAL_WORK`); and one retry simulation per system, per simulated
+#: hop (packets x (retry limit + 1) x hops per attempt, summed over the systems) and per simulated hop and
+#: source within reach of harm (`prep.harm.reach`; with soft harm most pairs). Three simulations run
+#: (planned order, ascending order, common pattern). The two simulation figures were fitted (non-negative
+#: least squares, scaled up so that none of the six sites ran over) to one simulation timed on the small,
+#: medium and large bench sites and the three samples: the estimate is 1.0 to 3.1 x what they took; the
+#: former per-packet figures (3e-6 s per system, 4e-8 s per pair) read 0.25 to 0.5 x under soft harm
+#: (medium: 0.29 s for a simulation that took 1.13 s).
 CONSTRUCT_PER_CHANNEL_S = 2.5e-5
 ANALYSIS_BASE_S = 3e-3
 ANALYSIS_PER_SYSTEM_S = 5e-4
@@ -58,8 +63,8 @@ ANALYSIS_PER_PAIR_S = 2e-5
 RUN_CELL_S = 5e-8
 DIAGONAL_CELL_S = 1.5e-7
 SIM_SYSTEM_S = 1e-3
-SIM_PACKET_S = 3e-6
-SIM_SOURCE_S = 4e-8
+SIM_HOP_S = 3e-6
+SIM_HOP_SOURCE_S = 5.8e-8
 SIM_RUNS = 3
 #: The least work the sequences do however short the time limit.
 MIN_PACKETS = 200
@@ -101,6 +106,14 @@ def _diagonal_cells(prep: PreparedSite, sizes) -> int:
     return int(min(cells[equal & (prep.window >= 0)].sum(), analysis.DIAGONAL_WORK))
 
 
+def _simulated_hop_cost(prep: PreparedSite) -> float:
+    """Seconds of one retry simulation per packet: each system's hops per packet (retry limit + 1 attempts of
+    hops_per_attempt), each also per source within reach of its harm."""
+    hops = np.array([(s.retry_limit + 1) * s.hops_per_attempt for s in prep.site.systems], dtype=float)
+    sources = ((prep.harm.reach >= 0) & ~np.eye(prep.n_systems, dtype=bool)).sum(axis=1)
+    return float(SIM_HOP_S * hops.sum() + SIM_HOP_SOURCE_S * hops @ sources)
+
+
 def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: float | None = None,
                   reason: str = "to keep the time limit") -> SequenceWork:
     """The full work (RUN_PHASES offsets, `packets_for` packets) if it fits in `seconds`; otherwise what
@@ -119,7 +132,7 @@ def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: fl
              + SIM_RUNS * SIM_SYSTEM_S * s + groups * group_work)
     per_phase = _run_cells(prep, sizes) * RUN_CELL_S
     most_cells = analysis.RUN_CELLS * RUN_CELL_S
-    per_packet = SIM_RUNS * s * (SIM_PACKET_S + SIM_SOURCE_S * s)
+    per_packet = SIM_RUNS * _simulated_hop_cost(prep)
     phases, packets = RUN_PHASES, packets_for(prep, requested_packets)
 
     def cost(ph: int, pk: int) -> float:
