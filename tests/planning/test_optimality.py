@@ -50,6 +50,21 @@ def test_column_generation_bound_is_below_the_optimum(seed):
         assert 0.0 < result.bound <= optimum * (1 + 1e-9) + 1e-15, (length, result.bound, optimum)
 
 
+@pytest.mark.parametrize("objective", ["weighted_sum", "worst_system"])
+@pytest.mark.parametrize("seed", range(4))
+def test_floor_bound_is_below_the_optimum_and_the_column_generation_reports_at_least_it(seed, objective):
+    # The floor (cheapest own channels + the constant part of the harm) bounds every plan, so it is at most the
+    # brute-force optimum; it is positive here (fixed-interferer costs and faded neighbours' constant harm) and
+    # the column generation's bound is never below it, even when stopped after one iteration.
+    inst = _random_tiny(seed, objective)
+    rng = np.random.default_rng(seed)
+    inst.interferer_cost = rng.uniform(0.0, 0.2, inst.interferer_cost.shape)
+    optimum, _ = brute_force(inst)
+    floor = bound.floor_bound(inst)
+    assert 0.0 < floor <= optimum * (1 + 1e-12)
+    assert bound.lower_bound(inst, greedy(inst), length=1, iterations=1).bound >= floor
+
+
 def _uniform(n_systems: int, n_channels: int, size: int):
     """Identical systems, co-channel harm only (excess 11 dB, first adjacent rejection 11 dB; unfaded, so the
     harm is 1 co-channel and 0 elsewhere: the hand-computed optima below rest on it)."""
