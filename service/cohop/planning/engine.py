@@ -240,11 +240,13 @@ def _proven(objective: float, bound_value: float, gap: float = OPTIMAL_GAP) -> b
     return objective <= 0 or (objective - bound_value) / objective <= max(gap, OPTIMAL_GAP)
 
 
-def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget) -> bound.BoundResult:
+def _quick_bound(inst: PlanningInstance, x: np.ndarray, budget: Budget,
+                 stop: Callable[[], bool] | None = None) -> bound.BoundResult:
     """The co-channel (one-channel window) bound: cheap, and it proves many sites at once. Its LP duals warm-start
-    the Lagrangian bound."""
+    the Lagrangian bound. `stop`: its wall-clock window (one exact pricing can take seconds on 40 systems)."""
     work = budget.work(SHARES["quick_bound"])
-    result = bound.lower_bound(inst, x, length=1, iterations=20, seconds=work, deadline=budget.stopper("quick bound"))
+    result = bound.lower_bound(inst, x, length=1, iterations=20, seconds=work,
+                               deadline=stop or budget.stopper("quick bound"))
     budget.deadline.count("pricing_operations", result.work)
     return result
 
@@ -386,7 +388,7 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
     x = None
     if start is not None:
         x = search.improve(inst, start) if inst.req.objective != "worst_system" else search.improve_worst(inst, start)
-        quick = _quick_bound(inst, x, budget)
+        quick = _quick_bound(inst, x, budget, windows.stopper("quick bound", shares, "quick_bound"))
         bounds["column_generation"] = quick.bound
         clock.tell("greedy start", objective=_value(inst, x), bound=bounds["column_generation"])
         if _proven(_value(inst, x), bounds["column_generation"], gap) and not ceilings:

@@ -46,9 +46,11 @@ def packets_for(prep: PreparedSite, requested: int) -> int:
 
 #: Calibrated costs of the sequence phases on our 2-core machines (`bench/bench_timelimits.py --phases`
 #: prints them measured beside these estimates): the construction per channel held; the analysis besides
-#: the longest-run search (a base, per system, per ordered pair of systems); that search per (time offset
+#: the longest-run search (a base, per system, per ordered pair of systems within reach of harm: bands of
+#: equal harm are built per pair: 0.3-0.4 ms each on 40 x 260, less on the large bench site, profiled); that search per (time offset
 #: x hop) cell (at most `analysis.RUN_CELLS` in all) and per cell inside the window of the exact search of
-#: equal-dwell pairs (at most `analysis.DIAGONAL_WORK`); and one retry simulation per system, per simulated
+#: equal-dwell pairs (at most `analysis.DIAGONAL_WORK`); and one retry simulation per system and per
+#: ordered pair within reach (its bands of equal harm: 0.25-0.35 ms each, profiled), per simulated
 #: hop (packets x (retry limit + 1) x hops per attempt, summed over the systems) and per simulated hop and
 #: source within reach of harm (`prep.harm.reach`; with soft harm most pairs). Three simulations run
 #: (planned order, ascending order, common pattern). The two simulation figures were fitted (non-negative
@@ -59,12 +61,13 @@ def packets_for(prep: PreparedSite, requested: int) -> int:
 CONSTRUCT_PER_CHANNEL_S = 2.5e-5
 ANALYSIS_BASE_S = 3e-3
 ANALYSIS_PER_SYSTEM_S = 5e-4
-ANALYSIS_PER_PAIR_S = 2e-5
+ANALYSIS_PER_PAIR_S = 3e-4
 RUN_CELL_S = 5e-8
 DIAGONAL_CELL_S = 1.5e-7
 SIM_SYSTEM_S = 1e-3
 SIM_HOP_S = 3e-6
 SIM_HOP_SOURCE_S = 5.8e-8
+SIM_PAIR_S = 2.5e-4
 SIM_RUNS = 3
 #: The least work the sequences do however short the time limit.
 MIN_PACKETS = 200
@@ -106,6 +109,11 @@ def _diagonal_cells(prep: PreparedSite, sizes) -> int:
     return int(min(cells[equal & (prep.window >= 0)].sum(), analysis.DIAGONAL_WORK))
 
 
+def _reaching_pairs(prep: PreparedSite) -> int:
+    """Ordered pairs (victim, source) within reach of harm (`prep.harm.reach`): with soft harm most pairs."""
+    return int(((prep.harm.reach >= 0) & ~np.eye(prep.n_systems, dtype=bool)).sum())
+
+
 def _simulated_hop_cost(prep: PreparedSite) -> float:
     """Seconds of one retry simulation per packet: each system's hops per packet (retry limit + 1 attempts of
     hops_per_attempt), each also per source within reach of its harm."""
@@ -127,9 +135,10 @@ def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: fl
             members[system.time_base_group] = members.get(system.time_base_group, 0) + 1
     groups = sum(1 for n in members.values() if n > 1)
     group_work = GROUP_WORK_S if seconds is None or not groups else min(GROUP_WORK_S, 0.5 * seconds / groups)
+    pairs = _reaching_pairs(prep)
     fixed = (CONSTRUCT_PER_CHANNEL_S * float(np.sum(sizes)) + ANALYSIS_BASE_S + ANALYSIS_PER_SYSTEM_S * s
-             + ANALYSIS_PER_PAIR_S * s * (s - 1) + DIAGONAL_CELL_S * _diagonal_cells(prep, sizes)
-             + SIM_RUNS * SIM_SYSTEM_S * s + groups * group_work)
+             + ANALYSIS_PER_PAIR_S * pairs + DIAGONAL_CELL_S * _diagonal_cells(prep, sizes)
+             + SIM_RUNS * (SIM_SYSTEM_S * s + SIM_PAIR_S * pairs) + groups * group_work)
     per_phase = _run_cells(prep, sizes) * RUN_CELL_S
     most_cells = analysis.RUN_CELLS * RUN_CELL_S
     per_packet = SIM_RUNS * _simulated_hop_cost(prep)
