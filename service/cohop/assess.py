@@ -171,7 +171,8 @@ def _harm_cells_by_victim(prep: PreparedSite, sets: list[np.ndarray]) -> list[tu
     out = []
     for v, s in enumerate(sets):
         plain = prep.n_systems * s.size * max(1, len(varying_steps(prep, v)))
-        out.append((plain * (1 + joint.points(prep, v)), plain * joint.points(prep, v)))
+        points = joint.points(prep, v)
+        out.append((plain * (1 + points), plain * points))
     return out
 
 

@@ -71,9 +71,9 @@ PAIR_DP_TRIPLES = 30_000_000
 
 def history_for(inst: PlanningInstance) -> int:
     """Channels of history the DP's states hold: 2 (offsets 0 to 2 kept) when affordable, else 1."""
-    if inst.n_systems <= 20 and (2 ** inst.n_systems) ** 3 * inst.n_channels <= PAIR_DP_TRIPLES:
-        return 2
-    return 1
+    return 2 if (2 ** inst.n_systems) ** 3 * inst.n_channels <= PAIR_DP_TRIPLES else 1
+
+
 #: At most this many systems: states are bit masks in 64-bit integers.
 MAX_SYSTEMS = 62
 
@@ -202,8 +202,8 @@ class Relaxation:
     feasible: bool = True  # False when the kept constraints alone leave no plan (pins that clash)
     notes: list[str] = field(default_factory=list)
     history: int = 1  # channels of history in a state: 2 keeps offset 2 too (`_forward_pairs`)
-    sep3_mask: int = 0  # systems that may not hold two channels two apart (separation >= 3; history 2 only)
-    g2: np.ndarray | None = None  # (S,) int64: guards of width >= 2, enforced at offset 2 (history 2 only)
+    sep3_mask: int = 0  # systems that may not hold two channels two apart (separation >= 3; read at history 2)
+    g2: np.ndarray | None = None  # (S,) int64: guards of width >= 2 (enforced at offset 2 at history 2)
 
     @property
     def n_systems(self) -> int:
@@ -248,12 +248,11 @@ def relax(inst: PlanningInstance, history: int | None = None) -> Relaxation:
     first = np.array([int(np.flatnonzero(channel_class == k)[0]) for k in range(len(keys))], dtype=int)
     g0, g1, g2 = (_guard_masks(inst, width) for width in (0, 1, 2))
     sep_mask = int(_masks((inst.separation >= 2)[:, None])[0])
-    sep3_mask = int(_masks((inst.separation >= 3)[:, None])[0]) if history == 2 else 0
+    sep3_mask = int(_masks((inst.separation >= 3)[:, None])[0])
     out = Relaxation(inst=inst, node=node, u=u, constant=constant_per_victim(inst), channel_class=channel_class,
                      class_allowed=_masks(pool[:, first]), class_pinned=_masks(inst.pinned[:, first]),
                      class_node=node[:, first].T.copy(), sep_mask=sep_mask, g0=g0, g1=g1,
-                     dropped=dropped_terms(inst, history + 1), history=history, sep3_mask=sep3_mask,
-                     g2=g2 if history == 2 else None)
+                     dropped=dropped_terms(inst, history + 1), history=history, sep3_mask=sep3_mask, g2=g2)
     for k in range(len(keys)):
         pins = inst.pinned[:, first[k]]
         if any(g0[v] & out.class_pinned[k] for v in np.flatnonzero(pins)):
@@ -429,13 +428,30 @@ def _min_plus(prev, t, cost, out, arg):
     return work
 
 
+def _transition(member, mask, a: slice, b: slice, p: np.ndarray, sep: int, guards: np.ndarray) -> np.ndarray:
+    """[state in a, state in b]: the pair costs p between two channels' states, inf where a system barred from
+    both (`sep`, bit mask) or a guard (`guards`, per state: the systems its members keep away) forbids."""
+    t = member[a].astype(float) @ p @ member[b].astype(float).T
+    if sep != 0:
+        t[(mask[a][:, None] & mask[b][None, :] & np.int64(sep)) != 0] = np.inf
+    if guards[a].any():
+        t[(guards[a][:, None] & mask[b][None, :]) != 0] = np.inf
+    return t
+
+
+def _state_guards(member: np.ndarray, guards: np.ndarray) -> np.ndarray:
+    """Per state (rows of `member`): the union of its members' guard masks."""
+    if member.shape[1] == 0:
+        return np.zeros(member.shape[0], np.int64)
+    return np.bitwise_or.reduce(np.where(member, guards[None, :], 0), axis=1).astype(np.int64)
+
+
 def _forward_dense(rel: "Relaxation", lo, hi, mask, cost, member, p1, g1):
     """The same DP as `_forward` with the transition costs of each pair of consecutive channel classes as one
     matrix (states of the class before x states of the class after: offset-1 costs, inf where separation or a
     guard forbids the pair), built once per pair of classes; each channel is then one min-plus product.
     Returns (value, path of global state indices, pairs evaluated)."""
     classes = rel.channel_class
-    sep = np.int64(rel.sep_mask)
     cache: dict[tuple[int, int], np.ndarray] = {}
     work = 0
 
@@ -443,13 +459,8 @@ def _forward_dense(rel: "Relaxation", lo, hi, mask, cost, member, p1, g1):
         nonlocal work
         key = (kp, k)
         if key not in cache:
-            a, b = slice(lo[kp], hi[kp]), slice(lo[k], hi[k])
-            t = member[b].astype(float) @ p1.T @ member[a].astype(float).T  # [next, previous]
-            if sep != 0:
-                t[(mask[b][:, None] & (mask[a][None, :] & sep)) != 0] = np.inf
-            if g1[a].any():
-                t[(mask[b][:, None] & g1[a][None, :]) != 0] = np.inf
-            cache[key] = np.ascontiguousarray(t)
+            t = _transition(member, mask, slice(lo[kp], hi[kp]), slice(lo[k], hi[k]), p1, rel.sep_mask, g1)
+            cache[key] = np.ascontiguousarray(t.T)  # [next, previous]
             work += t.size
         return cache[key]
 
@@ -489,21 +500,14 @@ def _forward_pairs(rel: "Relaxation", lo, hi, mask, cost, member, p1, p2, g1, g2
     state counts. Returns (value, path of global state indices, triples)."""
     classes = rel.channel_class
     n_ch = classes.size
-    memf = member.astype(float)
     cache: dict[tuple, np.ndarray] = {}
 
     def between(kp: int, k: int, d: int) -> np.ndarray:  # [state on c - d, state on c]
         key = (kp, k, d)
         if key not in cache:
-            a, b = slice(lo[kp], hi[kp]), slice(lo[k], hi[k])
-            t = memf[a] @ (p1 if d == 1 else p2) @ memf[b].T
-            sep = np.int64(rel.sep_mask if d == 1 else rel.sep3_mask)
-            if sep != 0:
-                t[(mask[a][:, None] & mask[b][None, :] & sep) != 0] = np.inf
-            guard = (g1 if d == 1 else g2)[a]
-            if guard.any():
-                t[(guard[:, None] & mask[b][None, :]) != 0] = np.inf
-            cache[key] = t
+            cache[key] = _transition(member, mask, slice(lo[kp], hi[kp]), slice(lo[k], hi[k]),
+                                     p1 if d == 1 else p2, rel.sep_mask if d == 1 else rel.sep3_mask,
+                                     g1 if d == 1 else g2)
         return cache[key]
 
     path = np.full(n_ch, -1, np.int64)
@@ -624,7 +628,7 @@ def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STAT
     cost = np.concatenate(costs)
     member = ((mask[:, None] & bits[None, :]) != 0)
     reach = member.astype(float) @ p1
-    g1 = np.bitwise_or.reduce(np.where(member, rel.g1[None, :], 0), axis=1) if s else np.zeros(mask.size, np.int64)
+    g1 = _state_guards(member, rel.g1)
     n_members = member.sum(axis=1).astype(np.int64)
     members = np.zeros((mask.size, max(1, int(n_members.max(initial=0)))), np.int64)
     rows, cols = np.nonzero(member)
@@ -632,12 +636,10 @@ def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STAT
     members[rows, rank] = cols
     widest = int((hi - lo).max(initial=0))
     if rel.history == 2:
-        g2 = np.bitwise_or.reduce(np.where(member, rel.g2[None, :], 0), axis=1) if s else np.zeros(mask.size,
-                                                                                                  np.int64)
-        value, path, scanned = _forward_pairs(rel, lo, hi, mask, cost, member, p1, p[2], g1.astype(np.int64),
-                                              g2.astype(np.int64))
+        value, path, scanned = _forward_pairs(rel, lo, hi, mask, cost, member, p1, p[2], g1,
+                                              _state_guards(member, rel.g2))
     elif widest * widest <= DENSE_PAIRS:
-        value, path, scanned = _forward_dense(rel, lo, hi, mask, cost, member, p1, g1.astype(np.int64))
+        value, path, scanned = _forward_dense(rel, lo, hi, mask, cost, member, p1, g1)
     else:
         sizes = (hi - lo)[rel.channel_class]
         offsets = np.concatenate([[0], np.cumsum(sizes)[:-1]]).astype(np.int64)

@@ -127,7 +127,7 @@ class LagrangianBound:
                                            on_bound=limits.on_bound, theta=self.theta,
                                            seconds_left=limits.seconds_left)
         if result.wall_capped:
-            limits.budget.deadline.record_stop("Lagrangian bound")
+            limits.budget.deadline.record_stop("lagrangian bound")  # the phase name its stopper records
         if not result.solved:
             return Outcome(None, None, "out of reach", work=result.work, notes=result.notes)
         notes = result.notes + [f"Lagrangian bound: {result.iterations} DP solve(s), "

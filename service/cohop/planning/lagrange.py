@@ -121,11 +121,12 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
     rate = FIRST_SOLVE_RATE
     for it in range(1, max_iterations + 1):
         by_wall = math.inf if seconds_left is None else seconds_left() * rate
+        by_budget = budget - work
         started = time.monotonic()
-        value, sol = value_at(rel, lam, weights, max_work=min(budget - work, by_wall))
+        value, sol = value_at(rel, lam, weights, max_work=min(by_budget, by_wall))
         elapsed = time.monotonic() - started
         work += sol.work
-        if sol.over_budget and by_wall < budget - work + sol.work:  # the window, not the work budget, refused it
+        if sol.over_budget and by_wall < by_budget:  # the window, not the work budget, refused it
             return LagrangeResult(max(best, 0.0), best_lam if math.isfinite(best) else None, it, work,
                                   math.isfinite(best), False, rel.dropped, [p for _, _, p in plans],
                                   notes=["Lagrangian bound stopped: the next DP solve would have passed its "

@@ -47,8 +47,8 @@ def packets_for(prep: PreparedSite, requested: int) -> int:
 #: Calibrated costs of the sequence phases on our 2-core machines (`bench/bench_timelimits.py --phases`
 #: prints them measured beside these estimates): the construction per channel held; the analysis besides
 #: the longest-run search (a base, per system, per ordered pair of systems within reach of harm: bands of
-#: equal harm are built per pair: 0.3-0.4 ms each on 40 x 260, less on the large bench site, profiled); that search per (time offset
-#: x hop) cell (at most `analysis.RUN_CELLS` in all) and per cell inside the window of the exact search of
+#: equal harm are built per pair, 0.3-0.4 ms each on 40 x 260 and less on the large bench site, profiled);
+#: that search per (time offset x hop) cell (at most `analysis.RUN_CELLS` in all) and per cell inside the window of the exact search of
 #: equal-dwell pairs (at most `analysis.DIAGONAL_WORK`); and one retry simulation per system and per
 #: ordered pair within reach (its bands of equal harm: 0.25-0.35 ms each, profiled), per simulated
 #: hop (packets x (retry limit + 1) x hops per attempt, summed over the systems) and per simulated hop and
@@ -109,16 +109,15 @@ def _diagonal_cells(prep: PreparedSite, sizes) -> int:
     return int(min(cells[equal & (prep.window >= 0)].sum(), analysis.DIAGONAL_WORK))
 
 
-def _reaching_pairs(prep: PreparedSite) -> int:
-    """Ordered pairs (victim, source) within reach of harm (`prep.harm.reach`): with soft harm most pairs."""
-    return int(((prep.harm.reach >= 0) & ~np.eye(prep.n_systems, dtype=bool)).sum())
+def _sources_in_reach(prep: PreparedSite) -> np.ndarray:
+    """(S,) per victim: the other systems within reach of its harm (`prep.harm.reach`; with soft harm most)."""
+    return ((prep.harm.reach >= 0) & ~np.eye(prep.n_systems, dtype=bool)).sum(axis=1)
 
 
-def _simulated_hop_cost(prep: PreparedSite) -> float:
+def _simulated_hop_cost(prep: PreparedSite, sources: np.ndarray) -> float:
     """Seconds of one retry simulation per packet: each system's hops per packet (retry limit + 1 attempts of
-    hops_per_attempt), each also per source within reach of its harm."""
+    hops_per_attempt), each also per source within its reach (`sources`, `_sources_in_reach`)."""
     hops = np.array([(s.retry_limit + 1) * s.hops_per_attempt for s in prep.site.systems], dtype=float)
-    sources = ((prep.harm.reach >= 0) & ~np.eye(prep.n_systems, dtype=bool)).sum(axis=1)
     return float(SIM_HOP_S * hops.sum() + SIM_HOP_SOURCE_S * hops @ sources)
 
 
@@ -135,13 +134,14 @@ def sequence_work(prep: PreparedSite, sizes, requested_packets: int, seconds: fl
             members[system.time_base_group] = members.get(system.time_base_group, 0) + 1
     groups = sum(1 for n in members.values() if n > 1)
     group_work = GROUP_WORK_S if seconds is None or not groups else min(GROUP_WORK_S, 0.5 * seconds / groups)
-    pairs = _reaching_pairs(prep)
+    sources = _sources_in_reach(prep)
+    pairs = int(sources.sum())
     fixed = (CONSTRUCT_PER_CHANNEL_S * float(np.sum(sizes)) + ANALYSIS_BASE_S + ANALYSIS_PER_SYSTEM_S * s
              + ANALYSIS_PER_PAIR_S * pairs + DIAGONAL_CELL_S * _diagonal_cells(prep, sizes)
              + SIM_RUNS * (SIM_SYSTEM_S * s + SIM_PAIR_S * pairs) + groups * group_work)
     per_phase = _run_cells(prep, sizes) * RUN_CELL_S
     most_cells = analysis.RUN_CELLS * RUN_CELL_S
-    per_packet = SIM_RUNS * _simulated_hop_cost(prep)
+    per_packet = SIM_RUNS * _simulated_hop_cost(prep, sources)
     phases, packets = RUN_PHASES, packets_for(prep, requested_packets)
 
     def cost(ph: int, pk: int) -> float:
