@@ -51,6 +51,8 @@ class Deadline:
     stops: list[str] = field(default_factory=list)  # phases the wall clock cut short, in order
     work_done: dict[str, float] = field(default_factory=dict)  # counts of work, by kind (for the report)
     work_speed: float = 1.0  # calibrated seconds of work per wall second on this machine (cohop.planning.calibration)
+    #: the same for a search that will not run CP-SAT (0: work_speed; `calibration.speed_without_cp_sat`)
+    speed_without_cp_sat: float = 0.0
 
     @classmethod
     def of(cls, requested_s: float, cap_s: float, started: float | None = None,

@@ -100,3 +100,36 @@ def test_a_short_budget_skips_the_dp_and_says_so(water):
                   budget=roomy(0.4)).report
     assert "dp_operations" not in r.work and "lagrangian" not in r.bounds
     assert any("Lagrangian bound skipped" in n for n in r.notes)
+
+
+def test_column_generation_continued_from_its_pool_reaches_the_uninterrupted_bound(water):
+    """A column generation stopped after a few iterations and continued from its columns (`pool`) converges to the
+    same bound as one run to convergence: at convergence the bound is the master LP's optimum, which the columns
+    priced on the way do not change (LP duality; the continued run adds the same kinds of columns)."""
+    from cohop.planning import bound
+    from cohop.planning.instance import build_instance
+
+    inst = build_instance(water, PlanRequirements(seed=1))
+    x = search.improve(inst, search.greedy(inst))
+    whole = bound.lower_bound(inst, x, length=2, iterations=400)
+    first = bound.lower_bound(inst, x, length=2, iterations=3)
+    assert whole.converged and not first.converged and len(first.pool) == first.columns
+    more = bound.lower_bound(inst, x, length=2, iterations=400, columns=first.pool)
+    assert more.converged and more.bound == pytest.approx(whole.bound, rel=1e-6)
+    again = bound.lower_bound(inst, x, length=2, iterations=400, columns=whole.pool)
+    assert again.converged and again.columns >= whole.columns  # it holds every column of the run it continues
+    assert again.bound == pytest.approx(whole.bound, rel=1e-6)
+
+
+def test_the_lagrangian_share_continues_the_column_generation_when_the_dp_gives_nothing(water, monkeypatch):
+    """When the Lagrangian phase proves nothing (its first DP solve would not fit: simulated here), its share
+    continues the column generation and the bound plans' share the local search, each within its work share."""
+    req = PlanRequirements(seed=2, target_gap=0.0)
+    monkeypatch.setattr(engine, "_lagrange_phase", lambda inst, x, *a, **k: (None, x, False))
+    result = plan_site(water, req, TWO, detail="system", with_sequences=False, budget=roomy(3.0))
+    r = result.report
+    assert not r.stopped_by_wall_clock and "lagrangian" not in r.bounds
+    assert any(n.startswith("column generation continued") for n in r.notes)
+    shares = SHARES_WITHOUT_CP_SAT if "cp_sat_deterministic_time" not in r.work else SHARES
+    assert 0 < r.work.get("kicks_continued", 0) <= search.kick_budget(result.instance, shares["bound_plans"] * 3.0)
+    assert r.bound <= r.objective + 1e-12

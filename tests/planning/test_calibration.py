@@ -42,3 +42,26 @@ def test_the_work_budget_scales_with_the_speed():
 def test_setting_is_validated():
     with pytest.raises(ConfigError):
         Settings(work_speed=-1.0)
+
+
+def test_a_search_without_cp_sat_counts_its_budget_at_the_local_search_figure():
+    """CP-SAT's probe binds only a search that runs CP-SAT: above max_products (the planner skips the full model)
+    the budget follows the local-search probe's figure; the re-plan (no cap given) keeps the slower one."""
+    inst = build_instance(prepare_site(load_site(samples.load("water_works")["site"])), PlanRequirements())
+    deadline = Deadline.of(10.0, 60.0, work_speed=1.5)
+    deadline.speed_without_cp_sat = 3.0
+    runs_cp_sat = search_budget(deadline, inst, 1.0, max_products=10**9)
+    skips_cp_sat = search_budget(deadline, inst, 1.0, max_products=0)
+    replan = search_budget(deadline, inst, 1.0)
+    assert skips_cp_sat.seconds == pytest.approx(2.0 * runs_cp_sat.seconds)
+    assert replan.seconds == pytest.approx(runs_cp_sat.seconds)
+    assert skips_cp_sat.end == pytest.approx(runs_cp_sat.end, abs=0.05)
+
+
+def test_the_figure_without_cp_sat_is_never_below_the_figure_for_every_phase():
+    calibration.pin(None)
+    try:
+        assert calibration.speed_without_cp_sat(2.0) == 2.0  # a setting fixes both
+        assert calibration.speed_without_cp_sat(0.0) >= calibration.speed(0.0)
+    finally:
+        calibration.pin(1.0)

@@ -80,6 +80,7 @@ def calibrated(deadline: Deadline, settings: SolveSettings) -> None:
     measurement to the request's limit: the deadline starts that much later."""
     started = time.monotonic()
     deadline.work_speed = calibration.speed(settings.work_speed, settings.solver_threads)
+    deadline.speed_without_cp_sat = calibration.speed_without_cp_sat(settings.work_speed, settings.solver_threads)
     deadline.started += time.monotonic() - started
 
 

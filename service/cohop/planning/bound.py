@@ -59,6 +59,9 @@ class BoundResult:
     multipliers: np.ndarray | None = None
     #: Worst-system objective: the LP's duals of the victim rows (weights on the systems, summing to 1).
     victim_weights: np.ndarray | None = None
+    #: Every (window class, pattern) column the LP held: a later call on the same instance and window length
+    #: starts from them (`lower_bound(columns=...)`) and so continues where this one stopped.
+    pool: tuple = ()
 
 
 def _channel_types(inst: PlanningInstance) -> list[tuple]:
@@ -359,8 +362,9 @@ def floor_bound(inst: PlanningInstance) -> float:
 
 
 def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = None, iterations: int = 40,
-                seconds: float | None = None, deadline=None) -> BoundResult:
-    """Column generation from the patterns of a feasible plan `start`.
+                seconds: float | None = None, deadline=None, columns: tuple = ()) -> BoundResult:
+    """Column generation from the patterns of a feasible plan `start` (and `columns`: the `pool` of an earlier
+    call on the same instance and window length, which this one continues).
 
     It stops at convergence, after `iterations`, or when its pricing work exceeds `seconds` worth of
     WORK_PER_SECOND (a count, so runs repeat exactly); a last exact pricing then gives a valid bound.
@@ -393,12 +397,12 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
                     for v in np.flatnonzero(inst.allowed[:, c] | inst.pinned[:, c]):
                         if (t, int(v), i) not in consistency:
                             consistency[t, int(v), i] = lp.Constraint(0.0, 0.0)
-    seen: set[tuple] = set()
+    seen: dict[tuple, None] = {}  # insertion-ordered, so a continued call adds the columns in the same order
 
     def add_column(key, pattern):
         if (key, pattern) in seen:
             return False
-        seen.add((key, pattern))
+        seen[key, pattern] = None
         var = lp.NumVar(0.0, lp.infinity(), "")
         class_row[key].SetCoefficient(var, 1.0)
         for v, u in enumerate(_uses(pattern, s)):
@@ -424,6 +428,9 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
 
     for key, pattern in zip(classes.key_of_position, _plan_patterns(start, length)):
         add_column(key, pattern)
+    for key, pattern in columns:
+        if key in class_row:
+            add_column(key, pattern)
     pricers = {key: _Pricing(inst, costs, classes, key) for key in keys}
     best = -math.inf
     value = -math.inf
@@ -471,4 +478,5 @@ def lower_bound(inst: PlanningInstance, start: np.ndarray, length: int | None = 
         if added == 0 or last:
             break
     return BoundResult(bound=max(best, floor_bound(inst), 0.0), window=length, iterations=it, columns=len(seen),
-                       converged=converged, work=spent(), multipliers=multipliers, victim_weights=victim_weights)
+                       converged=converged, work=spent(), multipliers=multipliers, victim_weights=victim_weights,
+                       pool=tuple(seen))

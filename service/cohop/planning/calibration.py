@@ -7,10 +7,10 @@ the work then ends at 0.2 to 0.4 of the limit (measured). This module runs the t
 fixed instance (the water-works sample): the local search for a fixed number of kicks, and CP-SAT on the
 full model for a fixed deterministic time, with the workers and interleaving the service uses. The speed is
 the calibrated work they stand for divided by the wall time they took (the better of two runs of each),
-the slower of the two probes, floored to a
-multiple of SPEED_STEP and kept within [1, MAX_SPEED]: the search gets that many calibrated seconds per
-wall second of its window (`engine.search_budget`), and the wall clock still stops every phase at its
-window's end. Flooring to a coarse step keeps the figure, and so the plans of `deterministic` solves, the
+each probe's figure floored to a
+multiple of SPEED_STEP and kept within [1, MAX_SPEED]. The search gets the slower figure in calibrated
+seconds per wall second of its window (`engine.search_budget`), or the local search's alone when it will
+not run CP-SAT, and the wall clock still stops every phase at its window's end. Flooring to a coarse step keeps the figure, and so the plans of `deterministic` solves, the
 same from one start to the next on one machine.
 
 The server measures in the solver fork server, before any solve is forked (`cohop.planning.preload`), so
@@ -32,30 +32,41 @@ SPEED_STEP = 0.25
 PROBE_LOCAL_S = 0.12
 PROBE_CP_SAT_S = 0.6
 
-_measured: float | None = None
+_measured: dict[str, float] | None = None  # quantised figures: "local_search", "cp_sat"
 
 
 def speed(setting: float, workers: int = 2) -> float:
-    """The figure to use: `setting` when it is > 0, else this process's measurement (made once)."""
+    """The figure to use: `setting` when it is > 0, else this process's measurement (made once): the slower
+    of the two probes."""
     if setting > 0:
         return float(setting)
     return measured_speed(workers)
 
 
+def speed_without_cp_sat(setting: float, workers: int = 2) -> float:
+    """The figure for a search that will not run CP-SAT (its model is above `max_products`: the medium and
+    large bench sites): the local-search probe's alone, since CP-SAT's probe, the slower one on our machines
+    (1.5 to 1.75 against 3 or more), says nothing about its phases."""
+    if setting > 0:
+        return float(setting)
+    measured_speed(workers)
+    return max(_measured["local_search"], _measured["cp_sat"])  # never below the figure for every phase
+
+
 def measured_speed(workers: int = 2) -> float:
     global _measured
     if _measured is None:
-        # the better of two runs of each probe (a busy moment only ever slows a probe), the slower probe
-        _measured = quantised(min(max(_local_search_speed() for _ in range(2)),
-                                  max(_cp_sat_speed(workers) for _ in range(2))))
-    return _measured
+        # the better of two runs of each probe (a busy moment only ever slows a probe)
+        _measured = {"local_search": quantised(max(_local_search_speed() for _ in range(2))),
+                     "cp_sat": quantised(max(_cp_sat_speed(workers) for _ in range(2)))}
+    return min(_measured.values())
 
 
 def pin(value: float | None) -> None:
-    """Use `value` as this process's measurement (None: measure again when next asked). Tests pin 1.0 so that
-    their work counts do not depend on the machine."""
+    """Use `value` as this process's measurement, for every probe (None: measure again when next asked). Tests
+    pin 1.0 so that their work counts do not depend on the machine."""
     global _measured
-    _measured = None if value is None else float(value)
+    _measured = None if value is None else {"local_search": float(value), "cp_sat": float(value)}
 
 
 def quantised(raw: float) -> float:

@@ -559,6 +559,7 @@ class PathSolution:
     pairs_scanned: int
     complete: bool = True  # False when a class had more states than the cap (then `value` is not computed)
     over_budget: bool = False  # the transitions' estimated, or counted, work passed the solve's `max_work`
+    estimated_work: float = 0.0  # the work estimated before the transitions (set when over_budget)
 
 
 def transition_estimate(rel: Relaxation, class_sizes: np.ndarray) -> float:
@@ -623,7 +624,7 @@ def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STAT
         costs.append(out_cost[:n])
     estimate = total + transition_estimate(rel, hi - lo)
     if estimate > max_work:
-        return PathSolution(-np.inf, None, total, total, 0, complete=False, over_budget=True)
+        return PathSolution(-np.inf, None, total, total, 0, complete=False, over_budget=True, estimated_work=estimate)
     mask = np.concatenate(masks)
     cost = np.concatenate(costs)
     member = ((mask[:, None] & bits[None, :]) != 0)

@@ -260,11 +260,14 @@ LAGRANGE_MAX_SYSTEMS = 24
 MIN_LAGRANGE_WORK_S = 0.5
 
 
-def speed_notes(deadline: Deadline) -> list[str]:
-    """The answer says when the work budgets were scaled to this machine's measured speed."""
-    if deadline.work_speed == 1.0:
+def speed_notes(deadline: Deadline, speed: float | None = None) -> list[str]:
+    """The answer says when the work budgets were scaled to this machine's measured speed (`speed`: the figure
+    the search used, `search_speed`; the deadline's by default)."""
+    speed = deadline.work_speed if speed is None else speed
+    if speed == 1.0:
         return []
-    return [f"work budgets at {deadline.work_speed:g} x the calibration: this machine's speed "
+    which = " without CP-SAT" if speed != deadline.work_speed else ""
+    return [f"work budgets at {speed:g} x the calibration: this machine's speed{which} "
             "(`cohop.planning.calibration`)"]
 
 
@@ -431,7 +434,7 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
                      "of its share of this time limit")
     if x is None:
         raise PlanInfeasible(_diagnose(inst, budget, settings)[0] or [], proven=False)
-    warm = quick
+    warm, cg = quick, None
     if x is not None and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
         cg = bound.lower_bound(inst, x, length=bound.window_length(inst), iterations=400,
                                seconds=budget.work(shares["column_generation"]),
@@ -454,7 +457,37 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
             bounds["lagrangian"] = lb
         if won:
             method += ", then local search from the Lagrangian bound's plans"
+    if cg is not None and shares["lagrange"] > 0 and "lagrangian" not in bounds \
+            and not _proven(_value(inst, x), max(bounds.values()), gap):
+        x, more = _without_lagrangian(inst, x, cg, budget, shares, windows, clock, notes, gap)
+        bounds["column_generation"] = max(bounds["column_generation"], more)
     return x, bounds, method, scale, start
+
+
+def _without_lagrangian(inst: PlanningInstance, x: np.ndarray, cg: bound.BoundResult, budget: Budget, shares: dict,
+                        windows: "_Windows", clock: _Clock, notes: list[str], gap: float) -> tuple[np.ndarray, float]:
+    """When the Lagrangian bound gave nothing (its first DP solve would not fit its share: the medium bench site's
+    first solve at the windowed duals scans 1.4 to 2 billion state pairs), its share continues the column
+    generation from the columns it held, and the share of the bound's plans continues the local search from the
+    best plan. Returns (the best plan, the continued column generation's bound)."""
+    deadline = budget.deadline
+    more = bound.lower_bound(inst, x, length=cg.window, iterations=400, seconds=budget.work(shares["lagrange"]),
+                             deadline=windows.stopper("column generation", shares, "lagrange"), columns=cg.pool)
+    deadline.count("pricing_operations", more.work)
+    clock.tell("column generation", bound=more.bound)
+    notes.append(f"column generation continued with the Lagrangian bound's share: {more.iterations} more "
+                 f"iteration(s), {more.columns} columns, {'converged' if more.converged else 'stopped at its work budget'}")
+    if _proven(_value(inst, x), max(more.bound, cg.bound), gap):
+        return x, more.bound
+    seconds = budget.work(shares["bound_plans"])
+    y = search.iterated(inst, x, search.kick_budget(inst, seconds), inst.req.seed + 7,
+                        stop=windows.stopper("local search", shares, "bound_plans"),
+                        counter=_Renamed(deadline, "kicks_continued"),
+                        target=max(more.bound, cg.bound) / (1 - max(gap, OPTIMAL_GAP)))
+    if _value(inst, y) < _value(inst, x):
+        clock.tell("local search", objective=_value(inst, y))
+        return y, more.bound
+    return x, more.bound
 
 
 def _within(gap: float) -> str:
@@ -469,17 +502,32 @@ def request_deadline(req: PlanRequirements, settings: SolveSettings) -> Deadline
     """The request's deadline when the caller gives none, with this machine's work speed (measured before the
     deadline starts, so a first measurement is not charged to the limit)."""
     speed = calibration.speed(settings.work_speed, settings.solver_threads)
-    return Deadline.of(req.time_limit_s, settings.max_solve_s, work_speed=speed)
+    out = Deadline.of(req.time_limit_s, settings.max_solve_s, work_speed=speed)
+    out.speed_without_cp_sat = calibration.speed_without_cp_sat(settings.work_speed, settings.solver_threads)
+    return out
 
 
-def search_budget(deadline: Deadline, inst: PlanningInstance, after_s: float) -> Budget:
+def search_speed(deadline: Deadline, inst: PlanningInstance, max_products: int | None = None) -> float:
+    """The work speed the search's budget is counted at: the deadline's, or its figure without CP-SAT when the
+    full model is above `max_products` (the planner's CP-SAT will not run, so its probe does not bind; None:
+    the caller may run CP-SAT whatever the size, as the re-plan does)."""
+    if max_products is None:
+        return deadline.work_speed
+    if deadline.speed_without_cp_sat > deadline.work_speed and model.product_count(inst) > max_products:
+        return deadline.speed_without_cp_sat
+    return deadline.work_speed
+
+
+def search_budget(deadline: Deadline, inst: PlanningInstance, after_s: float,
+                  max_products: int | None = None) -> Budget:
     """The search's budget: the limit less the estimated cost of what runs before the search (preparing,
     the greedy start) and after it (`after_s`), never below MIN_SEARCH_SHARE of the limit. The work is
     WORK_MARGIN of that; the wall clock stops the search where the closing phases' reserve begins."""
     limit = deadline.limit_s
     floor = max(MIN_SEARCH_SHARE * limit, min(MIN_SEARCH_S, limit))
     window = max(floor, limit - after_s)
-    work = WORK_MARGIN * deadline.work_speed * max(floor, limit - after_s - costs.before_search_s(inst))
+    speed = search_speed(deadline, inst, max_products)
+    work = WORK_MARGIN * speed * max(floor, limit - after_s - costs.before_search_s(inst))
     deadline.expect(deadline.started + window + after_s)
     return deadline.budget(seconds=work, end=deadline.started + window, reserve_s=after_s)
 
@@ -504,8 +552,9 @@ def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings
     seq_work = sequence_work(prep, full.sizes, req.sequence_packets, costs.SEQUENCE_SHARE * deadline.limit_s) \
         if with_sequences else None
     if budget is None:
-        budget = search_budget(deadline, inst, costs.after_search_s(full, detail, seq_work))
-    notes: list[str] = taken_back_notes(inst) + speed_notes(deadline)
+        budget = search_budget(deadline, inst, costs.after_search_s(full, detail, seq_work), settings.max_products)
+    notes: list[str] = taken_back_notes(inst) + speed_notes(deadline, search_speed(deadline, inst,
+                                                                                  settings.max_products))
     x, bounds, method, scale, start = _search(inst, settings, budget, clock, notes)
     estimates = system_estimates(inst, x)
     objective = objective_value(inst, estimates)

@@ -214,7 +214,7 @@ def plan_independent(prep: PreparedSite, req: PlanRequirements, settings: SolveS
         # the independent plan's closing phases, the joint plan's (no sequences) and the comparison's assessment
         after = (costs.after_search_s(own, detail, seq_work) + costs.after_search_s(full, "system", None)
                  + costs.SAFETY * costs.assessment_s(own.n_systems, int(own.sizes.sum()), costs.joint_cells(own)))
-        budget = search_budget(deadline, full, after)
+        budget = search_budget(deadline, full, after, settings.max_products)
     joint, joint_note = _joint(prep, req, settings, progress, deadline, budget)
     sequences = None
     if with_sequences:

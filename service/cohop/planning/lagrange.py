@@ -126,7 +126,8 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
         value, sol = value_at(rel, lam, weights, max_work=min(by_budget, by_wall))
         elapsed = time.monotonic() - started
         work += sol.work
-        if sol.over_budget and by_wall < by_budget:  # the window, not the work budget, refused it
+        if sol.over_budget and by_wall < by_budget and sol.estimated_work <= by_budget:  # the window, not the
+            # work budget, refused it (a solve the work budget refuses too is the work budget's stop: repeatable)
             return LagrangeResult(max(best, 0.0), best_lam if math.isfinite(best) else None, it, work,
                                   math.isfinite(best), False, rel.dropped, [p for _, _, p in plans],
                                   notes=["Lagrangian bound stopped: the next DP solve would have passed its "

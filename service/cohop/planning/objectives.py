@@ -311,7 +311,7 @@ def _iterated(prep, req, settings, progress, detail, deadline):
     rounds_wanted = 1 if req.coordination == "independent" else \
         round_count(deadline.limit_s - closing_s - costs.before_search_s(inst), overhead)
     shares = ROUND_SHARES[rounds_wanted]
-    budget = search_budget(deadline, inst, closing_s + (rounds_wanted - 1) * overhead)
+    budget = search_budget(deadline, inst, closing_s + (rounds_wanted - 1) * overhead, settings.max_products)
     round_req = dataclasses.replace(req, objective="weighted_sum", baselines=())
     priority = np.array([s.priority_weight for s in prep.site.systems], dtype=float)
     weights = priority
