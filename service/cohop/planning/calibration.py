@@ -3,7 +3,7 @@
 Work budgets are counts in "calibrated seconds" (`cohop.deadline`): the phases turn them into kicks,
 CP-SAT deterministic time, pricing operations and DP solves with constants measured on our 2-core
 machines, deliberately on the slow side so that a busy machine keeps its time limits. On a quiet machine
-the work then ends at 0.2 to 0.4 of the limit (measured). This module runs the two heaviest phases on a
+the work then ends at 0.2 to 0.4 of the limit at the calibration speed (measured), which is why it is scaled. This module runs the two heaviest phases on a
 fixed instance (the water-works sample): the local search for a fixed number of kicks, and CP-SAT on the
 full model for a fixed deterministic time, with the workers and interleaving the service uses. The speed is
 the calibrated work they stand for divided by the wall time they took (the better of two runs of each),
