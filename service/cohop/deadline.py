@@ -91,10 +91,12 @@ class Deadline:
         if _expected_end_listener is not None:
             _expected_end_listener(end)
 
-    def budget(self, seconds: float, end: float, reserve_s: float = 0.0) -> "Budget":
+    def budget(self, seconds: float, end: float, reserve_s: float = 0.0, speed: float | None = None) -> "Budget":
         """A budget of `seconds` of calibrated work that the wall clock stops at `end` (monotonic), leaving
-        `reserve_s` (calibrated) for the closing phases."""
-        return Budget(seconds=max(0.0, seconds), end=min(end, self.end), deadline=self, reserve_s=reserve_s)
+        `reserve_s` (calibrated) for the closing phases; `speed` the work speed it was counted at (the
+        deadline's by default)."""
+        return Budget(seconds=max(0.0, seconds), end=min(end, self.end), deadline=self, reserve_s=reserve_s,
+                      speed=self.work_speed if speed is None else float(speed))
 
     def notes(self) -> list[str]:
         """What the answer says about the limit: clamping, and any wall-clock stop."""
@@ -116,6 +118,7 @@ class Budget:
     end: float  # time.monotonic() at which every phase of the group stops
     deadline: Deadline
     reserve_s: float = 0.0  # the closing phases' calibrated cost, which the window leaves before the limit
+    speed: float = 1.0  # the work speed `seconds` was counted at (calibrated seconds per wall second)
     slowness: float = 1.0  # wall seconds per calibrated second seen so far (at least 1)
 
     def observe(self, work_s: float, wall_s: float) -> None:
@@ -151,5 +154,5 @@ class Budget:
         for s in shares:
             cum += s
             out.append(Budget(seconds=s * self.seconds, end=now + min(1.0, cum) * window, deadline=self.deadline,
-                              reserve_s=self.reserve_s))
+                              reserve_s=self.reserve_s, speed=self.speed))
         return out

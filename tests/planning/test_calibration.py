@@ -56,6 +56,8 @@ def test_a_search_without_cp_sat_counts_its_budget_at_the_local_search_figure():
     assert skips_cp_sat.seconds == pytest.approx(2.0 * runs_cp_sat.seconds)
     assert replan.seconds == pytest.approx(runs_cp_sat.seconds)
     assert skips_cp_sat.end == pytest.approx(runs_cp_sat.end, abs=0.05)
+    assert (skips_cp_sat.speed, runs_cp_sat.speed, replan.speed) == (3.0, 1.5, 1.5)  # what the phases' rates scale by
+    assert all(part.speed == 3.0 for part in skips_cp_sat.split([0.5, 0.5]))
 
 
 def test_the_figure_without_cp_sat_is_never_below_the_figure_for_every_phase():

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from cohop.planning import bound, lagrange, search
+from cohop.planning import bound, channel_dp, lagrange, search
 from cohop.planning.linear import objective_value, system_estimates
 from tests.planning import helpers
 
@@ -86,3 +86,25 @@ def test_a_solve_that_would_pass_the_wall_clock_window_is_not_started():
     free = lagrange.lagrangian_bound(inst, upper, max_iterations=50)
     roomy = lagrange.lagrangian_bound(inst, upper, max_iterations=50, seconds_left=lambda: 1e6)
     assert not roomy.wall_capped and roomy.bound == free.bound and roomy.work == free.work
+
+
+def test_the_first_solve_rate_decides_what_the_window_admits_and_a_work_refusal_is_not_the_wall_clocks():
+    # The first solve's work is estimated once its states are known. With one second left in the window, a rate
+    # (the calibrated rate times the budget's speed) that makes that second worth less than the estimate refuses
+    # the solve as the window's; a rate worth more runs it. When the work budget refuses it too, it is the work
+    # budget's stop (repeatable), not the wall clock's.
+    inst = _inst(40.0, (2, 3, 2), 7)
+    upper = objective_value(inst, system_estimates(inst, search.improve(inst, search.greedy(inst))))
+    rel = channel_dp.relax(inst)
+    first = channel_dp.solve(rel, np.zeros(inst.n_systems), lagrange.victim_weights(inst, None))
+    assert first.work > 2
+    slow = lagrange.lagrangian_bound(inst, upper, max_iterations=1, seconds_left=lambda: 1.0,
+                                     first_rate=0.5 * first.states)
+    assert slow.wall_capped and slow.iterations == 1
+    fast = lagrange.lagrangian_bound(inst, upper, max_iterations=1, seconds_left=lambda: 1.0,
+                                     first_rate=2.0 * first.work)
+    assert not fast.wall_capped and fast.solved and fast.work == first.work
+    both = lagrange.lagrangian_bound(inst, upper, max_iterations=1, seconds_left=lambda: 1.0,
+                                     first_rate=0.5 * first.states,
+                                     seconds=0.75 * first.states / lagrange.WORK_PER_SECOND)  # window < budget < solve
+    assert not both.wall_capped and not both.converged and "budget" in both.notes[0]

@@ -42,10 +42,12 @@ removing unpinned members, so each is met once). Channels that look the same
 to every system (allowed set, pins, node costs) share one list of states.
 The transition from channel c - 1 to c uses one matrix of offset-1 costs per
 pair of channel classes (built once per solve; infinite where separation or a
-guard forbids) and scans the previous states in order of their DP value,
-stopping as soon as a value reaches the best found, since the offset-1 cost
-added is >= 0 (`_min_plus`). When that matrix would exceed DENSE_PAIRS
-entries, the compiled scan `_forward` sums the costs per pair instead. The
+guard forbids); each channel is then one min-plus product, every pair
+evaluated in a vectorised pass (`_min_plus`). When that matrix would exceed
+DENSE_PAIRS entries, the compiled scan `_forward` sums the costs per pair
+instead, scanning the previous states in order of their DP value and
+stopping as soon as a value reaches the best found (the offset-1 cost added
+is >= 0). The
 work is the states enumerated, the matrix entries built and the pairs
 scanned.
 """
@@ -404,28 +406,39 @@ def _forward(channel_class, lo, hi, mask, cost, reach, g1, members, n_members, s
     return value, path, work
 
 
+#: Floating-point liberties for the row minimum: reassociation lets the compiler vectorise it; no assumption
+#: that values are finite (forbidden transitions are inf).
+_ROW_MIN_MATH = {"reassoc", "nsz", "arcp", "contract"}
+
+
+@njit(cache=True, fastmath=_ROW_MIN_MATH)
+def _row_min(prev, row):
+    """min_i (prev[i] + row[i]): one vectorised pass (a minimum is exact whatever the order of comparison)."""
+    best = np.inf
+    for i in range(prev.size):
+        best = min(best, prev[i] + row[i])
+    return best
+
+
 @njit(cache=True)
 def _min_plus(prev, t, cost, out, arg):
-    """out[j] = cost[j] + min_i (prev[i] + t[j, i]), arg[j] the i reaching it (-1: none finite); returns the
-    pairs evaluated. The previous states are scanned by increasing value and the scan stops as soon as one
-    starts at or above the best found (transition costs are >= 0)."""
-    order = np.argsort(prev)
-    work = 0
+    """out[j] = cost[j] + min_i (prev[i] + t[j, i]), arg[j] the first i reaching it (-1: none finite); returns the
+    pairs evaluated, every (i, j). Two passes per row, the minimum vectorised and then its first index: on the
+    medium bench site 1.7 x faster than one scan by increasing prev that stops at the best found (which
+    evaluated 90 % of the pairs there anyway: offset-1 costs are as large as the spread of the values)."""
+    n = prev.size
     for j in range(t.shape[0]):
-        best = np.inf
+        row = t[j]
+        best = _row_min(prev, row)
         at = -1
-        for r in range(order.size):
-            i = order[r]
-            if prev[i] >= best:  # every later one starts no lower, and t >= 0
-                break
-            work += 1
-            val = prev[i] + t[j, i]
-            if val < best:
-                best = val
-                at = i
+        if best < np.inf:
+            for i in range(n):
+                if prev[i] + row[i] == best:
+                    at = i
+                    break
         out[j] = cost[j] + best
         arg[j] = at
-    return work
+    return n * t.shape[0]
 
 
 def _transition(member, mask, a: slice, b: slice, p: np.ndarray, sep: int, guards: np.ndarray) -> np.ndarray:
@@ -564,9 +577,9 @@ class PathSolution:
 
 def transition_estimate(rel: Relaxation, class_sizes: np.ndarray) -> float:
     """Work of the transitions, estimated before they run. Dense transitions: the matrix entries of each pair of
-    consecutive classes, plus DENSE_SCAN_SHARE of the (previous, next) state pairs over every channel; the
-    compiled scan: SCAN_SHARE of those pairs (the scans by increasing value stop early; the shares are rounded
-    up from what they scanned on the medium bench site, 1.2 % of 11 billion pairs at 24 687 states)."""
+    consecutive classes, plus every (previous, next) state pair over every channel; the compiled scan:
+    SCAN_SHARE of those pairs (its scans by increasing value stop early; rounded up from what it scanned on the
+    medium bench site, 1.2 % of 11 billion pairs at 24 687 states)."""
     sizes = class_sizes[rel.channel_class].astype(float)
     if rel.history == 2:  # `_forward_pairs`: exactly its triples
         return float(sizes[0] * sizes[1] + (sizes[:-2] * sizes[1:-1] * sizes[2:]).sum()) if sizes.size > 1 \
@@ -578,8 +591,9 @@ def transition_estimate(rel: Relaxation, class_sizes: np.ndarray) -> float:
     return sum(float(class_sizes[a]) * float(class_sizes[b]) for a, b in kinds) + DENSE_SCAN_SHARE * pairs
 
 
-#: Shares of the (previous, next) state pairs the scans evaluate (`transition_estimate`).
-DENSE_SCAN_SHARE = 0.25
+#: Shares of the (previous, next) state pairs the scans evaluate (`transition_estimate`): the dense min-plus
+#: evaluates every pair (`_min_plus`), the compiled scan stops early.
+DENSE_SCAN_SHARE = 1.0
 SCAN_SHARE = 0.02
 #: Most states one class of channels may have; above it the solve gives up (the caller then keeps its bound).
 STATE_CAP = 200_000

@@ -339,24 +339,29 @@ class _Renamed:
 
 def _lagrange_phase(inst: PlanningInstance, x: np.ndarray, quick: bound.BoundResult | None, budget: Budget,
                     shares: dict, clock: _Clock, notes: list[str], gap: float, stop: Callable[[], bool],
-                    seconds_left: Callable[[], float] | None = None):
-    """The Lagrangian bound from the column generation's duals (`warm`), then local search from its DP plans (repaired to the
-    counts). Returns (bound or None, the best plan, whether a plan from the bound won)."""
+                    seconds_left: Callable[[], float] | None = None, spare_work: float = 0.0):
+    """The Lagrangian bound from the column generation's duals (`warm`), then local search from its DP plans
+    (repaired to the counts). Returns (bound or None, the best plan, whether a plan from the bound won).
+
+    Work: the two phases' shares and `spare_work` (what the column generation left) together; the DP solves
+    take what they need of it (one solve on a mid-size site costs most of it: medium's first solve is about
+    2.3 billion operations) and the local search from the DP's plans the rest."""
     deadline = budget.deadline
+    total = budget.work(shares["lagrange"] + shares["bound_plans"]) + spare_work
     value = _value(inst, x)
     relaxation = formulation.LagrangianBound(inst, quick.multipliers if quick is not None else None,
                                              quick.victim_weights if quick is not None else None,
                                              theta=lagrange.THETA_NEAR if quick is not None and quick.window > 1
                                              else lagrange.THETA0)
     relaxation.hint(x)
-    out = relaxation.solve(formulation.SolveLimits(budget, budget.work(shares["lagrange"]), max(gap, OPTIMAL_GAP),
+    out = relaxation.solve(formulation.SolveLimits(budget, total, max(gap, OPTIMAL_GAP),
                                                    on_bound=lambda b: clock.tell("lagrangian bound", bound=b),
                                                    stop=stop, seconds_left=seconds_left))
     deadline.count("dp_operations", out.work)
     notes.extend(out.notes)
     if out.bound is None or out.x is None or _proven(value, out.bound, gap):
         return out.bound, x, False
-    seconds = budget.work(shares["bound_plans"])
+    seconds = max(0.0, total - out.work / lagrange.WORK_PER_SECOND)
     y = search.iterated(inst, out.x, search.kick_budget(inst, seconds), inst.req.seed + 7, stop=budget.stopper(
         "local search from the bound's plans"), counter=_Renamed(deadline, "kicks_from_bound"),
         target=out.bound / (1 - max(gap, OPTIMAL_GAP)))
@@ -446,13 +451,15 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
                      f"{cg.columns} columns, {'converged' if cg.converged else 'stopped at its work budget'}")
         if cg.multipliers is not None and (quick is None or cg.bound >= quick.bound):
             warm = cg
-    short = budget.work(shares["lagrange"]) < MIN_LAGRANGE_WORK_S
+    # the work the column generation left when it converged early goes to the Lagrangian bound (a count: repeatable)
+    spare = 0.0 if cg is None else max(0.0, budget.work(shares["column_generation"]) - cg.work / bound.WORK_PER_SECOND)
+    short = budget.work(shares["lagrange"] + shares["bound_plans"]) + spare < MIN_LAGRANGE_WORK_S
     if shares["lagrange"] > 0 and short and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
         notes.append("Lagrangian bound skipped: its share of this time limit is below one uninterruptible DP solve")
     elif shares["lagrange"] > 0 and not _proven(_value(inst, x), max(bounds.values()) if bounds else 0.0, gap):
         lb, x, won = _lagrange_phase(inst, x, warm, budget, shares, clock, notes, gap,
-                                     windows.stopper("lagrangian bound", shares, "lagrange"),
-                                     windows.seconds_left(shares, "lagrange"))
+                                     windows.stopper("lagrangian bound", shares, "bound_plans"),
+                                     windows.seconds_left(shares, "bound_plans"), spare)
         if lb is not None:
             bounds["lagrangian"] = lb
         if won:
@@ -529,7 +536,7 @@ def search_budget(deadline: Deadline, inst: PlanningInstance, after_s: float,
     speed = search_speed(deadline, inst, max_products)
     work = WORK_MARGIN * speed * max(floor, limit - after_s - costs.before_search_s(inst))
     deadline.expect(deadline.started + window + after_s)
-    return deadline.budget(seconds=work, end=deadline.started + window, reserve_s=after_s)
+    return deadline.budget(seconds=work, end=deadline.started + window, reserve_s=after_s, speed=speed)
 
 
 def plan_site(prep: PreparedSite, req: PlanRequirements, settings: SolveSettings = SolveSettings(),

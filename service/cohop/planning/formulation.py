@@ -125,7 +125,8 @@ class LagrangianBound:
                                            stop=lambda: any(s() for s in stops),
                                            target=upper * (1.0 - limits.gap) if math.isfinite(upper) else None,
                                            on_bound=limits.on_bound, theta=self.theta,
-                                           seconds_left=limits.seconds_left)
+                                           seconds_left=limits.seconds_left,
+                                           first_rate=lagrange.FIRST_SOLVE_RATE * limits.budget.speed)
         if result.wall_capped:
             limits.budget.deadline.record_stop("lagrangian bound")  # the phase name its stopper records
         if not result.solved:

@@ -35,9 +35,11 @@ import numpy as np
 from cohop.planning import channel_dp
 from cohop.planning.instance import PlanningInstance
 
-#: DP operations (states enumerated plus transition pairs) per second on our 2-core machines, measured on the
-#: medium bench site near its optimal multipliers (about 3 100 states, 300 to 350 million operations per solve at
-#: 90 to 190 million per second on a shared machine): turns a time share into a work budget.
+#: DP operations (states enumerated plus transition pairs) per calibrated second: turns a time share into a
+#: work budget. The vectorised min-plus (`channel_dp._min_plus`) evaluates 3.9 x 10^8 pairs per second on the
+#: medium bench site (first solves at the windowed duals, 1.5 and 2.25 billion pairs) on a machine where the
+#: local search runs at 3 to 4 x its calibration (`calibration`, at most 3 is used), so the figure stays
+#: below what a budget scaled by the measured speed asks of it.
 WORK_PER_SECOND = 1.2e8
 #: Halve the step factor after this many steps without a better bound; stop when it falls below MIN_THETA.
 PATIENCE = 5
@@ -95,7 +97,8 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
                      dual_weights: np.ndarray | None = None, seconds: float | None = None,
                      max_iterations: int = 10_000, stop: Callable[[], bool] | None = None,
                      target: float | None = None, on_bound: Callable[[float], None] | None = None,
-                     theta: float = THETA0, seconds_left: Callable[[], float] | None = None) -> LagrangeResult:
+                     theta: float = THETA0, seconds_left: Callable[[], float] | None = None,
+                     first_rate: float = FIRST_SOLVE_RATE) -> LagrangeResult:
     """Maximise L(lambda) from `start` (the column generation's multipliers; zeros if None).
 
     `upper` is the best plan's objective (Polyak's target). It stops after `max_iterations`, when one more DP
@@ -103,7 +106,8 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
     reaches `target` (the plan is then proven within the requested gap). `theta` is the first step factor:
     smaller when the start is near the optimum (the duals of a converged or nearly converged windowed LP).
     `seconds_left` (wall-clock seconds left in the phase's window) caps each solve's work too, at the rate the
-    previous solve reached (FIRST_SOLVE_RATE for the first): a solve cannot be interrupted, so on a machine
+    previous solve reached (`first_rate` for the first: FIRST_SOLVE_RATE times the budget's work speed): a
+    solve cannot be interrupted, so on a machine
     slower than the calibration one that would overrun the window is not started (`wall_capped`)."""
     s = inst.n_systems
     if s > channel_dp.MAX_SYSTEMS:
@@ -118,7 +122,7 @@ def lagrangian_bound(inst: PlanningInstance, upper: float, start: np.ndarray | N
     plans: list[tuple[float, int, np.ndarray]] = []
     converged, it = False, 0
     direction = None
-    rate = FIRST_SOLVE_RATE
+    rate = first_rate
     for it in range(1, max_iterations + 1):
         by_wall = math.inf if seconds_left is None else seconds_left() * rate
         by_budget = budget - work
