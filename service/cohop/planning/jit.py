@@ -1,6 +1,6 @@
 """Numba for the planner's compiled inner loops, set up once.
 
-The compiled kernels (`planning.channel_dp`) are cached on disk (`cache=True`)
+The compiled kernels (`planning.channel_dp`, `planning.pricing_kernels`) are cached on disk (`cache=True`)
 so that only the first process on a machine pays the compilation. Numba's
 default cache sits beside the source, which a read-only image cannot write;
 unless `NUMBA_CACHE_DIR` is set already, the cache goes to a directory of its
@@ -31,10 +31,11 @@ def warm() -> float:
     global _warm_s
     if _warm_s is not None:
         return 0.0
-    from cohop.planning import channel_dp
+    from cohop.planning import channel_dp, pricing_kernels
 
     started = time.perf_counter()
     channel_dp.warm_kernels()
+    pricing_kernels.warm()
     _warm_s = time.perf_counter() - started
     return _warm_s
 
