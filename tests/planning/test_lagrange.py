@@ -4,6 +4,8 @@ Lagrangian value bounds the primal minimum, e.g. Wolsey, Integer Programming, 2n
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
@@ -108,3 +110,22 @@ def test_the_first_solve_rate_decides_what_the_window_admits_and_a_work_refusal_
                                      first_rate=0.5 * first.states,
                                      seconds=0.75 * first.states / lagrange.WORK_PER_SECOND)  # window < budget < solve
     assert not both.wall_capped and not both.converged and "budget" in both.notes[0]
+
+
+def test_the_restricted_dp_keeps_to_the_listed_sets_and_is_the_full_dp_when_they_cover_every_state():
+    # The path of the DP restricted to the column generation's sets holds, on every channel, a listed set or none
+    # (no pins here); listing every subset gives back the unrestricted optimum (the same DP, nothing removed).
+    inst = _inst(40.0, (2, 3, 2), 7)
+    lam = np.full(inst.n_systems, 0.05)
+    sets = [{0}, {1, 2}]
+    path, work = lagrange.restricted_path(inst, lam, sets, max_work=np.inf)
+    assert path is not None and work > 0
+    listed = {1, 6, 0}  # bit masks of {0}, {1, 2} and the empty set
+    assert {int(sum(1 << v for v in np.flatnonzero(path[:, c]))) for c in range(inst.n_channels)} <= listed
+    every = [set(s) for r in range(inst.n_systems + 1) for s in itertools.combinations(range(inst.n_systems), r)]
+    full_path, _ = lagrange.restricted_path(inst, lam, every, max_work=np.inf)
+    rel = channel_dp.relax(inst)
+    weights = lagrange.victim_weights(inst, None)
+    free = channel_dp.solve(rel, lam, weights)
+    assert float(weights @ rel.per_victim(full_path) - lam @ full_path.sum(axis=1)) == pytest.approx(
+        float(weights @ rel.per_victim(free.x) - lam @ free.x.sum(axis=1)), abs=1e-12)

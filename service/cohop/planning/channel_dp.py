@@ -600,7 +600,7 @@ STATE_CAP = 200_000
 
 
 def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STATE_CAP,
-          max_work: float = np.inf) -> PathSolution:
+          max_work: float = np.inf, only: np.ndarray | None = None) -> PathSolution:
     """The DP's optimum for multipliers `lam` (per channel use) and victim weights `weights`.
 
     Once the states are enumerated, the transitions' work is estimated (`transition_estimate`); above
@@ -631,6 +631,10 @@ def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STAT
             size = min(cap, 8 * size)
         if n < 0:
             return PathSolution(-np.inf, None, total, total, 0, complete=False)
+        if only is not None:  # a restricted DP (plans, not bounds): the listed sets, and the pins alone
+            keep = np.isin(out_mask[:n], only)
+            keep[0] = True
+            out_mask, out_cost, n = out_mask[:n][keep], out_cost[:n][keep], int(keep.sum())
         lo[k] = total
         total += n
         hi[k] = total

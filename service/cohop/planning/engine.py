@@ -466,17 +466,25 @@ def _search(inst: PlanningInstance, settings: SolveSettings, budget: Budget, clo
             method += ", then local search from the Lagrangian bound's plans"
     if cg is not None and shares["lagrange"] > 0 and "lagrangian" not in bounds \
             and not _proven(_value(inst, x), max(bounds.values()), gap):
-        x, more = _without_lagrangian(inst, x, cg, budget, shares, windows, clock, notes, gap)
+        x, more = _without_lagrangian(inst, x, cg, budget, shares, windows, clock, notes, gap, spare)
         bounds["column_generation"] = max(bounds["column_generation"], more)
     return x, bounds, method, scale, start
 
 
+#: At most this share of the continued local search's work goes to the restricted DP that gives its start.
+RESTRICTED_DP_SHARE = 0.5
+
+
 def _without_lagrangian(inst: PlanningInstance, x: np.ndarray, cg: bound.BoundResult, budget: Budget, shares: dict,
-                        windows: "_Windows", clock: _Clock, notes: list[str], gap: float) -> tuple[np.ndarray, float]:
+                        windows: "_Windows", clock: _Clock, notes: list[str], gap: float,
+                        spare: float = 0.0) -> tuple[np.ndarray, float]:
     """When the Lagrangian bound gave nothing (its first DP solve would not fit its share: the medium bench site's
     first solve at the windowed duals scans 1.4 to 2 billion state pairs), its share continues the column
-    generation from the columns it held, and the share of the bound's plans continues the local search from the
-    best plan. Returns (the best plan, the continued column generation's bound)."""
+    generation from the columns it held, and the share of the bound's plans continues the local search, with the
+    work both column generations left when they converged early (`spare`: the first's): from the channel DP's
+    path restricted to the LP's sets (`lagrange.restricted_path`, repaired to the counts) when it has one, else
+    from the best plan; the better plan is kept.
+    Returns (the best plan, the continued column generation's bound)."""
     deadline = budget.deadline
     more = bound.lower_bound(inst, x, length=cg.window, iterations=400, seconds=budget.work(shares["lagrange"]),
                              deadline=windows.stopper("column generation", shares, "lagrange"), columns=cg.pool)
@@ -486,8 +494,19 @@ def _without_lagrangian(inst: PlanningInstance, x: np.ndarray, cg: bound.BoundRe
                  f"iteration(s), {more.columns} columns, {'converged' if more.converged else 'stopped at its work budget'}")
     if _proven(_value(inst, x), max(more.bound, cg.bound), gap):
         return x, more.bound
-    seconds = budget.work(shares["bound_plans"])
-    y = search.iterated(inst, x, search.kick_budget(inst, seconds), inst.req.seed + 7,
+    left = max(0.0, budget.work(shares["lagrange"]) - more.work / bound.WORK_PER_SECOND)
+    seconds = budget.work(shares["bound_plans"]) + left + spare
+    start = x
+    if inst.req.objective != "worst_system" and not np.isfinite(inst.ceilings).any():
+        path, dp_work = lagrange.restricted_path(inst, more.multipliers, (s for _, pattern in more.pool for s in pattern),
+                                                 RESTRICTED_DP_SHARE * seconds * lagrange.WORK_PER_SECOND)
+        deadline.count("dp_operations", dp_work)
+        repaired = search.from_relaxation(inst, [path]) if path is not None else None
+        if repaired is not None:
+            start = repaired
+            seconds = max(0.0, seconds - dp_work / lagrange.WORK_PER_SECOND)
+            notes.append("the local search continued from the column generation's restricted DP plan")
+    y = search.iterated(inst, start, search.kick_budget(inst, seconds), inst.req.seed + 7,
                         stop=windows.stopper("local search", shares, "bound_plans"),
                         counter=_Renamed(deadline, "kicks_continued"),
                         target=max(more.bound, cg.bound) / (1 - max(gap, OPTIMAL_GAP)))

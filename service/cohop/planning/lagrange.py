@@ -184,3 +184,19 @@ def _keep_plan(plans: list, x: np.ndarray, deviation: float, it: int) -> None:
     plans.append((deviation, it, x.copy()))
     plans.sort(key=lambda t: (t[0], t[1]))
     del plans[KEEP_PLANS:]
+
+
+def restricted_path(inst: PlanningInstance, multipliers: np.ndarray, sets, max_work: float,
+                    dual_weights: np.ndarray | None = None) -> tuple[np.ndarray | None, float]:
+    """A plan's raw material, not a bound: the channel DP at the column generation's multipliers with each
+    channel's states restricted to `sets` (iterables of systems: those of the LP's columns) and the pins alone.
+    The restricted DP is cheap where the full one is not (medium bench site: about 3 000 states and 0.2 s
+    against 15 000 states and 6 s), and its path, repaired to the counts (`search.from_relaxation`), starts a
+    local search that beat the search from the best plan in our runs there (1.512 against 1.523 after the same
+    kicks). Returns (the path or None when out of reach, the DP work spent)."""
+    if inst.n_systems > channel_dp.MAX_SYSTEMS or multipliers is None:
+        return None, 0.0
+    masks = np.array(sorted({sum(1 << int(v) for v in s) for s in sets}), dtype=np.int64)
+    sol = channel_dp.solve(channel_dp.relax(inst), np.asarray(multipliers, float), victim_weights(inst, dual_weights),
+                           max_work=max_work, only=masks)
+    return (sol.x if sol.complete else None), float(sol.work)
