@@ -599,6 +599,24 @@ SCAN_SHARE = 0.02
 STATE_CAP = 200_000
 
 
+def _listed_states(only: np.ndarray, allowed: int, pinned: int, margin: np.ndarray, p0: np.ndarray,
+                   g0: np.ndarray, bits: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The states of a restricted DP on one class of channels: the pins alone first, then each listed set with
+    the pins added, where every member is allowed there and no guard parts two members; costs as
+    `_class_states` gives them (-margin per member plus the co-channel cost of each pair). No pruning: a
+    restricted DP gives plans, not bounds."""
+    sets = np.unique(np.concatenate([[0], np.asarray(only, np.int64)]) | np.int64(pinned))
+    sets = sets[(sets & ~np.int64(allowed | pinned)) == 0]
+    member = (sets[:, None] & bits[None, :]) != 0
+    guarded = np.bitwise_or.reduce(np.where(member, g0[None, :], 0), axis=1) if sets.size else sets
+    sets, member = sets[(guarded & sets) == 0], member[(guarded & sets) == 0]
+    base = np.flatnonzero(sets == np.int64(pinned))
+    order = np.concatenate([base, np.flatnonzero(sets != np.int64(pinned))])
+    sets, m = sets[order], member[order].astype(float)
+    cost = -(m @ margin) + 0.5 * ((m @ p0) * m).sum(axis=1)
+    return sets.astype(np.int64), cost
+
+
 def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STATE_CAP,
           max_work: float = np.inf, only: np.ndarray | None = None) -> PathSolution:
     """The DP's optimum for multipliers `lam` (per channel use) and victim weights `weights`.
@@ -619,22 +637,23 @@ def solve(rel: Relaxation, lam: np.ndarray, weights: np.ndarray, cap: int = STAT
         margin = lam - weights * rel.class_node[k]
         allowed = (rel.class_allowed[k] & bits) != 0
         pinned = (rel.class_pinned[k] & bits) != 0
-        cand = np.flatnonzero(allowed & ~pinned & (margin > 0)).astype(np.int64)
-        pins = np.flatnonzero(pinned).astype(np.int64)
-        size = 1024
-        while True:
-            out_mask = np.empty(size, np.int64)
-            out_cost = np.empty(size)
-            n = _class_states(cand, pins, margin, p0, rel.g0, size, out_mask, out_cost)
-            if n >= 0 or size >= cap:
-                break
-            size = min(cap, 8 * size)
-        if n < 0:
-            return PathSolution(-np.inf, None, total, total, 0, complete=False)
         if only is not None:  # a restricted DP (plans, not bounds): the listed sets, and the pins alone
-            keep = np.isin(out_mask[:n], only)
-            keep[0] = True
-            out_mask, out_cost, n = out_mask[:n][keep], out_cost[:n][keep], int(keep.sum())
+            out_mask, out_cost = _listed_states(only, rel.class_allowed[k], rel.class_pinned[k], margin, p0, rel.g0,
+                                                bits)
+            n = out_mask.size
+        else:
+            cand = np.flatnonzero(allowed & ~pinned & (margin > 0)).astype(np.int64)
+            pins = np.flatnonzero(pinned).astype(np.int64)
+            size = 1024
+            while True:
+                out_mask = np.empty(size, np.int64)
+                out_cost = np.empty(size)
+                n = _class_states(cand, pins, margin, p0, rel.g0, size, out_mask, out_cost)
+                if n >= 0 or size >= cap:
+                    break
+                size = min(cap, 8 * size)
+            if n < 0:
+                return PathSolution(-np.inf, None, total, total, 0, complete=False)
         lo[k] = total
         total += n
         hi[k] = total
